@@ -1,0 +1,109 @@
+# Makefile - builds dervish, its library, tests and samples with GNU make.
+#   make            the dervish executable and libdervish.a
+#   make check      every test (unit, end-to-end, bad input, runtime)
+#   make samples    build and run the sample models with their drivers
+#   make install    PREFIX (default /usr/local) and DESTDIR are honoured
+#   make SANITIZE=1 ...   the same with AddressSanitizer and UBSan (build-san/)
+
+.SUFFIXES:
+.DELETE_ON_ERROR:
+.SECONDARY:
+
+CC      ?= cc
+PREFIX  ?= /usr/local
+DESTDIR ?=
+VERSION := 0.1.0
+
+WARN    := -std=c99 -Wall -Wextra -Wpedantic -Wshadow -Wstrict-prototypes \
+           -Wmissing-prototypes
+CFLAGS  ?= -O2 -g
+LDFLAGS ?=
+LDLIBS  := -lm
+
+ifeq ($(SANITIZE),1)
+B := build-san
+SANFLAGS := -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=all
+else
+B := build
+SANFLAGS :=
+endif
+
+ALL_CFLAGS  = $(WARN) $(CFLAGS) $(SANFLAGS) -D_POSIX_C_SOURCE=200809L \
+              -DDERVISH_VERSION='"$(VERSION)"' -Icompiler -Iruntime -I$(B)
+ALL_LDFLAGS = $(LDFLAGS) $(SANFLAGS)
+
+CHECK_CFLAGS := $(shell pkg-config --cflags check 2>/dev/null)
+CHECK_LIBS   := $(shell pkg-config --libs check 2>/dev/null || echo -lcheck -lsubunit -lrt -lm -pthread)
+
+LIB_SRCS := $(filter-out compiler/main.c,$(wildcard compiler/*.c))
+LIB_OBJS := $(LIB_SRCS:compiler/%.c=$(B)/%.o) $(B)/lexer.o $(B)/parser.o \
+            $(B)/runtime_text.o
+RUNTIME  := $(sort $(wildcard runtime/*.c))
+TEST_SRCS := $(wildcard tests/test_*.c)
+TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
+
+.PHONY: all check samples clean install uninstall
+all: $(B)/dervish dervish
+
+dervish: $(B)/dervish
+	cp $< $@
+
+$(B)/dervish: $(B)/main.o $(B)/libdervish.a
+	$(CC) $(ALL_LDFLAGS) -o $@ $^ $(LDLIBS)
+
+$(B)/libdervish.a: $(LIB_OBJS)
+	rm -f $@
+	ar rcs $@ $^
+
+$(B)/%.o: compiler/%.c Makefile | $(B)/parser.h
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -MMD -MP -c -o $@ $<
+
+# lemon writes parser.c and parser.h together; one pattern rule runs it once.
+$(B)/%ser.c $(B)/%ser.h: grammar/%ser.y
+	@mkdir -p $(B)
+	lemon -q -l -d$(B) -T/usr/share/lemon/lempar.c $<
+	touch $(B)/parser.h
+
+$(B)/lexer.c: grammar/lexer.re
+	@mkdir -p $(B)
+	re2c -W -Werror --no-generation-date --no-version -o $@ $<
+
+$(B)/lexer.o: $(B)/lexer.c $(B)/parser.h Makefile
+	$(CC) $(ALL_CFLAGS) -MMD -MP -c -o $@ $<
+
+$(B)/parser.o: $(B)/parser.c Makefile
+	$(CC) $(ALL_CFLAGS) -MMD -MP -c -o $@ $<
+
+# The runtime helpers are embedded in the compiler as text, to be copied
+# into emitted code; tests/test_runtime.c also compiles them directly.
+$(B)/runtime_text.c: $(RUNTIME) scripts/embed_runtime.sh Makefile
+	@mkdir -p $(B)
+	sh scripts/embed_runtime.sh $(RUNTIME) > $@
+
+$(B)/runtime_text.o: $(B)/runtime_text.c
+	$(CC) $(ALL_CFLAGS) -c -o $@ $<
+
+# ---------------------------------------------------------------- tests
+$(B)/tests/%: tests/%.c tests/testutil.h $(B)/libdervish.a Makefile
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) $(CHECK_CFLAGS) -Itests -Iruntime -o $@ $< \
+	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)
+
+check: $(B)/dervish $(TEST_BINS)
+	@sh tests/run_all.sh $(B)
+
+samples: $(B)/dervish
+	@sh samples/run_samples.sh $(B)/dervish
+
+clean:
+	rm -rf build build-san dervish
+
+install: $(B)/dervish
+	mkdir -p $(DESTDIR)$(PREFIX)/bin
+	cp $(B)/dervish $(DESTDIR)$(PREFIX)/bin/dervish
+
+uninstall:
+	rm -f $(DESTDIR)$(PREFIX)/bin/dervish
+
+-include $(wildcard $(B)/*.d)

@@ -1,0 +1,24 @@
+/* check.h - `dervish check`: evaluate a compiled model with the IR
+ * evaluator, take its gradient by the reverse pass, and compare that with
+ * numerical derivatives. */
+#ifndef DERVISH_CHECK_H
+#define DERVISH_CHECK_H
+
+#include "dervish.h"
+
+#include <stdio.h>
+
+typedef struct CheckOptions {
+    const char *at_path;    /* --at FILE: values of params and inputs, or NULL */
+    unsigned long seed;     /* --seed N: for random values (default 1) */
+    double tolerance;       /* --tolerance X: largest accepted error (default 1e-6) */
+    FILE *out;              /* where the report goes (stdout) */
+} CheckOptions;
+
+/* Returns the exit status: 0 when every derivative agrees, 1 when some do
+ * not (or the model has errors), 3 when the --at file cannot be read.
+ * Problems in the --at file are reported as file:line:col: error: ... and
+ * give status 1. */
+int check_run(const DvCompilation *c, const CheckOptions *opt);
+
+#endif

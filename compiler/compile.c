@@ -1,0 +1,67 @@
+/* compile.c - the pipeline: parse, resolve, reverse; then emit on demand.
+ * See dervish.h. */
+#include "dervish.h"
+#include "emit_c.h"
+#include "parse.h"
+#include "resolve.h"
+#include "reverse.h"
+
+#include <string.h>
+
+#ifndef DERVISH_VERSION
+#define DERVISH_VERSION "unknown"
+#endif
+
+const char *dv_basename(const char *path)
+{
+    const char *slash = strrchr(path, '/');
+    return slash ? slash + 1 : path;
+}
+
+const char *dv_stem(Arena *a, const char *path)
+{
+    const char *base = dv_basename(path);
+    const char *dot = strrchr(base, '.');
+    size_t n = dot && dot != base ? (size_t)(dot - base) : strlen(base);
+    return arena_strndup(a, base, n);
+}
+
+int dv_compile(DvCompilation *c, const char *path, const char *text,
+               size_t len, const DvOptions *opt)
+{
+    memset(c, 0, sizeof *c);
+    arena_init(&c->arena);
+    char *copy = arena_alloc(&c->arena, len + 1);
+    memcpy(copy, text, len);
+    copy[len] = '\0';
+    c->src.path = arena_strndup(&c->arena, path, strlen(path));
+    c->src.text = copy;
+    c->src.len = len;
+    diag_init(&c->diag, &c->src, opt->diag_out);
+
+    c->ast = parse_model(&c->arena, &c->diag, &c->src);
+    Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, c->ast, opt->name,
+                           dv_stem(&c->arena, path));
+    if (c->diag.errors)
+        return 1;
+    ir_verify(ir);
+    reverse_pass(ir);
+    ir_verify(ir);
+    c->ir = ir;
+    return 0;
+}
+
+void dv_emit(const DvCompilation *c, const char *header_name, Buf *c_out,
+             Buf *h_out)
+{
+    EmitOptions o;
+    o.model_file = dv_basename(c->src.path);
+    o.header_name = header_name;
+    o.version = DERVISH_VERSION;
+    emit_c(c->ir, &o, c_out, h_out);
+}
+
+void dv_free(DvCompilation *c)
+{
+    arena_free(&c->arena);
+}

@@ -1,0 +1,42 @@
+/* dervish.h - the compiler as a library: one call takes model text through
+ * every phase; main.c and the tests are its users.  Each compilation owns
+ * an arena, so several can run one after another in one process. */
+#ifndef DERVISH_H
+#define DERVISH_H
+
+#include "ast.h"
+#include "buf.h"
+#include "diag.h"
+#include "ir.h"
+
+typedef struct DvOptions {
+    const char *name;       /* --name: symbol prefix, or NULL */
+    FILE *diag_out;         /* where diagnostics go; NULL: nowhere */
+} DvOptions;
+
+typedef struct DvCompilation {
+    Arena arena;
+    Source src;
+    Diag diag;
+    AstModel *ast;
+    Ir *ir;                 /* after the reverse pass; NULL on errors */
+} DvCompilation;
+
+/* Compile model text (len bytes; a copy is taken) read from PATH.
+ * Returns 0 when the model has no errors. */
+int dv_compile(DvCompilation *c, const char *path, const char *text,
+               size_t len, const DvOptions *opt);
+
+/* Emit C for a compiled model: source into *c_out, header into *h_out
+ * (both appended to).  header_name is what the source #includes. */
+void dv_emit(const DvCompilation *c, const char *header_name, Buf *c_out,
+             Buf *h_out);
+
+void dv_free(DvCompilation *c);
+
+/* The file name without directory and extension ("a/b/kiln.dvs" -> "kiln"),
+ * in the compilation's arena. */
+const char *dv_stem(Arena *a, const char *path);
+const char *dv_basename(const char *path);
+
+#endif

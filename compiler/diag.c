@@ -1,0 +1,119 @@
+/* diag.c - formatting of errors, warnings and notes; see diag.h. */
+#include "diag.h"
+
+#include <stdarg.h>
+#include <stdlib.h>
+
+void diag_init(Diag *d, const Source *src, FILE *out)
+{
+    d->src = src;
+    d->out = out;
+    d->errors = 0;
+    d->warnings = 0;
+    d->max_errors = 20;
+}
+
+void source_line_col(const Source *src, uint32_t off, int *line, int *col)
+{
+    int l = 1;
+    uint32_t start = 0;
+    if (off > src->len)
+        off = (uint32_t)src->len;
+    for (uint32_t i = 0; i < off; i++)
+        if (src->text[i] == '\n') {
+            l++;
+            start = i + 1;
+        }
+    *line = l;
+    *col = (int)(off - start) + 1;
+}
+
+/* Print the line holding `at` with a caret under its first byte and tildes
+ * under the rest of the span (clipped to the line). */
+static void show_line(const Diag *d, Span at)
+{
+    const char *text = d->src->text;
+    size_t len = d->src->len;
+    uint32_t off = at.off > len ? (uint32_t)len : at.off;
+    uint32_t start = off, end = off;
+    while (start > 0 && text[start - 1] != '\n')
+        start--;
+    while (end < len && text[end] != '\n' && text[end] != '\r')
+        end++;
+    fputs("    ", d->out);
+    for (uint32_t i = start; i < end; i++) {
+        unsigned char c = (unsigned char)text[i];
+        /* Control bytes would garble the terminal; show them as spaces. */
+        fputc(c == '\t' || c >= 0x20 ? c : ' ', d->out);
+    }
+    fputs("\n    ", d->out);
+    for (uint32_t i = start; i < off; i++)
+        fputc(text[i] == '\t' ? '\t' : ' ', d->out);
+    fputc('^', d->out);
+    uint32_t stop = at.off + at.len;
+    for (uint32_t i = off + 1; i < stop && i < end; i++)
+        fputc('~', d->out);
+    fputc('\n', d->out);
+}
+
+static void report(Diag *d, const char *kind, Span at, const char *fmt,
+                   va_list ap)
+{
+    if (!d->out)
+        return;
+    int line, col;
+    source_line_col(d->src, at.off, &line, &col);
+    fprintf(d->out, "%s:%d:%d: %s: ", d->src->path, line, col, kind);
+    vfprintf(d->out, fmt, ap);
+    fputc('\n', d->out);
+    show_line(d, at);
+}
+
+void diag_error(Diag *d, Span at, const char *fmt, ...)
+{
+    d->errors++;
+    if (d->errors > d->max_errors)
+        return;
+    va_list ap;
+    va_start(ap, fmt);
+    report(d, "error", at, fmt, ap);
+    va_end(ap);
+    if (d->errors == d->max_errors && d->out)
+        fprintf(d->out, "%s: too many errors (limit is %d); stopping\n",
+                d->src->path, d->max_errors);
+}
+
+void diag_warning(Diag *d, Span at, const char *fmt, ...)
+{
+    d->warnings++;
+    va_list ap;
+    va_start(ap, fmt);
+    report(d, "warning", at, fmt, ap);
+    va_end(ap);
+}
+
+void diag_note(Diag *d, Span at, const char *fmt, ...)
+{
+    if (d->errors > d->max_errors)
+        return;
+    va_list ap;
+    va_start(ap, fmt);
+    report(d, "note", at, fmt, ap);
+    va_end(ap);
+}
+
+Span span_join(Span a, Span b)
+{
+    uint32_t lo = a.off < b.off ? a.off : b.off;
+    uint32_t ha = a.off + a.len, hb = b.off + b.len;
+    uint32_t hi = ha > hb ? ha : hb;
+    Span s = {lo, hi - lo};
+    return s;
+}
+
+void dv_internal_fault(const char *file, int line)
+{
+    fprintf(stderr, "dervish: internal fault at %s:%d; please report it\n",
+            file, line);
+    abort();
+}

@@ -1,0 +1,524 @@
+/* emit_c.c - writes the model's C source and header; see emit_c.h.
+ *
+ * Layout, for review: a banner saying what produced the file, the runtime
+ * helpers the model uses, then <model>_value (the forward statements) and
+ * <model>_gradient (the forward statements, then the reverse sweep).  Each
+ * IR statement becomes one loop nest over its domain, with the model's index
+ * names, under a comment quoting the model line it comes from.  Locals are
+ * declared where first written. */
+#include "emit_c.h"
+#include "names.h"
+#include "runtime_text.h"
+
+#include <ctype.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+typedef enum Function { FN_VALUE, FN_GRADIENT } Function;
+
+typedef struct Emitter {
+    const Ir *ir;
+    const EmitOptions *opt;
+    Buf *out;
+    Function fn;
+    char *declared;     /* per array: declared in the current function */
+    char *argpos_read;  /* per array: a reverse statement reads it */
+    int uses_p, uses_in;
+    uint32_t last_origin;
+} Emitter;
+
+/* ------------------------------------------------------------ helpers */
+
+static void format_number(char *s, size_t n, double v)
+{
+    if (isnan(v)) {
+        snprintf(s, n, "NAN");
+        return;
+    }
+    if (isinf(v)) {
+        snprintf(s, n, v < 0 ? "-HUGE_VAL" : "HUGE_VAL");
+        return;
+    }
+    /* the shortest form that reads back as the same double */
+    for (int digits = 1; digits <= 17; digits++) {
+        snprintf(s, n, "%.*g", digits, v);
+        if (strtod(s, NULL) == v)
+            break;
+    }
+    if (!strpbrk(s, ".e"))
+        strncat(s, ".0", n - strlen(s) - 1);
+}
+
+/* Copy model text into a C comment: one line, whitespace folded, model
+ * comments dropped, and nothing that could end the comment, open another
+ * or form a trigraph. */
+static void put_model_text(Buf *b, const Source *src, Span span)
+{
+    const char *t = src->text + span.off;
+    size_t n = span.len, shown = 0;
+    int space = 0;
+    for (size_t i = 0; i < n && shown < 160; i++) {
+        char c = t[i];
+        if (c == '#') {
+            while (i + 1 < n && t[i + 1] != '\n')
+                i++;
+            continue;
+        }
+        if (isspace((unsigned char)c) || (unsigned char)c < 0x20) {
+            space = 1;
+            continue;
+        }
+        if (space && shown)
+            buf_put(b, " ");
+        space = 0;
+        if ((c == '*' && i + 1 < n && t[i + 1] == '/') ||
+            (c == '/' && i + 1 < n && t[i + 1] == '*') ||
+            (c == '?' && i + 1 < n && t[i + 1] == '?')) {
+            buf_putn(b, &c, 1);
+            buf_put(b, " ");
+        } else if (c == '\\' || (unsigned char)c >= 0x7f) {
+            buf_put(b, "?");
+        } else {
+            buf_putn(b, &c, 1);
+        }
+        shown++;
+    }
+    if (shown >= 160)
+        buf_put(b, " ...");
+}
+
+static void indent(Emitter *e, int depth)
+{
+    for (int i = 0; i < depth; i++)
+        buf_put(e->out, "    ");
+}
+
+static char *upper(const char *s)
+{
+    size_t n = strlen(s);
+    char *u = malloc(n + 1);
+    if (!u)
+        exit(3);
+    for (size_t i = 0; i <= n; i++)
+        u[i] = (char)toupper((unsigned char)s[i]);
+    return u;
+}
+
+/* ------------------------------------------------------- expressions */
+
+enum { PREC_SELECT = 3, PREC_OR = 4, PREC_AND = 5, PREC_EQUALITY = 9,
+       PREC_RELATION = 10, PREC_ADD = 12, PREC_MUL = 13, PREC_UNARY = 14,
+       PREC_ATOM = 16 };
+
+static int precedence(const Ir *ir, NodeId id)
+{
+    const IrNode *n = ir_at(ir, id);
+    switch (n->op) {
+    case IR_CONST: return n->num < 0 || (n->num == 0 && signbit(n->num))
+                              ? PREC_UNARY : PREC_ATOM;
+    case IR_NEG: case IR_NOT: return PREC_UNARY;
+    case IR_MUL: case IR_DIV: return PREC_MUL;
+    case IR_ADD: case IR_SUB: return PREC_ADD;
+    case IR_LT: case IR_LE: case IR_GT: case IR_GE: return PREC_RELATION;
+    case IR_EQ: case IR_NE: return PREC_EQUALITY;
+    case IR_AND: return PREC_AND;
+    case IR_OR: return PREC_OR;
+    case IR_SELECT: return PREC_SELECT;
+    default: return PREC_ATOM;
+    }
+}
+
+static void emit_access(Emitter *e, int32_t array, int32_t tuple)
+{
+    const IrArray *a = &e->ir->arrays.items[array];
+    const IrArray *base = a->role == ROLE_ADJOINT
+                              ? &e->ir->arrays.items[a->primal] : a;
+    if (a->role == ROLE_PARAM) {
+        buf_put(e->out, DV_PREFIX "p->");
+        e->uses_p = 1;
+    } else if (a->role == ROLE_INPUT) {
+        buf_put(e->out, DV_PREFIX "in->");
+        e->uses_in = 1;
+    } else if (a->role == ROLE_ADJOINT && base->role == ROLE_PARAM) {
+        buf_put(e->out, DV_PREFIX "grad->");
+    }
+    buf_put(e->out, a->name);
+    int n = ir_tuple_len(e->ir, tuple);
+    const int32_t *v = ir_tuple_vars(e->ir, tuple);
+    for (int k = 0; k < n; k++)
+        buf_printf(e->out, "[%s]", e->ir->vars.items[v[k]].name);
+}
+
+static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
+{
+    const Ir *ir = e->ir;
+    const IrNode *n = ir_at(ir, id);
+    const IrOpInfo *info = &ir_ops[n->op];
+    int p = precedence(ir, id);
+    /* && inside || gets parentheses, as readers (and -Wparentheses) like */
+    int paren = p < min_prec || (parent_op == IR_OR && n->op == IR_AND);
+    if (paren)
+        buf_put(e->out, "(");
+    switch (info->kind) {
+    case OPK_LEAF:
+        if (n->op == IR_CONST) {
+            char s[40];
+            format_number(s, sizeof s, n->num);
+            buf_put(e->out, s);
+        } else if (n->op == IR_READ) {
+            emit_access(e, n->array, n->tuple);
+        } else {
+            buf_put(e->out, ir->vars.items[n->var].name);
+        }
+        break;
+    case OPK_PREFIX:
+    case OPK_LOGIC:
+    case OPK_INFIX:
+    case OPK_COMPARE:
+        if (n->nargs == 1) {
+            buf_put(e->out, info->c_spelling);
+            emit_expr(e, n->arg[0], PREC_UNARY, n->op);
+            break;
+        }
+        emit_expr(e, n->arg[0], p, n->op);
+        buf_printf(e->out, " %s ", info->c_spelling);
+        emit_expr(e, n->arg[1], p + 1, n->op);
+        break;
+    case OPK_SELECT:
+        emit_expr(e, n->arg[0], PREC_OR, n->op);
+        buf_put(e->out, " ? ");
+        emit_expr(e, n->arg[1], 0, n->op);
+        buf_put(e->out, " : ");
+        emit_expr(e, n->arg[2], PREC_SELECT, n->op);
+        break;
+    case OPK_CALL:
+    case OPK_HELPER:
+        if (info->kind == OPK_HELPER)
+            buf_put(e->out, DV_PREFIX);
+        buf_put(e->out, info->c_spelling);
+        buf_put(e->out, "(");
+        for (int i = 0; i < n->nargs; i++) {
+            if (i)
+                buf_put(e->out, ", ");
+            emit_expr(e, n->arg[i], 0, n->op);
+        }
+        buf_put(e->out, ")");
+        break;
+    }
+    if (paren)
+        buf_put(e->out, ")");
+}
+
+/* --------------------------------------------------------- statements */
+
+static int is_external(const IrArray *a, const Ir *ir)
+{
+    if (a->role == ROLE_PARAM || a->role == ROLE_INPUT)
+        return 1;
+    return a->role == ROLE_ADJOINT &&
+           ir->arrays.items[a->primal].role == ROLE_PARAM;
+}
+
+static const char *c_type(const IrArray *a)
+{
+    return a->role == ROLE_ARGPOS ? "long" : "double";
+}
+
+static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
+{
+    const Ir *ir = e->ir;
+    const IrArray *t = &ir->arrays.items[s->target];
+    int needs_argpos = s->argpos >= 0 && e->fn == FN_GRADIENT &&
+                       e->argpos_read[s->argpos];
+    if (t->role == ROLE_ARGPOS && !(e->fn == FN_GRADIENT &&
+                                    e->argpos_read[s->target]))
+        return;     /* only the reverse sweep reads a winner's position */
+
+    if (s->origin.off != e->last_origin) {
+        int line, col;
+        source_line_col(ir->src, s->origin.off, &line, &col);
+        if (e->last_origin != UINT32_MAX)
+            buf_put(e->out, "\n");
+        e->last_origin = s->origin.off;
+        buf_printf(e->out, "    /* %s%s:%d: ", origin_label,
+                   e->opt->model_file, line);
+        put_model_text(e->out, ir->src, s->origin);
+        buf_put(e->out, " */\n");
+    }
+    int scalar_init = 0;
+    if (!is_external(t, ir) && !e->declared[s->target]) {
+        e->declared[s->target] = 1;
+        if (t->rank == 0 && s->kind == SK_SET) {
+            scalar_init = 1;
+        } else {
+            buf_printf(e->out, "    %s %s", c_type(t), t->name);
+            for (int k = 0; k < t->rank; k++)
+                buf_printf(e->out, "[%d]", t->dim[k]);
+            buf_put(e->out, ";\n");
+        }
+    }
+
+    int depth = 1;
+    int n = ir_tuple_len(ir, s->domain);
+    const int32_t *v = ir_tuple_vars(ir, s->domain);
+    for (int k = 0; k < n; k++, depth++) {
+        const IrIndexVar *iv = &ir->vars.items[v[k]];
+        indent(e, depth);
+        buf_printf(e->out, "for (int %s = 0; %s < %d; %s++)\n", iv->name,
+                   iv->name, iv->extent, iv->name);
+    }
+    indent(e, depth);
+    const IrNode *x = ir_at(ir, s->expr);
+    switch (s->kind) {
+    case SK_SET:
+        if (scalar_init)
+            buf_printf(e->out, "%s ", c_type(t));
+        emit_access(e, s->target, s->tuple);
+        buf_put(e->out, " = ");
+        emit_expr(e, s->expr, 0, -1);
+        break;
+    case SK_ADD:
+        emit_access(e, s->target, s->tuple);
+        if (x->op == IR_NEG) {
+            buf_put(e->out, " -= ");
+            emit_expr(e, x->arg[0], 0, -1);
+        } else {
+            buf_put(e->out, " += ");
+            emit_expr(e, s->expr, 0, -1);
+        }
+        break;
+    case SK_LSE:
+        emit_access(e, s->target, s->tuple);
+        buf_put(e->out, " = " DV_PREFIX "logaddexp(");
+        emit_access(e, s->target, s->tuple);
+        buf_put(e->out, ", ");
+        emit_expr(e, s->expr, 0, -1);
+        buf_put(e->out, ")");
+        break;
+    case SK_MAX:
+    case SK_MIN: {
+        buf_put(e->out, "{\n");
+        indent(e, depth + 1);
+        buf_put(e->out, "double " DV_PREFIX "next = ");
+        emit_expr(e, s->expr, 0, -1);
+        buf_put(e->out, ";\n");
+        indent(e, depth + 1);
+        buf_printf(e->out, "if (" DV_PREFIX "next %s ",
+                   s->kind == SK_MAX ? ">" : "<");
+        emit_access(e, s->target, s->tuple);
+        buf_put(e->out, ") {\n");
+        indent(e, depth + 2);
+        emit_access(e, s->target, s->tuple);
+        buf_put(e->out, " = " DV_PREFIX "next;\n");
+        if (needs_argpos) {
+            /* the flat position of the winning point */
+            int nr = ir_tuple_len(ir, s->reduced);
+            const int32_t *rv = ir_tuple_vars(ir, s->reduced);
+            indent(e, depth + 2);
+            emit_access(e, s->argpos, s->tuple);
+            buf_put(e->out, " = ");
+            for (int k = 0; k < nr; k++) {
+                if (k)
+                    buf_printf(e->out, " * %d + ", ir->vars.items[rv[k]].extent);
+                buf_put(e->out, ir->vars.items[rv[k]].name);
+            }
+            buf_put(e->out, ";\n");
+        }
+        indent(e, depth + 1);
+        buf_put(e->out, "}\n");
+        indent(e, depth);
+        buf_put(e->out, "}\n");
+        return;
+    }
+    }
+    buf_put(e->out, ";\n");
+}
+
+/* ------------------------------------------------------------- files */
+
+static int has_inputs(const Ir *ir)
+{
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_INPUT)
+            return 1;
+    return 0;
+}
+
+static long param_count(const Ir *ir)
+{
+    long n = 0;
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_PARAM)
+            n += ir_array_size(&ir->arrays.items[i]);
+    return n;
+}
+
+static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
+                        const char *what)
+{
+    buf_printf(h, "/* %s */\ntypedef struct %s {\n", what, type);
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (a->role != role)
+            continue;
+        buf_printf(h, "    double %s", a->name);
+        for (int k = 0; k < a->rank; k++)
+            buf_printf(h, "[%d]", a->dim[k]);
+        buf_put(h, ";\n");
+    }
+    buf_printf(h, "} %s;\n\n", type);
+}
+
+/* Prototypes, shared by the header and the definitions.  The header names
+ * the arguments plainly; definitions use the reserved prefix so that model
+ * names such as p or in cannot collide with them. */
+static void signature(Buf *b, const Ir *ir, Function fn, const char *prefix)
+{
+    const char *m = ir->model;
+    buf_printf(b, "double %s_%s(const %s_param *%sp", m,
+               fn == FN_VALUE ? "value" : "gradient", m, prefix);
+    if (has_inputs(ir))
+        buf_printf(b, ", const %s_input *%sin", m, prefix);
+    if (fn == FN_GRADIENT)
+        buf_printf(b, ", %s_param *%sgrad", m, prefix);
+    buf_put(b, ")");
+}
+
+static void emit_header(const Ir *ir, const EmitOptions *opt, Buf *h)
+{
+    const char *m = ir->model;
+    char *M = upper(m);
+    const char *out = ir->arrays.items[ir->output].name;
+    buf_printf(h,
+               "/* %s.h - value and gradient of the model %s (%s).\n"
+               " * Generated by dervish %s; edit the model, not this file. */\n"
+               "#ifndef DVS_%s_H\n#define DVS_%s_H\n\n"
+               "#ifdef __cplusplus\nextern \"C\" {\n#endif\n\n",
+               m, m, opt->model_file, opt->version, M, M);
+    buf_printf(h, "#define %s_PARAM_COUNT %ld   /* doubles in %s_param */\n\n",
+               M, param_count(ir), m);
+    emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
+                "The params: what the gradient is taken with respect to.");
+    buf_printf(h,
+               "/* A %s_param seen as a flat vector of %s_PARAM_COUNT doubles,\n"
+               " * in member order (row-major within arrays), for optimisers. */\n"
+               "typedef union %s_param_flat {\n"
+               "    %s_param p;\n"
+               "    double v[%s_PARAM_COUNT];\n"
+               "} %s_param_flat;\n\n", m, M, m, m, M, m);
+    if (has_inputs(ir))
+        emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
+                    "The inputs: data, not differentiated.");
+    buf_printf(h, "/* Returns the model's output, %s. */\n", out);
+    signature(h, ir, FN_VALUE, "");
+    buf_put(h, ";\n\n");
+    buf_printf(h,
+               "/* Returns %s as %s_value does and overwrites every member of\n"
+               " * *grad with the derivative of %s with respect to that param. */\n",
+               out, m, out);
+    signature(h, ir, FN_GRADIENT, "");
+    buf_put(h, ";\n\n#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
+    free(M);
+}
+
+/* The runtime helpers the statements call, in the runtime table's order. */
+static void emit_helpers(const Ir *ir, const char *reached, Buf *c)
+{
+    char used[IR_OP_COUNT] = {0};
+    for (int i = 0; i < ir->nodes.len; i++)
+        if (reached[i])
+            used[ir->nodes.items[i].op] = 1;
+    for (int i = 0; i < ir->reverse.len; i++)
+        if (ir->reverse.items[i].kind == SK_LSE)
+            used[IR_LOGADDEXP] = 1;
+    for (int i = 0; i < ir->forward.len; i++)
+        if (ir->forward.items[i].kind == SK_LSE)
+            used[IR_LOGADDEXP] = 1;
+    for (int t = 0; t < runtime_text_count; t++)
+        for (int op = 0; op < IR_OP_COUNT; op++)
+            if (used[op] && ir_ops[op].kind == OPK_HELPER &&
+                strcmp(ir_ops[op].c_spelling, runtime_texts[t].name) == 0) {
+                buf_put(c, "\n");
+                buf_put(c, runtime_texts[t].text);
+                break;
+            }
+}
+
+static void emit_function(Emitter *e, Function fn, Buf *c)
+{
+    const Ir *ir = e->ir;
+    Buf body = {0};
+    e->out = &body;
+    e->fn = fn;
+    e->uses_p = e->uses_in = 0;
+    e->last_origin = UINT32_MAX;
+    memset(e->declared, 0, (size_t)ir->arrays.len);
+    for (int i = 0; i < ir->forward.len; i++)
+        emit_stmt(e, &ir->forward.items[i], "");
+    if (fn == FN_GRADIENT) {
+        buf_put(&body, "\n    /* The reverse sweep: adjoints, last statement "
+                       "first. */\n");
+        e->last_origin = UINT32_MAX;
+        for (int i = 0; i < ir->reverse.len; i++)
+            emit_stmt(e, &ir->reverse.items[i], "adjoint of: ");
+    }
+    buf_put(&body, "\n    return ");
+    int32_t none = ir_tuple((Ir *)ir, NULL, 0);
+    emit_access(e, ir->output, none);
+    buf_put(&body, ";\n}\n");
+
+    buf_put(c, "\n");
+    signature(c, ir, fn, DV_PREFIX);
+    buf_put(c, "\n{\n");
+    if (!e->uses_p)
+        buf_put(c, "    (void)" DV_PREFIX "p;\n");
+    if (has_inputs(ir) && !e->uses_in)
+        buf_put(c, "    (void)" DV_PREFIX "in;\n");
+    buf_putn(c, body.data, body.len);
+    buf_free(&body);
+}
+
+void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
+{
+    const char *m = ir->model;
+    char *M = upper(m);
+    emit_header(ir, opt, h);
+
+    Emitter e;
+    memset(&e, 0, sizeof e);
+    e.ir = ir;
+    e.opt = opt;
+    e.declared = calloc((size_t)ir->arrays.len + 1, 1);
+    e.argpos_read = calloc((size_t)ir->arrays.len + 1, 1);
+    char *reached = calloc((size_t)ir->nodes.len + 1, 1);
+    if (!e.declared || !e.argpos_read || !reached)
+        exit(3);
+    ir_mark_reached(ir, &ir->reverse, reached);
+    for (int i = 0; i < ir->nodes.len; i++) {
+        const IrNode *n = &ir->nodes.items[i];
+        if (reached[i] && n->op == IR_READ &&
+            ir->arrays.items[n->array].role == ROLE_ARGPOS)
+            e.argpos_read[n->array] = 1;
+    }
+    ir_mark_reached(ir, &ir->forward, reached);
+
+    buf_printf(c,
+               "/* %s.c - value and gradient of the model %s (%s).\n"
+               " * Generated by dervish %s; edit the model, not this file.\n"
+               " * Needs only <math.h> (link with -lm); no globals, no heap. */\n"
+               "#include \"%s\"\n\n#include <math.h>\n\n"
+               "/* %s_param is used as a flat vector: it must hold exactly\n"
+               " * %s_PARAM_COUNT doubles, with no padding. */\n"
+               "typedef char " DV_PREFIX "param_is_flat[sizeof(%s_param) == "
+               "%s_PARAM_COUNT * sizeof(double) ? 1 : -1];\n",
+               m, m, opt->model_file, opt->version, opt->header_name, m, M, m,
+               M);
+    emit_helpers(ir, reached, c);
+    emit_function(&e, FN_VALUE, c);
+    emit_function(&e, FN_GRADIENT, c);
+    free(e.declared);
+    free(e.argpos_read);
+    free(reached);
+    free(M);
+}

@@ -1,0 +1,18 @@
+/* emit_c.h - the C emitter: IR after the reverse pass in, the model's C
+ * source and header out (LANGUAGE.md section 6). */
+#ifndef DERVISH_EMIT_C_H
+#define DERVISH_EMIT_C_H
+
+#include "buf.h"
+#include "ir.h"
+
+typedef struct EmitOptions {
+    const char *model_file;     /* shown in comments (a base name) */
+    const char *header_name;    /* what the source #includes */
+    const char *version;        /* dervish's version, for the banner */
+} EmitOptions;
+
+/* Append the source to c and the header to h. */
+void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h);
+
+#endif

@@ -1,0 +1,410 @@
+/* ir.c - construction of IR nodes, tuples, arrays and statements, with
+ * hash-consing, plus the IR's printer and verifier; see ir.h. */
+#include "ir.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+const IrOpInfo ir_ops[IR_OP_COUNT] = {
+#define OP(id, name, arity, kind, c) {name, arity, kind, c},
+#include "ops.def"
+#undef OP
+};
+
+int ir_builtin(const char *name)
+{
+    for (int op = 0; op < IR_OP_COUNT; op++)
+        if (ir_ops[op].model_name && strcmp(ir_ops[op].model_name, name) == 0)
+            return op;
+    return -1;
+}
+
+Ir *ir_new(Arena *arena, const Source *src)
+{
+    Ir *ir = arena_alloc(arena, sizeof *ir);
+    ir->arena = arena;
+    ir->src = src;
+    ir->output = -1;
+    return ir;
+}
+
+/* ------------------------------------------------------------ hashing */
+
+static uint64_t mix(uint64_t h, uint64_t v)
+{
+    h ^= v + 0x9e3779b97f4a7c15ULL + (h << 6) + (h >> 2);
+    return h;
+}
+
+static uint64_t node_key(const IrNode *n)
+{
+    uint64_t bits;
+    memcpy(&bits, &n->num, sizeof bits);
+    uint64_t h = mix(n->op, n->nargs);
+    for (int i = 0; i < 3; i++)
+        h = mix(h, (uint32_t)n->arg[i]);
+    h = mix(h, (uint32_t)n->array);
+    h = mix(h, (uint32_t)n->tuple);
+    h = mix(h, (uint32_t)n->var);
+    return mix(h, bits);
+}
+
+static int node_equal(const IrNode *a, const IrNode *b)
+{
+    /* Constants compare by bit pattern, so -0.0 and 0.0 stay apart and a
+     * NaN constant is equal to itself. */
+    return a->op == b->op && a->nargs == b->nargs &&
+           a->arg[0] == b->arg[0] && a->arg[1] == b->arg[1] &&
+           a->arg[2] == b->arg[2] && a->array == b->array &&
+           a->tuple == b->tuple && a->var == b->var &&
+           memcmp(&a->num, &b->num, sizeof a->num) == 0;
+}
+
+static void rehash_nodes(Ir *ir)
+{
+    int cap = ir->node_hash_cap ? 2 * ir->node_hash_cap : 1024;
+    int32_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);
+    for (int i = 0; i < cap; i++)
+        t[i] = -1;
+    for (int id = 0; id < ir->nodes.len; id++) {
+        uint64_t h = node_key(&ir->nodes.items[id]);
+        int slot = (int)(h & (uint64_t)(cap - 1));
+        while (t[slot] >= 0)
+            slot = (slot + 1) & (cap - 1);
+        t[slot] = id;
+    }
+    ir->node_hash = t;
+    ir->node_hash_cap = cap;
+}
+
+static NodeId intern(Ir *ir, const IrNode *n)
+{
+    if (2 * (ir->nodes.len + 1) > ir->node_hash_cap)
+        rehash_nodes(ir);
+    int cap = ir->node_hash_cap;
+    int slot = (int)(node_key(n) & (uint64_t)(cap - 1));
+    while (ir->node_hash[slot] >= 0) {
+        NodeId id = ir->node_hash[slot];
+        if (node_equal(&ir->nodes.items[id], n))
+            return id;
+        slot = (slot + 1) & (cap - 1);
+    }
+    NodeId id = ir->nodes.len;
+    VEC_PUSH(ir->arena, ir->nodes, *n);
+    ir->node_hash[slot] = id;
+    return id;
+}
+
+static IrNode blank(IrOp op)
+{
+    IrNode n;
+    memset(&n, 0, sizeof n);
+    n.op = (uint8_t)op;
+    n.arg[0] = n.arg[1] = n.arg[2] = NO_NODE;
+    n.array = n.tuple = n.var = -1;
+    return n;
+}
+
+NodeId ir_const(Ir *ir, double num)
+{
+    IrNode n = blank(IR_CONST);
+    n.num = num;
+    return intern(ir, &n);
+}
+
+NodeId ir_read(Ir *ir, int32_t array, int32_t tuple)
+{
+    IrNode n = blank(IR_READ);
+    n.array = array;
+    n.tuple = tuple;
+    return intern(ir, &n);
+}
+
+NodeId ir_index(Ir *ir, int32_t var)
+{
+    IrNode n = blank(IR_INDEX);
+    n.var = var;
+    return intern(ir, &n);
+}
+
+NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c)
+{
+    IrNode n = blank(op);
+    n.arg[0] = a;
+    n.arg[1] = b;
+    n.arg[2] = c;
+    n.nargs = (uint8_t)ir_ops[op].arity;
+    for (int i = 0; i < 3; i++)
+        if ((i < n.nargs) != (n.arg[i] != NO_NODE))
+            DV_UNREACHABLE();
+    return intern(ir, &n);
+}
+
+/* ------------------------------------------------------------- tuples */
+
+int32_t ir_tuple(Ir *ir, const int32_t *vars, int n)
+{
+    if (ir->tuple_hash_cap < 2 * (ir->tuple_data.len + n + 1)) {
+        int cap = ir->tuple_hash_cap ? 2 * ir->tuple_hash_cap : 256;
+        while (cap < 4 * (ir->tuple_data.len + n + 1))
+            cap *= 2;
+        int32_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);
+        for (int i = 0; i < cap; i++)
+            t[i] = -1;
+        for (int id = 0; id < ir->tuple_data.len;
+             id += ir->tuple_data.items[id] + 1) {
+            uint64_t h = 7;
+            for (int k = 0; k <= ir->tuple_data.items[id]; k++)
+                h = mix(h, (uint32_t)ir->tuple_data.items[id + k]);
+            int slot = (int)(h & (uint64_t)(cap - 1));
+            while (t[slot] >= 0)
+                slot = (slot + 1) & (cap - 1);
+            t[slot] = id;
+        }
+        ir->tuple_hash = t;
+        ir->tuple_hash_cap = cap;
+    }
+    uint64_t h = mix(7, (uint32_t)n);
+    for (int k = 0; k < n; k++)
+        h = mix(h, (uint32_t)vars[k]);
+    int cap = ir->tuple_hash_cap;
+    int slot = (int)(h & (uint64_t)(cap - 1));
+    while (ir->tuple_hash[slot] >= 0) {
+        int32_t id = ir->tuple_hash[slot];
+        if (ir->tuple_data.items[id] == n &&
+            memcmp(&ir->tuple_data.items[id + 1], vars,
+                   (size_t)n * sizeof *vars) == 0)
+            return id;
+        slot = (slot + 1) & (cap - 1);
+    }
+    int32_t id = ir->tuple_data.len;
+    VEC_PUSH(ir->arena, ir->tuple_data, n);
+    for (int k = 0; k < n; k++)
+        VEC_PUSH(ir->arena, ir->tuple_data, vars[k]);
+    ir->tuple_hash[slot] = id;
+    return id;
+}
+
+int ir_tuple_len(const Ir *ir, int32_t tuple)
+{
+    return ir->tuple_data.items[tuple];
+}
+
+const int32_t *ir_tuple_vars(const Ir *ir, int32_t tuple)
+{
+    return &ir->tuple_data.items[tuple + 1];
+}
+
+/* ---------------------------------------------- arrays and statements */
+
+int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
+                     const int *dim, Span span)
+{
+    IrArray a;
+    memset(&a, 0, sizeof a);
+    a.name = name;
+    a.role = role;
+    a.rank = rank;
+    for (int k = 0; k < rank; k++)
+        a.dim[k] = dim[k];
+    a.span = span;
+    a.adjoint = -1;
+    a.primal = -1;
+    VEC_PUSH(ir->arena, ir->arrays, a);
+    return ir->arrays.len - 1;
+}
+
+int32_t ir_add_var(Ir *ir, const char *name, int extent)
+{
+    IrIndexVar v = {name, extent};
+    VEC_PUSH(ir->arena, ir->vars, v);
+    return ir->vars.len - 1;
+}
+
+void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s)
+{
+    VEC_PUSH(ir->arena, *list, s);
+}
+
+long ir_array_size(const IrArray *a)
+{
+    long n = 1;
+    for (int k = 0; k < a->rank; k++)
+        n *= a->dim[k];
+    return n;
+}
+
+int ir_is_condition(const Ir *ir, NodeId id)
+{
+    IrOpKind k = ir_ops[ir_at(ir, id)->op].kind;
+    return k == OPK_COMPARE || k == OPK_LOGIC;
+}
+
+static void reach(const Ir *ir, NodeId id, char *used)
+{
+    if (used[id])
+        return;
+    used[id] = 1;
+    const IrNode *n = ir_at(ir, id);
+    for (int i = 0; i < n->nargs; i++)
+        reach(ir, n->arg[i], used);
+}
+
+void ir_mark_reached(const Ir *ir, const IrStmtList *list, char *used)
+{
+    for (int i = 0; i < list->len; i++)
+        reach(ir, list->items[i].expr, used);
+}
+
+/* ----------------------------------------------------- verify, print */
+
+static void verify_tuple_in(const Ir *ir, int32_t tuple, int32_t domain)
+{
+    int n = ir_tuple_len(ir, tuple), nd = ir_tuple_len(ir, domain);
+    const int32_t *v = ir_tuple_vars(ir, tuple), *d = ir_tuple_vars(ir, domain);
+    for (int i = 0; i < n; i++) {
+        int found = 0;
+        for (int k = 0; k < nd; k++)
+            found |= v[i] == d[k];
+        if (!found)
+            DV_UNREACHABLE();
+    }
+}
+
+static void verify_expr(const Ir *ir, NodeId id, int32_t domain)
+{
+    const IrNode *n = ir_at(ir, id);
+    if (id < 0 || id >= ir->nodes.len)
+        DV_UNREACHABLE();
+    if (n->op == IR_READ) {
+        const IrArray *a = &ir->arrays.items[n->array];
+        if (ir_tuple_len(ir, n->tuple) != a->rank)
+            DV_UNREACHABLE();
+        verify_tuple_in(ir, n->tuple, domain);
+    }
+    for (int i = 0; i < n->nargs; i++) {
+        if (n->arg[i] >= id)    /* operands are built before their users */
+            DV_UNREACHABLE();
+        verify_expr(ir, n->arg[i], domain);
+    }
+}
+
+static void verify_list(const Ir *ir, const IrStmtList *list)
+{
+    for (int i = 0; i < list->len; i++) {
+        const IrStmt *s = &list->items[i];
+        const IrArray *t = &ir->arrays.items[s->target];
+        if (ir_tuple_len(ir, s->tuple) != t->rank)
+            DV_UNREACHABLE();
+        verify_tuple_in(ir, s->tuple, s->domain);
+        verify_expr(ir, s->expr, s->domain);
+        if (ir_is_condition(ir, s->expr))
+            DV_UNREACHABLE();
+    }
+}
+
+void ir_verify(const Ir *ir)
+{
+    verify_list(ir, &ir->forward);
+    verify_list(ir, &ir->reverse);
+}
+
+static void print_tuple(const Ir *ir, int32_t tuple, FILE *out)
+{
+    int n = ir_tuple_len(ir, tuple);
+    if (n == 0)
+        return;
+    fputc('[', out);
+    for (int k = 0; k < n; k++)
+        fprintf(out, "%s%s", k ? "," : "",
+                ir->vars.items[ir_tuple_vars(ir, tuple)[k]].name);
+    fputc(']', out);
+}
+
+static void print_expr(const Ir *ir, NodeId id, FILE *out)
+{
+    const IrNode *n = ir_at(ir, id);
+    switch (n->op) {
+    case IR_CONST:
+        fprintf(out, "%.17g", n->num);
+        return;
+    case IR_READ:
+        fputs(ir->arrays.items[n->array].name, out);
+        print_tuple(ir, n->tuple, out);
+        return;
+    case IR_INDEX:
+        fprintf(out, "#%s", ir->vars.items[n->var].name);
+        return;
+    default:
+        break;
+    }
+    const IrOpInfo *info = &ir_ops[n->op];
+    switch (info->kind) {
+    case OPK_PREFIX:
+        fprintf(out, "(%s", info->c_spelling);
+        print_expr(ir, n->arg[0], out);
+        fputc(')', out);
+        return;
+    case OPK_INFIX:
+    case OPK_COMPARE:
+    case OPK_LOGIC:
+        fputc('(', out);
+        if (n->nargs == 1) {
+            fputs(info->c_spelling, out);
+            print_expr(ir, n->arg[0], out);
+        } else {
+            print_expr(ir, n->arg[0], out);
+            fprintf(out, " %s ", info->c_spelling);
+            print_expr(ir, n->arg[1], out);
+        }
+        fputc(')', out);
+        return;
+    case OPK_SELECT:
+        fputc('(', out);
+        print_expr(ir, n->arg[0], out);
+        fputs(" ? ", out);
+        print_expr(ir, n->arg[1], out);
+        fputs(" : ", out);
+        print_expr(ir, n->arg[2], out);
+        fputc(')', out);
+        return;
+    default:
+        fprintf(out, "%s(", info->c_spelling);
+        for (int i = 0; i < n->nargs; i++) {
+            if (i)
+                fputs(", ", out);
+            print_expr(ir, n->arg[i], out);
+        }
+        fputc(')', out);
+        return;
+    }
+}
+
+static void print_list(const Ir *ir, const IrStmtList *list, FILE *out)
+{
+    static const char *kind_text[] = {"=", "+=", "max=", "min=", "lse="};
+    for (int i = 0; i < list->len; i++) {
+        const IrStmt *s = &list->items[i];
+        fputs("  ", out);
+        fputs(ir->arrays.items[s->target].name, out);
+        print_tuple(ir, s->tuple, out);
+        fprintf(out, " %s ", kind_text[s->kind]);
+        print_expr(ir, s->expr, out);
+        if (ir_tuple_len(ir, s->domain) > ir_tuple_len(ir, s->tuple)) {
+            fputs("  over ", out);
+            print_tuple(ir, s->domain, out);
+        }
+        fputc('\n', out);
+    }
+}
+
+void ir_print(const Ir *ir, FILE *out)
+{
+    fputs("forward:\n", out);
+    print_list(ir, &ir->forward, out);
+    if (ir->reverse.len) {
+        fputs("reverse:\n", out);
+        print_list(ir, &ir->reverse, out);
+    }
+}

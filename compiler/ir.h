@@ -1,0 +1,173 @@
+/* ir.h - the intermediate representation every pass reads and writes.
+ *
+ * A program is an ordered list of statements over named arrays (a scalar is
+ * an array of rank 0):   target[I] (= | += | max= | ...) expr   over domain D.
+ * Expressions are DAG nodes in one growable array addressed by integer ids
+ * and hash-consed, so structurally equal subexpressions are one node.  The
+ * reverse pass (reverse.c) appends adjoint arrays and a second statement
+ * list, so its output is ordinary IR too. */
+#ifndef DERVISH_IR_H
+#define DERVISH_IR_H
+
+#include "arena.h"
+#include "diag.h"
+
+#include <stdint.h>
+
+/* Dimensions of declared arrays (the language's limit) and of any IR array
+ * (a reduction's accumulator may also carry enclosing reduction indices). */
+#define LANG_MAX_RANK 4
+#define IR_MAX_RANK 8
+
+typedef enum IrOp {
+#define OP(id, name, arity, kind, c) IR_##id,
+#include "ops.def"
+#undef OP
+    IR_OP_COUNT
+} IrOp;
+
+typedef enum IrOpKind {
+    OPK_LEAF,       /* CONST, READ, INDEX */
+    OPK_PREFIX,     /* -a */
+    OPK_INFIX,      /* a + b */
+    OPK_CALL,       /* a <math.h> function */
+    OPK_HELPER,     /* a runtime helper, dvs_<stem>(...) */
+    OPK_COMPARE,    /* yields a condition */
+    OPK_LOGIC,      /* condition && condition, !condition */
+    OPK_SELECT      /* condition ? a : b */
+} IrOpKind;
+
+typedef struct IrOpInfo {
+    const char *model_name;
+    int arity;
+    IrOpKind kind;
+    const char *c_spelling;
+} IrOpInfo;
+
+extern const IrOpInfo ir_ops[IR_OP_COUNT];
+
+/* The builtin called NAME in model files with its op, or -1. */
+int ir_builtin(const char *name);
+
+typedef int32_t NodeId;
+#define NO_NODE ((NodeId)-1)
+
+typedef VEC(NodeId) NodeList;
+
+typedef struct IrNode {
+    uint8_t op;         /* IrOp */
+    uint8_t nargs;
+    NodeId arg[3];
+    int32_t array;      /* READ: the array read */
+    int32_t tuple;      /* READ: its subscripts, a tuple of index vars */
+    int32_t var;        /* INDEX: the index var */
+    double num;         /* CONST */
+} IrNode;
+
+typedef enum IrRole {
+    ROLE_PARAM,         /* differentiated; lives in *p, gradient in *grad */
+    ROLE_INPUT,         /* data; lives in *in */
+    ROLE_VALUE,         /* a value the model defines */
+    ROLE_TEMP,          /* a compiler temporary (reduction accumulator) */
+    ROLE_ARGPOS,        /* position of a max/min reduction's winner (long) */
+    ROLE_ADJOINT        /* the adjoint of another array */
+} IrRole;
+
+typedef struct IrArray {
+    const char *name;   /* the C name: the model's, or with the reserved prefix */
+    IrRole role;
+    int rank;
+    int dim[IR_MAX_RANK];
+    Span span;          /* where it was declared or defined */
+    int32_t adjoint;    /* its adjoint array, or -1 */
+    int32_t primal;     /* ROLE_ADJOINT: the array it is the adjoint of */
+    uint8_t used;       /* some kept statement or the output reads it */
+    uint8_t varied;     /* depends on a param (activity analysis) */
+    uint8_t useful;     /* an output depends on it (activity analysis) */
+} IrArray;
+
+typedef struct IrIndexVar {
+    const char *name;   /* the model's index name, or a reserved one */
+    int extent;
+} IrIndexVar;
+
+typedef enum IrStmtKind {
+    SK_SET,             /* t[I] = e */
+    SK_ADD,             /* t[I] += e           (sum reductions, adjoints) */
+    SK_MAX,             /* if (e > t[I]) { t[I] = e; argpos[I] = point } */
+    SK_MIN,             /* if (e < t[I]) { t[I] = e; argpos[I] = point } */
+    SK_LSE              /* t[I] = logaddexp(t[I], e) */
+} IrStmtKind;
+
+typedef struct IrStmt {
+    IrStmtKind kind;
+    int32_t target;     /* array written */
+    int32_t tuple;      /* target's subscripts */
+    int32_t domain;     /* loop vars, outermost first; a superset of tuple */
+    int32_t reduced;    /* SK_MAX/SK_MIN: the reduced vars (a tuple) */
+    int32_t argpos;     /* SK_MAX/SK_MIN: the ROLE_ARGPOS array, else -1 */
+    NodeId expr;
+    Span origin;        /* the model statement this came from */
+} IrStmt;
+
+typedef VEC(IrStmt) IrStmtList;
+
+typedef struct Ir {
+    Arena *arena;
+    const Source *src;
+    const char *model;          /* symbol prefix */
+    VEC(IrNode) nodes;
+    VEC(IrArray) arrays;
+    VEC(IrIndexVar) vars;
+    VEC(int32_t) tuple_data;    /* tuples: [len, v0, v1, ...] at tuple id */
+    IrStmtList forward;         /* the model's statements in order */
+    IrStmtList reverse;         /* adjoint statements, in sweep order */
+    int32_t output;             /* the output array */
+    Span output_span;
+    /* hash-consing tables, open addressing, sized powers of two */
+    int32_t *node_hash;
+    int node_hash_cap;
+    int32_t *tuple_hash;
+    int tuple_hash_cap;
+} Ir;
+
+Ir *ir_new(Arena *arena, const Source *src);
+
+/* Node constructors; each returns the id of an existing equal node if one
+ * exists.  ir_node checks arity. */
+NodeId ir_const(Ir *ir, double num);
+NodeId ir_read(Ir *ir, int32_t array, int32_t tuple);
+NodeId ir_index(Ir *ir, int32_t var);
+NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c);
+
+int32_t ir_tuple(Ir *ir, const int32_t *vars, int n);
+int ir_tuple_len(const Ir *ir, int32_t tuple);
+const int32_t *ir_tuple_vars(const Ir *ir, int32_t tuple);
+
+int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
+                     const int *dim, Span span);
+int32_t ir_add_var(Ir *ir, const char *name, int extent);
+void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s);
+
+static inline const IrNode *ir_at(const Ir *ir, NodeId id)
+{
+    return &ir->nodes.items[id];
+}
+
+/* Number of elements of an array (product of its dims; 1 for a scalar). */
+long ir_array_size(const IrArray *a);
+
+/* True when the node is a condition (a comparison or logic op). */
+int ir_is_condition(const Ir *ir, NodeId id);
+
+/* Set used[id] for every node the statements of LIST reach (used has one
+ * flag per node). */
+void ir_mark_reached(const Ir *ir, const IrStmtList *list, char *used);
+
+/* Check the IR's invariants; reports a fault and aborts when one fails. */
+void ir_verify(const Ir *ir);
+
+/* Print the IR in a readable text form (for --dump and tests). */
+void ir_print(const Ir *ir, FILE *out);
+
+#endif

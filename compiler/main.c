@@ -1,0 +1,208 @@
+/* main.c - the dervish command line (LANGUAGE.md section 7).
+ *
+ * Exit status: 0 success, 1 the model has errors (or check found a
+ * mismatch), 2 bad command line, 3 an I/O failure. */
+#include "check.h"
+#include "dervish.h"
+#include "fileio.h"
+
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#ifndef DERVISH_VERSION
+#define DERVISH_VERSION "unknown"
+#endif
+
+enum { EXIT_MODEL = 1, EXIT_USAGE = 2, EXIT_IO = 3 };
+
+static const char usage[] =
+    "usage: dervish build [options] MODEL.dvs    write the C source and header\n"
+    "         -o FILE          C source path (default: MODEL's stem + .c here)\n"
+    "         --header FILE    header path (default: the C path with .h)\n"
+    "         --name NAME      symbol prefix (overrides the model statement)\n"
+    "       dervish check [options] MODEL.dvs    compare the gradient with\n"
+    "                                            numerical derivatives\n"
+    "         --at FILE        values of params and inputs (name = numbers...)\n"
+    "         --seed N         seed for random values when --at is not given\n"
+    "         --tolerance X    largest accepted relative error (default 1e-6)\n"
+    "         --name NAME      symbol prefix\n"
+    "       dervish --help | --version\n"
+    "exit status: 0 success, 1 model errors or a derivative mismatch,\n"
+    "             2 bad command line, 3 input/output failure\n";
+
+static int usage_error(const char *fmt, const char *arg)
+{
+    fputs("dervish: ", stderr);
+    fprintf(stderr, fmt, arg);
+    fputs("\n(run 'dervish --help' for the options)\n", stderr);
+    return EXIT_USAGE;
+}
+
+typedef struct Args {
+    const char *model;
+    const char *c_path;
+    const char *h_path;
+    const char *name;
+    const char *at;
+    const char *seed;
+    const char *tolerance;
+} Args;
+
+/* Parse the options after the command word; returns 0 or an exit status. */
+static int parse_args(int argc, char **argv, int is_build, Args *a)
+{
+    memset(a, 0, sizeof *a);
+    for (int i = 2; i < argc; i++) {
+        const char *opt = argv[i];
+        const char **slot = NULL;
+        if (strcmp(opt, "--name") == 0)
+            slot = &a->name;
+        else if (is_build && strcmp(opt, "-o") == 0)
+            slot = &a->c_path;
+        else if (is_build && strcmp(opt, "--header") == 0)
+            slot = &a->h_path;
+        else if (!is_build && strcmp(opt, "--at") == 0)
+            slot = &a->at;
+        else if (!is_build && strcmp(opt, "--seed") == 0)
+            slot = &a->seed;
+        else if (!is_build && strcmp(opt, "--tolerance") == 0)
+            slot = &a->tolerance;
+        if (slot) {
+            if (i + 1 >= argc)
+                return usage_error("option %s needs a value", opt);
+            *slot = argv[++i];
+        } else if (opt[0] == '-' && opt[1] != '\0') {
+            return usage_error("unknown option '%s'", opt);
+        } else if (a->model) {
+            return usage_error("more than one model file given ('%s')", opt);
+        } else {
+            a->model = opt;
+        }
+    }
+    if (!a->model)
+        return usage_error("%s", "no model file given");
+    return 0;
+}
+
+/* Read and compile the model; returns 0 or an exit status. */
+static int compile_file(const Args *a, DvCompilation *c)
+{
+    size_t len;
+    char *text = fileio_read(a->model, &len);
+    if (!text)
+        return EXIT_IO;
+    DvOptions o = {a->name, stderr};
+    int failed = dv_compile(c, a->model, text, len, &o);
+    free(text);
+    if (failed) {
+        fprintf(stderr, "%s: %d error%s; nothing written\n", a->model,
+                c->diag.errors, c->diag.errors == 1 ? "" : "s");
+        return EXIT_MODEL;
+    }
+    return 0;
+}
+
+static char *with_extension(const char *path, const char *ext, int here)
+{
+    const char *base = here ? dv_basename(path) : path;
+    const char *dot = strrchr(base, '.');
+    const char *slash = strrchr(base, '/');
+    size_t n = dot && (!slash || dot > slash) && dot != base &&
+                       dot[-1] != '/' ? (size_t)(dot - base) : strlen(base);
+    char *out = malloc(n + strlen(ext) + 1);
+    if (!out)
+        exit(EXIT_IO);
+    memcpy(out, base, n);
+    strcpy(out + n, ext);
+    return out;
+}
+
+static int build(const Args *a)
+{
+    char *c_path = a->c_path ? NULL : with_extension(a->model, ".c", 1);
+    const char *cp = a->c_path ? a->c_path : c_path;
+    char *h_path = a->h_path ? NULL : with_extension(cp, ".h", 0);
+    const char *hp = a->h_path ? a->h_path : h_path;
+    int status = 0;
+    if (strcmp(cp, hp) == 0 || fileio_same_file(cp, hp)) {
+        status = usage_error("the C source and the header are both '%s'", cp);
+    } else if (fileio_same_file(a->model, cp) ||
+               fileio_same_file(a->model, hp)) {
+        status = usage_error("refusing to overwrite the model file '%s'",
+                             a->model);
+    }
+    DvCompilation c;
+    memset(&c, 0, sizeof c);
+    if (!status)
+        status = compile_file(a, &c);
+    if (!status) {
+        Buf src = {0}, hdr = {0};
+        dv_emit(&c, dv_basename(hp), &src, &hdr);
+        PendingFile pc = {0}, ph = {0};
+        if (fileio_prepare(&pc, cp, src.data, src.len) != 0)
+            status = EXIT_IO;
+        else if (fileio_prepare(&ph, hp, hdr.data, hdr.len) != 0)
+            status = EXIT_IO;
+        /* both files are complete before either replaces its target */
+        if (!status && (fileio_commit(&ph) != 0 || fileio_commit(&pc) != 0))
+            status = EXIT_IO;
+        fileio_abandon(&pc);
+        fileio_abandon(&ph);
+        buf_free(&src);
+        buf_free(&hdr);
+    }
+    dv_free(&c);
+    free(c_path);
+    free(h_path);
+    return status;
+}
+
+static int check(const Args *a)
+{
+    CheckOptions o = {a->at, 1, 1e-6, stdout};
+    if (a->seed) {
+        char *end;
+        o.seed = strtoul(a->seed, &end, 10);
+        if (*end || !*a->seed)
+            return usage_error("--seed takes a whole number, not '%s'",
+                               a->seed);
+    }
+    if (a->tolerance) {
+        char *end;
+        o.tolerance = strtod(a->tolerance, &end);
+        if (*end || !*a->tolerance || !(o.tolerance > 0))
+            return usage_error("--tolerance takes a positive number, not '%s'",
+                               a->tolerance);
+    }
+    DvCompilation c;
+    memset(&c, 0, sizeof c);
+    int status = compile_file(a, &c);
+    if (!status)
+        status = check_run(&c, &o);
+    dv_free(&c);
+    return status;
+}
+
+int main(int argc, char **argv)
+{
+    if (argc < 2)
+        return usage_error("%s", "no command given: use build or check");
+    const char *cmd = argv[1];
+    if (strcmp(cmd, "--help") == 0 || strcmp(cmd, "-h") == 0) {
+        fputs(usage, stdout);
+        return 0;
+    }
+    if (strcmp(cmd, "--version") == 0) {
+        printf("dervish %s\n", DERVISH_VERSION);
+        return 0;
+    }
+    int is_build = strcmp(cmd, "build") == 0;
+    if (!is_build && strcmp(cmd, "check") != 0)
+        return usage_error("unknown command '%s': use build or check", cmd);
+    Args a;
+    int status = parse_args(argc, argv, is_build, &a);
+    if (status)
+        return status;
+    return is_build ? build(&a) : check(&a);
+}

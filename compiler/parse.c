@@ -1,0 +1,338 @@
+/* parse.c - drives the lexer and the lemon parser, builds AST nodes for the
+ * grammar's actions, and words syntax errors in terms of what was expected. */
+#include "parse_state.h"
+#include "parser.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+const char *parse_token_name(int code)
+{
+    switch (code) {
+    case 0: return "the end of the file";
+    case TOK_NEWLINE: return "the end of the line";
+    case TOK_SEMI: return "';'";
+    case TOK_MODEL: return "'model'";
+    case TOK_CONST: return "'const'";
+    case TOK_INPUT: return "'input'";
+    case TOK_PARAM: return "'param'";
+    case TOK_OUTPUT: return "'output'";
+    case TOK_SIZE: return "'size'";
+    case TOK_DEF: return "'def'";
+    case TOK_USE: return "'use'";
+    case TOK_NAME: return "a name";
+    case TOK_NUMBER: return "a number";
+    case TOK_STRING: return "a string";
+    case TOK_ASSIGN: return "'='";
+    case TOK_COMMA: return "','";
+    case TOK_LPAREN: return "'('";
+    case TOK_RPAREN: return "')'";
+    case TOK_LBRACKET: return "'['";
+    case TOK_RBRACKET: return "']'";
+    case TOK_QUESTION: return "'?'";
+    case TOK_COLON: return "':'";
+    case TOK_OROR: return "'||'";
+    case TOK_ANDAND: return "'&&'";
+    case TOK_EQ: return "'=='";
+    case TOK_NE: return "'!='";
+    case TOK_LT: return "'<'";
+    case TOK_LE: return "'<='";
+    case TOK_GT: return "'>'";
+    case TOK_GE: return "'>='";
+    case TOK_PLUS: return "'+'";
+    case TOK_MINUS: return "'-'";
+    case TOK_STAR: return "'*'";
+    case TOK_SLASH: return "'/'";
+    case TOK_NOT: return "'!'";
+    case TOK_CARET: return "'^'";
+    default: return "a token";
+    }
+}
+
+/* Tokens after which an expression must follow. */
+static int wants_operand(int code)
+{
+    switch (code) {
+    case TOK_PLUS: case TOK_MINUS: case TOK_STAR: case TOK_SLASH:
+    case TOK_CARET: case TOK_LT: case TOK_LE: case TOK_GT: case TOK_GE:
+    case TOK_EQ: case TOK_NE: case TOK_ANDAND: case TOK_OROR: case TOK_NOT:
+    case TOK_QUESTION: case TOK_COLON: case TOK_ASSIGN:
+        return 1;
+    default:
+        return 0;
+    }
+}
+
+/* Tokens that can end an expression. */
+static int ends_operand(int code)
+{
+    return code == TOK_NAME || code == TOK_NUMBER || code == TOK_RPAREN ||
+           code == TOK_RBRACKET;
+}
+
+/* Tokens that can start an expression. */
+static int starts_operand(int code)
+{
+    return code == TOK_NAME || code == TOK_NUMBER || code == TOK_LPAREN ||
+           code == TOK_MINUS || code == TOK_NOT;
+}
+
+void parse_syntax_error(ParseState *ps, int code, Token tok)
+{
+    if ((code == 0 || code == TOK_NEWLINE) && ps->lexer.failed_at_end)
+        return;     /* the lexer already said which bracket is open */
+    const char *found = parse_token_name(code);
+    int prev = ps->prev.code;
+    const char *text = ps->lexer.src->text;
+    if (wants_operand(prev) || prev == TOK_LPAREN || prev == TOK_COMMA ||
+        prev == TOK_LBRACKET) {
+        if (prev == TOK_COMMA || prev == TOK_LPAREN || prev == TOK_LBRACKET)
+            diag_error(ps->diag, tok.span, "expected a name or expression after '%c', found %s",
+                       text[ps->prev.span.off], found);
+        else
+            diag_error(ps->diag, tok.span,
+                       "expected an expression after %s, found %s",
+                       parse_token_name(prev), found);
+    } else if (prev == TOK_NEWLINE || prev == TOK_SEMI || prev == 0) {
+        diag_error(ps->diag, tok.span,
+                   "expected a statement (a definition 'name = ...', or "
+                   "model, const, input, param or output), found %s",
+                   found);
+    } else if (ends_operand(prev) && starts_operand(code)) {
+        diag_error(ps->diag, tok.span,
+                   "expected an operator or the end of the statement before %s",
+                   found);
+    } else {
+        diag_error(ps->diag, tok.span, "unexpected %s", found);
+    }
+}
+
+void parse_too_deep(ParseState *ps)
+{
+    if (!ps->too_deep)
+        diag_error(ps->diag, ps->prev.span,
+                   "expression nested too deeply (limit is %d levels): "
+                   "split it into named steps", PARSE_MAX_DEPTH);
+    ps->too_deep = 1;
+}
+
+void parse_add_stmt(ParseState *ps, AstStmt *s)
+{
+    if (s)
+        VEC_PUSH(ps->arena, ps->stmts, s);
+}
+
+const char *parse_name(ParseState *ps, Token name)
+{
+    return arena_strndup(ps->arena, ps->lexer.src->text + name.span.off,
+                         name.span.len);
+}
+
+AstStmt *parse_stmt(ParseState *ps, AstStmtKind kind, Span first, Span last)
+{
+    AstStmt *s = arena_alloc(ps->arena, sizeof *s);
+    s->kind = kind;
+    s->span = span_join(first, last);
+    return s;
+}
+
+AstStmt *parse_output(ParseState *ps, Token keyword, ExprList names)
+{
+    AstStmt *s = parse_stmt(ps, STMT_OUTPUT, keyword.span, names.last);
+    for (int i = 0; i < names.len; i++)
+        if (names.items[i]->kind != AST_NAME) {
+            diag_error(ps->diag, names.items[i]->span,
+                       "'output' takes names of values; define the "
+                       "expression first ('y = ...') and output 'y'");
+            return NULL;
+        }
+    s->names = names.items;
+    s->nnames = names.len;
+    return s;
+}
+
+AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
+                              AstExpr *e)
+{
+    AstStmt *s = parse_stmt(ps, STMT_DEFINE, name.span, e->span);
+    s->name = parse_name(ps, name);
+    s->name_span = name.span;
+    s->expr = e;
+    for (int i = 0; i < index.len; i++)
+        if (index.items[i]->kind != AST_NAME) {
+            diag_error(ps->diag, index.items[i]->span,
+                       "the left side takes index names, as in "
+                       "'%s[i, j] = ...'", s->name);
+            return NULL;
+        }
+    s->index = index.items;
+    s->nindex = index.len;
+    return s;
+}
+
+AstStmt *parse_later(ParseState *ps, Token keyword, const char *what)
+{
+    diag_error(ps->diag, keyword.span,
+               "%s are not supported by this version of dervish", what);
+    return NULL;
+}
+
+DeclList parse_decls(ParseState *ps, DeclList *list, AstDecl d)
+{
+    DeclList l = {NULL, 0, 0, d.span};
+    if (list)
+        l = *list;
+    VEC_PUSH(ps->arena, l, d);
+    l.last = d.span;
+    return l;
+}
+
+AstDecl parse_decl(ParseState *ps, Token name, ExprList *dims, Span last)
+{
+    AstDecl d;
+    memset(&d, 0, sizeof d);
+    d.name = parse_name(ps, name);
+    d.span = span_join(name.span, last);
+    if (dims) {
+        d.dims = dims->items;
+        d.ndims = dims->len;
+    }
+    return d;
+}
+
+ExprList parse_exprs(ParseState *ps, ExprList *list, AstExpr *e)
+{
+    ExprList l = {NULL, 0, 0, e->span};
+    if (list)
+        l = *list;
+    VEC_PUSH(ps->arena, l, e);
+    l.last = e->span;
+    return l;
+}
+
+static AstExpr *new_expr(ParseState *ps, AstExprKind kind, Span span)
+{
+    AstExpr *e = arena_alloc(ps->arena, sizeof *e);
+    e->kind = kind;
+    e->span = span;
+    e->depth = 1;
+    return e;
+}
+
+/* Give e the height of its tallest child plus one, and report trees deeper
+ * than later phases are allowed to recurse. */
+static AstExpr *set_depth(ParseState *ps, AstExpr *e)
+{
+    int d = 0;
+    for (int i = 0; i < e->nargs; i++)
+        if (e->args[i]->depth > d)
+            d = e->args[i]->depth;
+    if (e->body && e->body->depth > d)
+        d = e->body->depth;
+    e->depth = d + 1;
+    if (e->depth > PARSE_MAX_DEPTH && !ps->too_deep) {
+        diag_error(ps->diag, e->span,
+                   "expression nested too deeply (limit is %d levels): "
+                   "split it into named steps", PARSE_MAX_DEPTH);
+        ps->too_deep = 1;
+    }
+    return e;
+}
+
+AstExpr *parse_number(ParseState *ps, Token t)
+{
+    AstExpr *e = new_expr(ps, AST_NUM, t.span);
+    e->num = t.num;
+    return e;
+}
+
+AstExpr *parse_named(ParseState *ps, AstExprKind kind, Token name,
+                     ExprList *args, Span last)
+{
+    AstExpr *e = new_expr(ps, kind, span_join(name.span, last));
+    e->name = parse_name(ps, name);
+    e->name_span = name.span;
+    if (args) {
+        e->args = args->items;
+        e->nargs = args->len;
+    }
+    return set_depth(ps, e);
+}
+
+AstExpr *parse_reduce(ParseState *ps, Token name, ExprList bound,
+                      AstExpr *body, Span last)
+{
+    AstExpr *e = new_expr(ps, AST_REDUCE, span_join(name.span, last));
+    e->name = parse_name(ps, name);
+    e->name_span = name.span;
+    for (int i = 0; i < bound.len; i++)
+        if (bound.items[i]->kind != AST_NAME) {
+            diag_error(ps->diag, bound.items[i]->span,
+                       "a reduction binds index names before ':', as in "
+                       "'sum(i: x[i])'");
+            break;
+        }
+    e->bound = bound.items;
+    e->nbound = bound.len;
+    e->body = body;
+    return set_depth(ps, e);
+}
+
+AstExpr *parse_unary(ParseState *ps, AstOp op, Token t, AstExpr *a)
+{
+    AstExpr *e = new_expr(ps, AST_UNARY, span_join(t.span, a->span));
+    e->op = op;
+    e->args = arena_alloc(ps->arena, sizeof *e->args);
+    e->args[0] = a;
+    e->nargs = 1;
+    return set_depth(ps, e);
+}
+
+AstExpr *parse_binary(ParseState *ps, AstOp op, AstExpr *a, AstExpr *b)
+{
+    AstExpr *e = new_expr(ps, AST_BINARY, span_join(a->span, b->span));
+    e->op = op;
+    e->args = arena_alloc(ps->arena, 2 * sizeof *e->args);
+    e->args[0] = a;
+    e->args[1] = b;
+    e->nargs = 2;
+    return set_depth(ps, e);
+}
+
+AstExpr *parse_select(ParseState *ps, AstExpr *c, AstExpr *a, AstExpr *b)
+{
+    AstExpr *e = new_expr(ps, AST_SELECT, span_join(c->span, b->span));
+    e->args = arena_alloc(ps->arena, 3 * sizeof *e->args);
+    e->args[0] = c;
+    e->args[1] = a;
+    e->args[2] = b;
+    e->nargs = 3;
+    return set_depth(ps, e);
+}
+
+AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
+{
+    ParseState ps;
+    memset(&ps, 0, sizeof ps);
+    ps.arena = arena;
+    ps.diag = diag;
+    ps.prev.code = TOK_NEWLINE;
+    lex_init(&ps.lexer, src, diag, arena);
+    void *parser = DvParserAlloc(malloc);
+    if (!parser) {
+        fputs("dervish: out of memory\n", stderr);
+        exit(3);
+    }
+    for (;;) {
+        Token t = lex_next(&ps.lexer);
+        DvParser(parser, t.code, t, &ps);
+        if (t.code == 0 || ps.too_deep || diag->errors >= diag->max_errors)
+            break;
+        ps.prev = t;
+    }
+    DvParserFree(parser, free);
+    AstModel *m = arena_alloc(arena, sizeof *m);
+    m->stmts = ps.stmts.items;
+    m->nstmts = ps.stmts.len;
+    return m;
+}

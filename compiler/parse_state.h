@@ -1,0 +1,63 @@
+/* parse_state.h - what the grammar actions in grammar/parser.y share with
+ * parse.c: the parser's state and the node builders its actions call. */
+#ifndef DERVISH_PARSE_STATE_H
+#define DERVISH_PARSE_STATE_H
+
+#include "parse.h"
+
+typedef struct ParseState {
+    Arena *arena;
+    Diag *diag;
+    Lexer lexer;
+    VEC(AstStmt *) stmts;
+    Token prev;         /* the token before the one being parsed */
+    int too_deep;       /* nesting limit hit: parsing stops */
+} ParseState;
+
+typedef struct ExprList {
+    AstExpr **items;
+    int len, cap;
+    Span last;          /* span of the last item */
+} ExprList;
+
+typedef struct DeclList {
+    AstDecl *items;
+    int len, cap;
+    Span last;
+} DeclList;
+
+void parse_syntax_error(ParseState *ps, int code, Token tok);
+void parse_too_deep(ParseState *ps);
+void parse_add_stmt(ParseState *ps, AstStmt *s);
+
+const char *parse_name(ParseState *ps, Token name);
+AstStmt *parse_stmt(ParseState *ps, AstStmtKind kind, Span first, Span last);
+AstStmt *parse_output(ParseState *ps, Token keyword, ExprList names);
+AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
+                              AstExpr *e);
+AstStmt *parse_later(ParseState *ps, Token keyword, const char *what);
+DeclList parse_decls(ParseState *ps, DeclList *list, AstDecl d);
+AstDecl parse_decl(ParseState *ps, Token name, ExprList *dims, Span last);
+ExprList parse_exprs(ParseState *ps, ExprList *list, AstExpr *e);
+
+AstExpr *parse_number(ParseState *ps, Token t);
+AstExpr *parse_named(ParseState *ps, AstExprKind kind, Token name,
+                     ExprList *args, Span last);
+AstExpr *parse_reduce(ParseState *ps, Token name, ExprList bound,
+                      AstExpr *body, Span last);
+AstExpr *parse_unary(ParseState *ps, AstOp op, Token t, AstExpr *a);
+AstExpr *parse_binary(ParseState *ps, AstOp op, AstExpr *a, AstExpr *b);
+AstExpr *parse_select(ParseState *ps, AstExpr *c, AstExpr *a, AstExpr *b);
+
+/* lemon's entry points (build/parser.c) */
+void *DvParserAlloc(void *(*malloc_fn)(size_t));
+void DvParser(void *parser, int code, Token tok, ParseState *ps);
+void DvParserFree(void *parser, void (*free_fn)(void *));
+void DvParserInit(void *parser);
+void DvParserFinalize(void *parser);
+int DvParserFallback(int token);
+#ifndef NDEBUG
+void DvParserTrace(FILE *trace, char *prompt);
+#endif
+
+#endif

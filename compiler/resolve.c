@@ -1,0 +1,1178 @@
+/* resolve.c - names, constants, shapes, index ranges and lowering; see
+ * resolve.h.
+ *
+ * Each definition is handled in two walks over its right side.  The first
+ * (infer) checks every name and binds every index to a range, taken from
+ * the array dimensions it subscripts; the second (lower) builds IR nodes,
+ * turning each reduction into an accumulator array filled by statements
+ * placed before the definition's own statement. */
+#include "resolve.h"
+#include "apply.h"
+#include "names.h"
+
+#include <limits.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+/* Largest element count of one array; larger ones are model errors. */
+#define MAX_ELEMENTS ((long)INT_MAX)
+
+/* ------------------------------------------------------------ symbols */
+
+typedef enum SymKind { SYM_CONST, SYM_ARRAY } SymKind;
+
+typedef struct Symbol {
+    const char *name;
+    SymKind kind;
+    double value;       /* SYM_CONST */
+    int32_t array;      /* SYM_ARRAY */
+    Span span;          /* where it was defined */
+    int failed;         /* its definition had errors: uses stay quiet */
+} Symbol;
+
+/* A bound index: a free index of the left side, an implicit index of a
+ * whole-array definition, or an index bound by a reduction. */
+typedef struct Binder {
+    const char *name;
+    Span span;          /* where it was bound */
+    int extent;         /* -1 until a subscript gives it a range */
+    Span range_from;    /* the subscript that gave the range */
+    int32_t var;        /* its IR index var, made once the range is known */
+} Binder;
+
+typedef struct DefinedValue {
+    int32_t array;
+    const AstStmt *stmt;
+} DefinedValue;
+
+typedef struct SymTable {
+    Symbol *items;      /* open addressing on name */
+    int cap, len;
+} SymTable;
+
+typedef struct Resolver {
+    Arena *arena;
+    Diag *diag;
+    const Source *src;
+    Ir *ir;
+    SymTable symbols;   /* names defined so far */
+    SymTable all_names; /* every name the model defines anywhere */
+    VEC(DefinedValue) defined;
+    int nparams;
+    int noutputs;
+
+    /* the definition being resolved */
+    const AstStmt *stmt;
+    const char *target_name;
+    VEC(Binder) binders;
+    VEC(int) scope;         /* binder ids in scope, outermost first */
+    int index_form;         /* the left side has indices */
+    int elem_rank;          /* whole-array form: rank of the bare arrays, -1 */
+    int elem_dim[IR_MAX_RANK];
+    Span elem_from;
+    int failed;
+    int ntemps;
+} Resolver;
+
+static uint32_t hash_name(const char *s)
+{
+    uint32_t h = 2166136261u;
+    for (; *s; s++)
+        h = (h ^ (unsigned char)*s) * 16777619u;
+    return h;
+}
+
+static Symbol *table_find(const SymTable *t, const char *name)
+{
+    if (!t->cap)
+        return NULL;
+    uint32_t i = hash_name(name) & (uint32_t)(t->cap - 1);
+    while (t->items[i].name) {
+        if (strcmp(t->items[i].name, name) == 0)
+            return &t->items[i];
+        i = (i + 1) & (uint32_t)(t->cap - 1);
+    }
+    return NULL;
+}
+
+static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
+                            Span span)
+{
+    if (2 * (t->len + 1) > t->cap) {
+        SymTable old = *t;
+        t->cap = old.cap ? 2 * old.cap : 256;
+        t->items = arena_alloc(arena, (size_t)t->cap * sizeof *t->items);
+        t->len = 0;
+        for (int i = 0; i < old.cap; i++)
+            if (old.items[i].name)
+                *table_insert(arena, t, old.items[i].name,
+                              old.items[i].span) = old.items[i];
+    }
+    uint32_t i = hash_name(name) & (uint32_t)(t->cap - 1);
+    while (t->items[i].name)
+        i = (i + 1) & (uint32_t)(t->cap - 1);
+    t->items[i].name = name;
+    t->items[i].span = span;
+    t->len++;
+    return &t->items[i];
+}
+
+static Symbol *lookup(Resolver *r, const char *name)
+{
+    return table_find(&r->symbols, name);
+}
+
+static Symbol *insert(Resolver *r, const char *name, Span span)
+{
+    return table_insert(r->arena, &r->symbols, name, span);
+}
+
+/* Check that NAME may be defined here; report and return 0 if not. */
+static int definable(Resolver *r, const char *name, Span span)
+{
+    const char *why = names_reserved(name, r->ir->model);
+    if (why) {
+        diag_error(r->diag, span, "'%s' %s; choose another name", name, why);
+        return 0;
+    }
+    Symbol *old = lookup(r, name);
+    if (old) {
+        diag_error(r->diag, span,
+                   "'%s' is already defined; every name is defined once", name);
+        diag_note(r->diag, old->span, "'%s' was defined here", name);
+        return 0;
+    }
+    return 1;
+}
+
+/* ---------------------------------------------------------- constants */
+
+/* Evaluate a constant expression: numbers, earlier consts, arithmetic and
+ * builtins.  Returns 0 (after reporting) when it is not constant. */
+static int const_eval(Resolver *r, const AstExpr *e, double *out)
+{
+    double v[3] = {0, 0, 0};
+    switch (e->kind) {
+    case AST_NUM:
+        *out = e->num;
+        return 1;
+    case AST_NAME: {
+        Symbol *s = lookup(r, e->name);
+        if (!s) {
+            diag_error(r->diag, e->span, "unknown name '%s'", e->name);
+            return 0;
+        }
+        if (s->failed)
+            return 0;
+        if (s->kind != SYM_CONST) {
+            diag_error(r->diag, e->span,
+                       "'%s' is not a constant: constants may use only "
+                       "numbers and earlier constants", e->name);
+            return 0;
+        }
+        *out = s->value;
+        return 1;
+    }
+    case AST_UNARY:
+        if (e->op != AOP_NEG)
+            break;
+        if (!const_eval(r, e->args[0], &v[0]))
+            return 0;
+        *out = -v[0];
+        return 1;
+    case AST_BINARY: {
+        static const IrOp arith[] = {
+            [AOP_ADD] = IR_ADD, [AOP_SUB] = IR_SUB, [AOP_MUL] = IR_MUL,
+            [AOP_DIV] = IR_DIV, [AOP_POW] = IR_POW,
+        };
+        if (e->op > AOP_POW)
+            break;
+        if (!const_eval(r, e->args[0], &v[0]) ||
+            !const_eval(r, e->args[1], &v[1]))
+            return 0;
+        *out = apply_op(arith[e->op], v);
+        return 1;
+    }
+    case AST_CALL: {
+        int op = ir_builtin(e->name);
+        if (op < 0 || ir_ops[op].arity != e->nargs)
+            break;
+        for (int i = 0; i < e->nargs; i++)
+            if (!const_eval(r, e->args[i], &v[i]))
+                return 0;
+        *out = apply_op((IrOp)op, v);
+        return 1;
+    }
+    default:
+        break;
+    }
+    diag_error(r->diag, e->span,
+               "a constant's value must be a number, an earlier constant, "
+               "arithmetic or a builtin function of those");
+    return 0;
+}
+
+static void resolve_const(Resolver *r, const AstStmt *s)
+{
+    double value = 0;
+    int ok = definable(r, s->name, s->name_span);
+    int valued = const_eval(r, s->expr, &value);
+    if (!ok)
+        return;
+    Symbol *sym = insert(r, s->name, s->name_span);
+    sym->kind = SYM_CONST;
+    sym->value = value;
+    sym->failed = !valued;
+}
+
+/* ------------------------------------------------------- declarations */
+
+/* The extent a dimension expression gives, or -1 after reporting. */
+static int dimension(Resolver *r, const AstExpr *e, const char *array)
+{
+    double v;
+    if (e->kind != AST_NUM && e->kind != AST_NAME) {
+        diag_error(r->diag, e->span,
+                   "a dimension is a whole number or the name of a "
+                   "constant, as in '%s[3]' or '%s[N]'", array, array);
+        return -1;
+    }
+    if (!const_eval(r, e, &v))
+        return -1;
+    if (!(v >= 1 && v <= INT_MAX && v == floor(v))) {
+        diag_error(r->diag, e->span,
+                   "a dimension must be a whole number from 1 to %d, "
+                   "not %.17g", INT_MAX, v);
+        return -1;
+    }
+    return (int)v;
+}
+
+static void resolve_decls(Resolver *r, const AstStmt *s)
+{
+    IrRole role = s->kind == STMT_PARAM ? ROLE_PARAM : ROLE_INPUT;
+    for (int i = 0; i < s->ndecls; i++) {
+        const AstDecl *d = &s->decls[i];
+        int dim[IR_MAX_RANK];
+        int ok = definable(r, d->name, d->span);
+        if (d->ndims > LANG_MAX_RANK) {
+            diag_error(r->diag, d->span,
+                       "'%s' has %d dimensions; at most %d are allowed",
+                       d->name, d->ndims, LANG_MAX_RANK);
+            ok = 0;
+        }
+        long count = 1;
+        for (int k = 0; k < d->ndims && k < LANG_MAX_RANK; k++) {
+            dim[k] = dimension(r, d->dims[k], d->name);
+            if (dim[k] < 0)
+                ok = 0;
+            else if (count <= MAX_ELEMENTS)
+                count *= dim[k];
+        }
+        if (ok && count > MAX_ELEMENTS) {
+            diag_error(r->diag, d->span,
+                       "'%s' has more than %ld elements, too many for one "
+                       "array", d->name, MAX_ELEMENTS);
+            ok = 0;
+        }
+        if (!lookup(r, d->name)) {
+            Symbol *sym = insert(r, d->name, d->span);
+            sym->kind = SYM_ARRAY;
+            sym->failed = !ok;
+            sym->array = -1;
+            if (ok) {
+                sym->array = ir_add_array(r->ir, d->name, role, d->ndims,
+                                          dim, d->span);
+                if (role == ROLE_PARAM)
+                    r->nparams++;
+            }
+        }
+    }
+}
+
+/* ------------------------------------------------------------- infer */
+
+static int find_binder(const Resolver *r, const char *name)
+{
+    for (int i = r->scope.len - 1; i >= 0; i--)
+        if (strcmp(r->binders.items[r->scope.items[i]].name, name) == 0)
+            return r->scope.items[i];
+    return -1;
+}
+
+static void fail(Resolver *r)
+{
+    r->failed = 1;
+}
+
+/* Bind a new index called NAME at SPAN; returns its id or -1. */
+static int bind(Resolver *r, const char *name, Span span)
+{
+    const char *why = names_reserved(name, r->ir->model);
+    Symbol *sym = lookup(r, name);
+    int outer = find_binder(r, name);
+    if (why) {
+        diag_error(r->diag, span, "index '%s' %s; choose another name",
+                   name, why);
+        return -1;
+    }
+    Symbol *value = table_find(&r->all_names, name);
+    if (sym || value) {
+        diag_error(r->diag, span,
+                   "index '%s' has the name of a value; index names must "
+                   "differ from every name the model defines", name);
+        if (value)
+            diag_note(r->diag, value->span, "'%s' is defined here", name);
+        return -1;
+    }
+    if (outer >= 0) {
+        diag_error(r->diag, span, "index '%s' is already bound here", name);
+        diag_note(r->diag, r->binders.items[outer].span,
+                  "'%s' was bound here", name);
+        return -1;
+    }
+    Binder b;
+    memset(&b, 0, sizeof b);
+    b.name = name;
+    b.span = span;
+    b.extent = -1;
+    b.var = -1;
+    VEC_PUSH(r->arena, r->binders, b);
+    return r->binders.len - 1;
+}
+
+static void infer(Resolver *r, const AstExpr *e);
+
+static void infer_name(Resolver *r, const AstExpr *e)
+{
+    if (find_binder(r, e->name) >= 0) {
+        diag_error(r->diag, e->span,
+                   "index '%s' used as a value: indices may only subscript "
+                   "arrays", e->name);
+        fail(r);
+        return;
+    }
+    Symbol *s = lookup(r, e->name);
+    if (!s) {
+        if (strcmp(e->name, r->target_name) == 0)
+            diag_error(r->diag, e->span,
+                       "'%s' is used in its own definition", e->name);
+        else if (ir_builtin(e->name) >= 0)
+            diag_error(r->diag, e->span,
+                       "'%s' is a function: call it, as in %s(x)", e->name,
+                       e->name);
+        else
+            diag_error(r->diag, e->span,
+                       "unknown name '%s': define it before this line",
+                       e->name);
+        fail(r);
+        return;
+    }
+    if (s->failed) {
+        fail(r);
+        return;
+    }
+    if (s->kind != SYM_ARRAY)
+        return;
+    const IrArray *a = &r->ir->arrays.items[s->array];
+    if (a->rank == 0)
+        return;
+    if (r->index_form) {
+        diag_error(r->diag, e->span,
+                   "'%s' is an array: in index notation subscript it, as in "
+                   "%s[i]", e->name, e->name);
+        fail(r);
+        return;
+    }
+    if (r->elem_rank < 0) {
+        r->elem_rank = a->rank;
+        memcpy(r->elem_dim, a->dim, sizeof r->elem_dim);
+        r->elem_from = e->span;
+        return;
+    }
+    if (r->elem_rank != a->rank ||
+        memcmp(r->elem_dim, a->dim, (size_t)a->rank * sizeof(int)) != 0) {
+        diag_error(r->diag, e->span,
+                   "'%s' does not have the shape of the other arrays in this "
+                   "elementwise definition: use index notation, as in "
+                   "y[i] = ...", e->name);
+        diag_note(r->diag, r->elem_from, "the shape was set here");
+        fail(r);
+    }
+}
+
+static void infer_subscript(Resolver *r, const AstExpr *e)
+{
+    Symbol *s = lookup(r, e->name);
+    if (!s) {
+        diag_error(r->diag, e->name_span,
+                   strcmp(e->name, r->target_name) == 0
+                       ? "'%s' is used in its own definition"
+                       : "unknown name '%s': define it before this line",
+                   e->name);
+        fail(r);
+        return;
+    }
+    if (s->failed) {
+        fail(r);
+        return;
+    }
+    if (s->kind != SYM_ARRAY) {
+        diag_error(r->diag, e->span,
+                   "'%s' is a constant and cannot be subscripted", e->name);
+        fail(r);
+        return;
+    }
+    const IrArray *a = &r->ir->arrays.items[s->array];
+    if (a->rank != e->nargs) {
+        diag_error(r->diag, e->span,
+                   "'%s' has %d dimension%s but %d subscript%s here", e->name,
+                   a->rank, a->rank == 1 ? "" : "s", e->nargs,
+                   e->nargs == 1 ? " is given" : "s are given");
+        fail(r);
+        return;
+    }
+    for (int k = 0; k < e->nargs; k++) {
+        const AstExpr *ix = e->args[k];
+        if (ix->kind != AST_NAME) {
+            diag_error(r->diag, ix->span,
+                       "a subscript must be an index name; constant "
+                       "subscripts and offsets such as i+1 are not "
+                       "supported by this version");
+            fail(r);
+            continue;
+        }
+        int b = find_binder(r, ix->name);
+        if (b < 0) {
+            if (lookup(r, ix->name))
+                diag_error(r->diag, ix->span,
+                           "'%s' is a value, not an index: subscripts are "
+                           "indices bound on the left side or by a reduction",
+                           ix->name);
+            else
+                diag_error(r->diag, ix->span,
+                           "index '%s' is not bound: add it to the left side "
+                           "or reduce over it", ix->name);
+            fail(r);
+            continue;
+        }
+        Binder *bd = &r->binders.items[b];
+        if (bd->extent < 0) {
+            bd->extent = a->dim[k];
+            bd->range_from = ix->span;
+        } else if (bd->extent != a->dim[k]) {
+            diag_error(r->diag, ix->span,
+                       "index '%s' ranges over %d here (dimension %d of "
+                       "'%s') but over %d where it was first used",
+                       ix->name, a->dim[k], k + 1, e->name, bd->extent);
+            diag_note(r->diag, bd->range_from,
+                      "'%s' got the range %d here", ix->name, bd->extent);
+            fail(r);
+        }
+    }
+}
+
+static const char *const reduction_names[] = {"sum", "max", "min",
+                                              "logsumexp"};
+
+static int reduction_kind(const char *name)
+{
+    for (int i = 0; i < 4; i++)
+        if (strcmp(name, reduction_names[i]) == 0)
+            return i;
+    return -1;
+}
+
+static void infer_call(Resolver *r, const AstExpr *e)
+{
+    int op = ir_builtin(e->name);
+    if (op < 0) {
+        Symbol *s = lookup(r, e->name);
+        if (reduction_kind(e->name) >= 0)
+            diag_error(r->diag, e->span,
+                       "'%s' reduces over an index: write %s(i: ...)",
+                       e->name, e->name);
+        else if (s)
+            diag_error(r->diag, e->name_span,
+                       "'%s' is a value, not a function; use [ ] to "
+                       "subscript an array", e->name);
+        else
+            diag_error(r->diag, e->name_span, "unknown function '%s'",
+                       e->name);
+        fail(r);
+    } else if (ir_ops[op].arity != e->nargs) {
+        if (op == IR_MAX || op == IR_MIN)
+            diag_error(r->diag, e->span,
+                       "'%s' takes two values, as in %s(a, b), or reduces "
+                       "over an index, as in %s(i: x[i])",
+                       e->name, e->name, e->name);
+        else
+            diag_error(r->diag, e->span,
+                       "'%s' takes %d argument%s but %d %s given", e->name,
+                       ir_ops[op].arity, ir_ops[op].arity == 1 ? "" : "s",
+                       e->nargs, e->nargs == 1 ? "is" : "are");
+        fail(r);
+    }
+    for (int i = 0; i < e->nargs; i++)
+        infer(r, e->args[i]);
+}
+
+static void infer_reduce(Resolver *r, AstExpr *e)
+{
+    if (reduction_kind(e->name) < 0) {
+        diag_error(r->diag, e->name_span,
+                   "'%s' is not a reduction; the reductions are sum, max, "
+                   "min and logsumexp", e->name);
+        fail(r);
+    }
+    int pushed = 0, first = r->binders.len;
+    if (e->nbound > LANG_MAX_RANK) {
+        diag_error(r->diag, e->span,
+                   "a reduction binds at most %d indices", LANG_MAX_RANK);
+        fail(r);
+        return;
+    }
+    for (int i = 0; i < e->nbound; i++) {
+        if (e->bound[i]->kind != AST_NAME) {
+            fail(r);
+            continue;
+        }
+        int b = bind(r, e->bound[i]->name, e->bound[i]->span);
+        if (b < 0) {
+            fail(r);
+            continue;
+        }
+        VEC_PUSH(r->arena, r->scope, b);
+        pushed++;
+    }
+    e->binder = first;
+    infer(r, e->body);
+    for (int b = first; b < r->binders.len && b < first + pushed; b++)
+        if (r->binders.items[b].extent < 0) {
+            diag_error(r->diag, r->binders.items[b].span,
+                       "cannot tell the range of index '%s': use it as a "
+                       "subscript of an array inside the reduction",
+                       r->binders.items[b].name);
+            fail(r);
+        }
+    r->scope.len -= pushed;
+    if (pushed != e->nbound)
+        fail(r);
+}
+
+static void infer(Resolver *r, const AstExpr *e)
+{
+    switch (e->kind) {
+    case AST_NUM:
+        return;
+    case AST_NAME:
+        infer_name(r, e);
+        return;
+    case AST_SUBSCRIPT:
+        infer_subscript(r, e);
+        return;
+    case AST_CALL:
+        infer_call(r, e);
+        return;
+    case AST_REDUCE:
+        infer_reduce(r, (AstExpr *)e);
+        return;
+    case AST_UNARY:
+    case AST_BINARY:
+    case AST_SELECT:
+        for (int i = 0; i < e->nargs; i++)
+            infer(r, e->args[i]);
+        return;
+    }
+}
+
+/* -------------------------------------------------------------- lower */
+
+static int32_t binder_var(Resolver *r, int b)
+{
+    Binder *bd = &r->binders.items[b];
+    if (bd->var < 0)
+        bd->var = ir_add_var(r->ir, bd->name, bd->extent);
+    return bd->var;
+}
+
+/* The tuple of the vars of the binders in scope (the elementwise ones
+ * first in a whole-array definition). */
+static int32_t scope_tuple(Resolver *r)
+{
+    int32_t vars[64];
+    int n = 0;
+    for (int i = 0; i < r->scope.len && n < 64; i++)
+        vars[n++] = binder_var(r, r->scope.items[i]);
+    return ir_tuple(r->ir, vars, n);
+}
+
+static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond);
+
+static NodeId lower_value(Resolver *r, const AstExpr *e)
+{
+    int cond = 0;
+    NodeId n = lower(r, e, &cond);
+    if (cond) {
+        diag_error(r->diag, e->span,
+                   "a comparison is a condition, not a number: use it as "
+                   "the first operand of '?:', as in (x > 0 ? x : 0)");
+        fail(r);
+        return ir_const(r->ir, 0);
+    }
+    return n;
+}
+
+static NodeId lower_cond(Resolver *r, const AstExpr *e)
+{
+    int cond = 0;
+    NodeId n = lower(r, e, &cond);
+    if (!cond) {
+        diag_error(r->diag, e->span,
+                   "expected a condition such as 'x > 0' here, found a "
+                   "number");
+        fail(r);
+        return ir_node(r->ir, IR_NE, n, ir_const(r->ir, 0), NO_NODE);
+    }
+    return n;
+}
+
+/* Fold arithmetic on constants, which C would compute identically at run
+ * time; builtins are left to the C library the emitted code links. */
+static NodeId arith(Resolver *r, IrOp op, NodeId a, NodeId b)
+{
+    const IrNode *x = ir_at(r->ir, a);
+    const IrNode *y = b == NO_NODE ? NULL : ir_at(r->ir, b);
+    if (x->op == IR_CONST && (!y || y->op == IR_CONST) && op != IR_POW) {
+        double v[3] = {x->num, y ? y->num : 0, 0};
+        return ir_const(r->ir, apply_op(op, v));
+    }
+    return ir_node(r->ir, op, a, b, NO_NODE);
+}
+
+/* Collect into VARS (a set of size *n) the index vars that node ID reads. */
+static void node_vars(const Ir *ir, NodeId id, int32_t *vars, int *n,
+                      int max)
+{
+    const IrNode *nd = ir_at(ir, id);
+    int32_t found[IR_MAX_RANK + 1];
+    int nf = 0;
+    if (nd->op == IR_READ) {
+        int len = ir_tuple_len(ir, nd->tuple);
+        for (int k = 0; k < len; k++)
+            found[nf++] = ir_tuple_vars(ir, nd->tuple)[k];
+    } else if (nd->op == IR_INDEX) {
+        found[nf++] = nd->var;
+    }
+    for (int i = 0; i < nf; i++) {
+        int seen = 0;
+        for (int k = 0; k < *n; k++)
+            seen |= vars[k] == found[i];
+        if (!seen && *n < max)
+            vars[(*n)++] = found[i];
+    }
+    for (int i = 0; i < nd->nargs; i++)
+        node_vars(ir, nd->arg[i], vars, n, max);
+}
+
+static IrStmt make_stmt(Resolver *r, IrStmtKind kind, int32_t target,
+                        int32_t tuple, int32_t domain, NodeId expr)
+{
+    IrStmt s;
+    memset(&s, 0, sizeof s);
+    s.kind = kind;
+    s.target = target;
+    s.tuple = tuple;
+    s.domain = domain;
+    s.reduced = ir_tuple(r->ir, NULL, 0);
+    s.argpos = -1;
+    s.expr = expr;
+    s.origin = r->stmt->span;
+    return s;
+}
+
+static const char *temp_name(Resolver *r, const char *what)
+{
+    r->ntemps++;
+    if (r->ntemps == 1)
+        return arena_printf(r->arena, DV_PREFIX "%s_%s", r->target_name, what);
+    return arena_printf(r->arena, DV_PREFIX "%s_%s%d", r->target_name, what,
+                        r->ntemps);
+}
+
+/* Lower a reduction.  Its accumulator is indexed by the enclosing indices
+ * its body uses (so a reduction that does not depend on j is computed once,
+ * not once per j).  When DIRECT is the definition's own array and the
+ * accumulator would have exactly its subscripts, the reduction accumulates
+ * into it and *direct_used is set. */
+static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
+                           int32_t direct_tuple, int *direct_used)
+{
+    static const double init[] = {0, -HUGE_VAL, HUGE_VAL, -HUGE_VAL};
+    static const IrStmtKind kinds[] = {SK_ADD, SK_MAX, SK_MIN, SK_LSE};
+    static const char *const what[] = {"sum", "max", "min", "lse"};
+    int kind = reduction_kind(e->name);
+    for (int i = 0; i < e->nbound; i++)
+        VEC_PUSH(r->arena, r->scope, e->binder + i);
+    NodeId body = lower_value(r, e->body);
+    r->scope.len -= e->nbound;
+
+    int32_t own[LANG_MAX_RANK], nown = 0;
+    for (int i = 0; i < e->nbound; i++)
+        own[nown++] = binder_var(r, e->binder + i);
+    /* free vars of the body, in scope order */
+    int32_t used[64], nused = 0, outer[64], nouter = 0;
+    node_vars(r->ir, body, used, &nused, 64);
+    for (int i = 0; i < r->scope.len; i++) {
+        int32_t v = binder_var(r, r->scope.items[i]);
+        for (int k = 0; k < nused; k++)
+            if (used[k] == v)
+                outer[nouter++] = v;
+    }
+    if (nouter > IR_MAX_RANK) {
+        diag_error(r->diag, e->span,
+                   "this reduction depends on %d enclosing indices; at most "
+                   "%d are supported: compute it in a definition of its own",
+                   nouter, IR_MAX_RANK);
+        fail(r);
+        nouter = IR_MAX_RANK;
+    }
+    int32_t dom[64];
+    memcpy(dom, outer, (size_t)nouter * sizeof *dom);
+    memcpy(dom + nouter, own, (size_t)nown * sizeof *dom);
+    int32_t tuple = ir_tuple(r->ir, outer, nouter);
+    int32_t domain = ir_tuple(r->ir, dom, nouter + nown);
+    int32_t acc;
+    if (direct >= 0 && tuple == direct_tuple) {
+        acc = direct;
+        *direct_used = 1;
+    } else {
+        int dim[IR_MAX_RANK];
+        for (int k = 0; k < nouter; k++)
+            dim[k] = r->ir->vars.items[outer[k]].extent;
+        acc = ir_add_array(r->ir, temp_name(r, what[kind]), ROLE_TEMP,
+                           nouter, dim, e->span);
+    }
+    IrStmt s = make_stmt(r, SK_SET, acc, tuple, tuple,
+                         ir_const(r->ir, init[kind]));
+    ir_add_stmt(r->ir, &r->ir->forward, s);
+    IrStmt red = make_stmt(r, kinds[kind], acc, tuple, domain, body);
+    if (kind == 1 || kind == 2) {
+        IrArray *a = &r->ir->arrays.items[acc];
+        int32_t pos = ir_add_array(
+            r->ir, arena_printf(r->arena, DV_PREFIX "%s_at", a->name + (
+                strncmp(a->name, DV_PREFIX, strlen(DV_PREFIX)) == 0
+                    ? strlen(DV_PREFIX) : 0)),
+            ROLE_ARGPOS, a->rank, a->dim, e->span);
+        IrStmt at = make_stmt(r, SK_SET, pos, tuple, tuple, ir_const(r->ir, 0));
+        ir_add_stmt(r->ir, &r->ir->forward, at);
+        red.argpos = pos;
+        red.reduced = ir_tuple(r->ir, own, nown);
+    }
+    ir_add_stmt(r->ir, &r->ir->forward, red);
+    return ir_read(r->ir, acc, tuple);
+}
+
+static NodeId lower_binary(Resolver *r, const AstExpr *e, int *is_cond)
+{
+    IrOp op = IR_ADD;
+    switch (e->op) {
+    case AOP_ADD: op = IR_ADD; break;
+    case AOP_SUB: op = IR_SUB; break;
+    case AOP_MUL: op = IR_MUL; break;
+    case AOP_DIV: op = IR_DIV; break;
+    case AOP_POW: op = IR_POW; break;
+    case AOP_LT: op = IR_LT; break;
+    case AOP_LE: op = IR_LE; break;
+    case AOP_GT: op = IR_GT; break;
+    case AOP_GE: op = IR_GE; break;
+    case AOP_EQ: op = IR_EQ; break;
+    case AOP_NE: op = IR_NE; break;
+    case AOP_AND: op = IR_AND; break;
+    case AOP_OR: op = IR_OR; break;
+    default: DV_UNREACHABLE();
+    }
+    if (op == IR_AND || op == IR_OR) {
+        *is_cond = 1;
+        NodeId a = lower_cond(r, e->args[0]);
+        NodeId b = lower_cond(r, e->args[1]);
+        return ir_node(r->ir, op, a, b, NO_NODE);
+    }
+    NodeId a = lower_value(r, e->args[0]);
+    NodeId b = lower_value(r, e->args[1]);
+    if (ir_ops[op].kind == OPK_COMPARE) {
+        *is_cond = 1;
+        return ir_node(r->ir, op, a, b, NO_NODE);
+    }
+    return arith(r, op, a, b);
+}
+
+static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
+{
+    *is_cond = 0;
+    switch (e->kind) {
+    case AST_NUM:
+        return ir_const(r->ir, e->num);
+    case AST_NAME: {
+        Symbol *s = lookup(r, e->name);
+        if (s->kind == SYM_CONST)
+            return ir_const(r->ir, s->value);
+        const IrArray *a = &r->ir->arrays.items[s->array];
+        if (a->rank == 0)
+            return ir_read(r->ir, s->array, ir_tuple(r->ir, NULL, 0));
+        /* whole-array form: the implicit indices are the outermost scope */
+        int32_t vars[IR_MAX_RANK];
+        for (int k = 0; k < a->rank; k++)
+            vars[k] = binder_var(r, r->scope.items[k]);
+        return ir_read(r->ir, s->array, ir_tuple(r->ir, vars, a->rank));
+    }
+    case AST_SUBSCRIPT: {
+        Symbol *s = lookup(r, e->name);
+        int32_t vars[IR_MAX_RANK];
+        for (int k = 0; k < e->nargs; k++)
+            vars[k] = binder_var(r, find_binder(r, e->args[k]->name));
+        return ir_read(r->ir, s->array, ir_tuple(r->ir, vars, e->nargs));
+    }
+    case AST_CALL: {
+        IrOp op = (IrOp)ir_builtin(e->name);
+        NodeId a[3] = {NO_NODE, NO_NODE, NO_NODE};
+        for (int i = 0; i < e->nargs; i++)
+            a[i] = lower_value(r, e->args[i]);
+        return ir_node(r->ir, op, a[0], a[1], a[2]);
+    }
+    case AST_REDUCE: {
+        int unused = 0;
+        return lower_reduce(r, e, -1, -1, &unused);
+    }
+    case AST_UNARY:
+        if (e->op == AOP_NOT) {
+            *is_cond = 1;
+            return ir_node(r->ir, IR_NOT, lower_cond(r, e->args[0]),
+                           NO_NODE, NO_NODE);
+        }
+        return arith(r, IR_NEG, lower_value(r, e->args[0]), NO_NODE);
+    case AST_BINARY:
+        return lower_binary(r, e, is_cond);
+    case AST_SELECT: {
+        NodeId c = lower_cond(r, e->args[0]);
+        NodeId a = lower_value(r, e->args[1]);
+        NodeId b = lower_value(r, e->args[2]);
+        return ir_node(r->ir, IR_SELECT, c, a, b);
+    }
+    }
+    DV_UNREACHABLE();
+    return NO_NODE;
+}
+
+/* -------------------------------------------------------- definitions */
+
+static void resolve_define(Resolver *r, const AstStmt *s)
+{
+    r->stmt = s;
+    r->target_name = s->name;
+    r->binders.len = 0;
+    r->scope.len = 0;
+    r->index_form = s->nindex > 0;
+    r->elem_rank = -1;
+    r->failed = 0;
+    r->ntemps = 0;
+
+    int ok = definable(r, s->name, s->name_span);
+    for (int i = 0; i < s->nindex; i++) {
+        int b = bind(r, s->index[i]->name, s->index[i]->span);
+        if (b < 0)
+            fail(r);
+        else
+            VEC_PUSH(r->arena, r->scope, b);
+    }
+    if (s->nindex > LANG_MAX_RANK) {
+        diag_error(r->diag, s->name_span,
+                   "'%s' has %d indices; at most %d are allowed", s->name,
+                   s->nindex, LANG_MAX_RANK);
+        fail(r);
+    }
+    infer(r, s->expr);
+    for (int i = 0; i < r->scope.len; i++) {
+        Binder *b = &r->binders.items[r->scope.items[i]];
+        if (b->extent < 0) {
+            diag_error(r->diag, b->span,
+                       "cannot tell the range of index '%s': use it as a "
+                       "subscript of an array on the right side", b->name);
+            fail(r);
+        }
+    }
+    if (!ok) {
+        return;
+    }
+    Symbol *sym = insert(r, s->name, s->name_span);
+    sym->kind = SYM_ARRAY;
+    sym->array = -1;
+    if (r->failed || s->nindex > LANG_MAX_RANK) {
+        sym->failed = 1;
+        return;
+    }
+
+    /* Shape and subscripts of the value defined. */
+    int rank = 0, dim[IR_MAX_RANK];
+    if (r->index_form) {
+        rank = s->nindex;
+        for (int k = 0; k < rank; k++)
+            dim[k] = r->binders.items[r->scope.items[k]].extent;
+    } else if (r->elem_rank > 0) {
+        rank = r->elem_rank;
+        for (int k = 0; k < rank; k++) {
+            dim[k] = r->elem_dim[k];
+            Binder b;
+            memset(&b, 0, sizeof b);
+            b.name = arena_printf(r->arena, DV_PREFIX "i%d", k);
+            b.span = s->name_span;
+            b.extent = dim[k];
+            b.var = -1;
+            VEC_PUSH(r->arena, r->binders, b);
+            VEC_PUSH(r->arena, r->scope, r->binders.len - 1);
+        }
+    }
+    int32_t target = ir_add_array(r->ir, s->name, ROLE_VALUE, rank, dim,
+                                  s->name_span);
+    sym->array = target;
+    int32_t tuple = scope_tuple(r);
+    DefinedValue dv = {target, s};
+    VEC_PUSH(r->arena, r->defined, dv);
+
+    int direct = 0;
+    NodeId e;
+    if (s->expr->kind == AST_REDUCE)
+        e = lower_reduce(r, s->expr, target, tuple, &direct);
+    else
+        e = lower_value(r, s->expr);
+    if (r->failed) {
+        sym->failed = 1;
+        return;
+    }
+    if (!direct)
+        ir_add_stmt(r->ir, &r->ir->forward,
+                    make_stmt(r, SK_SET, target, tuple, tuple, e));
+}
+
+static void resolve_output(Resolver *r, const AstStmt *s)
+{
+    for (int i = 0; i < s->nnames; i++) {
+        const AstExpr *n = s->names[i];
+        Symbol *sym = lookup(r, n->name);
+        r->noutputs++;
+        if (!sym) {
+            diag_error(r->diag, n->span,
+                       "unknown name '%s': define it before 'output'",
+                       n->name);
+            continue;
+        }
+        if (sym->failed)
+            continue;
+        if (sym->kind != SYM_ARRAY) {
+            diag_error(r->diag, n->span,
+                       "'%s' is a constant; an output must depend on the "
+                       "params", n->name);
+            continue;
+        }
+        if (r->noutputs > 1) {
+            diag_error(r->diag, n->span,
+                       "a second output: this version of dervish emits "
+                       "models with exactly one scalar output");
+            continue;
+        }
+        const IrArray *a = &r->ir->arrays.items[sym->array];
+        if (a->rank > 0) {
+            diag_error(r->diag, n->span,
+                       "'%s' is an array: this version of dervish emits "
+                       "models with one scalar output (reduce it, e.g. with "
+                       "sum)", n->name);
+            continue;
+        }
+        r->ir->output = sym->array;
+        r->ir->output_span = n->span;
+    }
+}
+
+/* -------------------------------------------------------- model name */
+
+/* The symbol prefix: --name, else the model statement, else the stem. */
+static const char *model_name(Resolver *r, const AstModel *m,
+                              const char *name, const char *stem)
+{
+    const AstStmt *decl = NULL;
+    for (int i = 0; i < m->nstmts; i++) {
+        const AstStmt *s = m->stmts[i];
+        if (s->kind != STMT_MODEL)
+            continue;
+        if (decl) {
+            diag_error(r->diag, s->span, "a second 'model' statement");
+            diag_note(r->diag, decl->span, "the model was named here");
+        } else if (i > 0) {
+            diag_error(r->diag, s->span,
+                       "'model' must be the first statement of the file");
+        }
+        if (!decl)
+            decl = s;
+    }
+    if (name)
+        return name;
+    if (decl)
+        return decl->name;
+    /* The stem made into a C name: '-', '.' and spaces become '_'. */
+    char *c = arena_strndup(r->arena, stem, strlen(stem));
+    for (char *p = c; *p; p++)
+        if (*p == '-' || *p == '.' || *p == ' ')
+            *p = '_';
+    if (!names_is_identifier(c)) {
+        Span none = {0, 0};
+        diag_error(r->diag, none,
+                   "cannot make a C name from the file name '%s': add a "
+                   "'model NAME' statement or use --name", stem);
+        return "model";
+    }
+    return c;
+}
+
+static void check_model_name(Resolver *r, const AstModel *m)
+{
+    const char *name = r->ir->model;
+    Span at = {0, 0};
+    for (int i = 0; i < m->nstmts; i++)
+        if (m->stmts[i]->kind == STMT_MODEL)
+            at = m->stmts[i]->name_span;
+    if (!names_is_identifier(name)) {
+        diag_error(r->diag, at, "model name '%s' is not a C identifier",
+                   name);
+        return;
+    }
+    const char *why = names_reserved(name, NULL);
+    if (why)
+        diag_error(r->diag, at, "model name '%s' %s; choose another name",
+                   name, why);
+}
+
+/* ------------------------------------------------------- dead values */
+
+/* Keep the statements some output depends on; warn about the rest. */
+static void prune(Resolver *r)
+{
+    Ir *ir = r->ir;
+    for (int i = 0; i < ir->arrays.len; i++)
+        ir->arrays.items[i].used = 0;
+    ir->arrays.items[ir->output].used = 1;
+    int kept = ir->forward.len;
+    char *keep = arena_alloc(r->arena, (size_t)(kept ? kept : 1));
+    VEC(NodeId) stack = {0};
+    for (int i = ir->forward.len - 1; i >= 0; i--) {
+        IrStmt *s = &ir->forward.items[i];
+        if (!ir->arrays.items[s->target].used)
+            continue;
+        keep[i] = 1;
+        if (s->argpos >= 0)
+            ir->arrays.items[s->argpos].used = 1;
+        /* mark every array the expression reads */
+        stack.len = 0;
+        VEC_PUSH(r->arena, stack, s->expr);
+        while (stack.len > 0) {
+            const IrNode *n = ir_at(ir, stack.items[--stack.len]);
+            if (n->op == IR_READ)
+                ir->arrays.items[n->array].used = 1;
+            for (int k = 0; k < n->nargs; k++)
+                VEC_PUSH(r->arena, stack, n->arg[k]);
+        }
+    }
+    int out = 0;
+    for (int i = 0; i < ir->forward.len; i++)
+        if (keep[i])
+            ir->forward.items[out++] = ir->forward.items[i];
+    ir->forward.len = out;
+
+    for (int i = 0; i < r->defined.len; i++) {
+        const DefinedValue *d = &r->defined.items[i];
+        if (!ir->arrays.items[d->array].used)
+            diag_warning(r->diag, d->stmt->name_span,
+                         "'%s' is defined but no output depends on it; it "
+                         "is left out of the emitted code", d->stmt->name);
+    }
+    int any_param = 0;
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (a->role != ROLE_PARAM)
+            continue;
+        if (a->used)
+            any_param = 1;
+        else
+            diag_warning(r->diag, a->span,
+                         "param '%s' does not affect the output; its "
+                         "gradient is always zero", a->name);
+    }
+    if (!any_param)
+        diag_warning(r->diag, ir->output_span,
+                     "output '%s' does not depend on any param; its "
+                     "gradient is zero", ir->arrays.items[ir->output].name);
+}
+
+/* -------------------------------------------------------------- model */
+
+Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
+                  const AstModel *m, const char *name, const char *stem)
+{
+    Resolver r;
+    memset(&r, 0, sizeof r);
+    r.arena = arena;
+    r.diag = diag;
+    r.src = src;
+    r.ir = ir_new(arena, src);
+    r.ir->model = model_name(&r, m, name, stem);
+    check_model_name(&r, m);
+
+    for (int i = 0; i < m->nstmts; i++) {
+        const AstStmt *s = m->stmts[i];
+        if (s->kind == STMT_CONST || s->kind == STMT_DEFINE) {
+            if (!table_find(&r.all_names, s->name))
+                table_insert(arena, &r.all_names, s->name, s->name_span);
+        }
+        for (int k = 0; k < s->ndecls; k++)
+            if (!table_find(&r.all_names, s->decls[k].name))
+                table_insert(arena, &r.all_names, s->decls[k].name,
+                             s->decls[k].span);
+    }
+
+    const AstStmt *last_output = NULL;
+    for (int i = 0; i < m->nstmts; i++) {
+        const AstStmt *s = m->stmts[i];
+        if (diag->errors >= diag->max_errors)
+            break;
+        switch (s->kind) {
+        case STMT_MODEL:
+            break;
+        case STMT_CONST:
+            resolve_const(&r, s);
+            break;
+        case STMT_INPUT:
+        case STMT_PARAM:
+            resolve_decls(&r, s);
+            break;
+        case STMT_DEFINE:
+            resolve_define(&r, s);
+            break;
+        case STMT_OUTPUT:
+            resolve_output(&r, s);
+            last_output = s;
+            break;
+        }
+    }
+    Span start = {0, 0};
+    if (diag->errors == 0 && r.nparams == 0)
+        diag_error(diag, last_output ? last_output->span : start,
+                   "nothing to differentiate: the model declares no "
+                   "'param'");
+    if (diag->errors == 0 && r.noutputs == 0)
+        diag_error(diag, start,
+                   "the model has no output: add 'output NAME' naming the "
+                   "value to differentiate");
+    if (diag->errors == 0 && r.ir->output >= 0)
+        prune(&r);
+    return r.ir;
+}

@@ -1,0 +1,277 @@
+/* reverse.c - activity analysis and the adjoint sweep; see reverse.h.
+ *
+ * For a forward statement  y[I] (op)= e  over domain D and each active
+ * read a[J] in e, the sweep appends
+ *     adj_a[J] += adj_y[I] * w      over D
+ * where w is de/da[J] from the rules, times the reduction's own factor:
+ * 1 for = and +=, the softmax weight exp(e - y) for logsumexp, and the
+ * indicator of the winning point for max and min.  Statements are visited
+ * in reverse order, so every adjoint is complete before it is read. */
+#include "reverse.h"
+#include "names.h"
+#include "rules.h"
+
+#include <string.h>
+
+typedef struct Reverse {
+    Ir *ir;
+    char *written;      /* adjoint array has received a contribution */
+    NodeList reads;  /* scratch: distinct active reads of one expression */
+} Reverse;
+
+/* Visit every READ node below n once (a small DAG walk with a seen list). */
+static void collect_reads(Reverse *rv, NodeId n, NodeList *seen)
+{
+    for (int i = 0; i < seen->len; i++)
+        if (seen->items[i] == n)
+            return;
+    VEC_PUSH(rv->ir->arena, *seen, n);
+    const IrNode *nd = ir_at(rv->ir, n);
+    if (nd->op == IR_READ) {
+        const IrArray *a = &rv->ir->arrays.items[nd->array];
+        if (a->varied && a->useful)
+            VEC_PUSH(rv->ir->arena, rv->reads, n);
+        return;
+    }
+    for (int i = 0; i < nd->nargs; i++)
+        collect_reads(rv, nd->arg[i], seen);
+}
+
+static int reads_varied(const Ir *ir, NodeId n)
+{
+    const IrNode *nd = ir_at(ir, n);
+    if (nd->op == IR_READ)
+        return ir->arrays.items[nd->array].varied;
+    for (int i = 0; i < nd->nargs; i++)
+        if (reads_varied(ir, nd->arg[i]))
+            return 1;
+    return 0;
+}
+
+static void mark_useful(Ir *ir, NodeId n)
+{
+    const IrNode *nd = ir_at(ir, n);
+    if (nd->op == IR_READ)
+        ir->arrays.items[nd->array].useful = 1;
+    for (int i = 0; i < nd->nargs; i++)
+        mark_useful(ir, nd->arg[i]);
+}
+
+/* varied: depends on a param; useful: the output depends on it. */
+static void activity(Ir *ir)
+{
+    for (int i = 0; i < ir->arrays.len; i++) {
+        IrArray *a = &ir->arrays.items[i];
+        a->varied = a->role == ROLE_PARAM;
+        a->useful = i == ir->output;
+    }
+    for (int i = 0; i < ir->forward.len; i++) {
+        const IrStmt *s = &ir->forward.items[i];
+        if (reads_varied(ir, s->expr))
+            ir->arrays.items[s->target].varied = 1;
+    }
+    for (int i = ir->forward.len - 1; i >= 0; i--) {
+        const IrStmt *s = &ir->forward.items[i];
+        if (ir->arrays.items[s->target].useful)
+            mark_useful(ir, s->expr);
+    }
+}
+
+static int32_t adjoint_of(Reverse *rv, int32_t array)
+{
+    Ir *ir = rv->ir;
+    IrArray *a = &ir->arrays.items[array];
+    if (a->adjoint >= 0)
+        return a->adjoint;
+    const char *name = a->role == ROLE_PARAM
+                           ? a->name
+                           : arena_printf(ir->arena, DV_PREFIX "adj_%s",
+                                          a->name + (a->role == ROLE_TEMP
+                                                         ? strlen(DV_PREFIX)
+                                                         : 0));
+    int32_t adj = ir_add_array(ir, name, ROLE_ADJOINT, a->rank, a->dim,
+                               a->span);
+    ir->arrays.items[array].adjoint = adj;
+    ir->arrays.items[adj].primal = array;
+    return adj;
+}
+
+/* A tuple of fresh vars covering every element of array a. */
+static int32_t whole_tuple(Ir *ir, int32_t array)
+{
+    const IrArray *a = &ir->arrays.items[array];
+    int32_t vars[IR_MAX_RANK];
+    static const char *const names[] = {DV_PREFIX "i0", DV_PREFIX "i1",
+                                        DV_PREFIX "i2", DV_PREFIX "i3",
+                                        DV_PREFIX "i4", DV_PREFIX "i5",
+                                        DV_PREFIX "i6", DV_PREFIX "i7"};
+    for (int k = 0; k < a->rank; k++)
+        vars[k] = ir_add_var(ir, names[k], a->dim[k]);
+    return ir_tuple(ir, vars, a->rank);
+}
+
+static void emit_stmt(Reverse *rv, IrStmtKind kind, int32_t target,
+                      int32_t tuple, int32_t domain, NodeId e, Span origin)
+{
+    IrStmt s;
+    memset(&s, 0, sizeof s);
+    s.kind = kind;
+    s.target = target;
+    s.tuple = tuple;
+    s.domain = domain;
+    s.reduced = ir_tuple(rv->ir, NULL, 0);
+    s.argpos = -1;
+    s.expr = e;
+    s.origin = origin;
+    ir_add_stmt(rv->ir, &rv->ir->reverse, s);
+}
+
+/* True when a statement over DOMAIN writing array[tuple] writes each
+ * element exactly once: the tuple is the whole domain, without repeats. */
+static int covers_once(const Ir *ir, int32_t tuple, int32_t domain)
+{
+    int n = ir_tuple_len(ir, tuple);
+    if (n != ir_tuple_len(ir, domain))
+        return 0;
+    const int32_t *v = ir_tuple_vars(ir, tuple);
+    for (int i = 0; i < n; i++)
+        for (int k = 0; k < i; k++)
+            if (v[i] == v[k])
+                return 0;
+    return 1;
+}
+
+/* Add contribution e to adj[tuple] over domain: the first write to an
+ * adjoint sets it when it covers every element once, else zeroes it first. */
+static void accumulate(Reverse *rv, int32_t adj, int32_t tuple,
+                       int32_t domain, NodeId e, Span origin)
+{
+    Ir *ir = rv->ir;
+    if (!rv->written[adj]) {
+        rv->written[adj] = 1;
+        if (covers_once(ir, tuple, domain)) {
+            emit_stmt(rv, SK_SET, adj, tuple, domain, e, origin);
+            return;
+        }
+        int32_t whole = whole_tuple(ir, adj);
+        emit_stmt(rv, SK_SET, adj, whole, whole, ir_const(ir, 0), origin);
+    }
+    emit_stmt(rv, SK_ADD, adj, tuple, domain, e, origin);
+}
+
+/* The flat position of the current point of the reduced vars, matching
+ * what the forward max/min statement stores in its argpos array. */
+static NodeId flat_point(Ir *ir, int32_t reduced)
+{
+    int n = ir_tuple_len(ir, reduced);
+    const int32_t *v = ir_tuple_vars(ir, reduced);
+    NodeId pos = ir_index(ir, v[0]);
+    for (int k = 1; k < n; k++)
+        pos = ir_node(ir, IR_ADD,
+                      ir_node(ir, IR_MUL, pos,
+                              ir_const(ir, ir->vars.items[v[k]].extent),
+                              NO_NODE),
+                      ir_index(ir, v[k]), NO_NODE);
+    return pos;
+}
+
+static void reverse_stmt(Reverse *rv, const IrStmt *s)
+{
+    Ir *ir = rv->ir;
+    IrArray *t = &ir->arrays.items[s->target];
+    if (!t->varied || !t->useful)
+        return;
+    int32_t adj_y = adjoint_of(rv, s->target);
+    if (!rv->written[adj_y])
+        return;     /* its adjoint is zero: nothing to propagate */
+    NodeId seed = ir_read(ir, adj_y, s->tuple);
+    NodeId y = ir_read(ir, s->target, s->tuple);
+    NodeId factor = ir_const(ir, 1);
+    if (s->kind == SK_LSE)
+        factor = ir_node(ir, IR_EXP, ir_node(ir, IR_SUB, s->expr, y, NO_NODE),
+                         NO_NODE, NO_NODE);
+    NodeId winner = NO_NODE;
+    if (s->kind == SK_MAX || s->kind == SK_MIN)
+        winner = ir_node(ir, IR_EQ, flat_point(ir, s->reduced),
+                         ir_read(ir, s->argpos, s->tuple), NO_NODE);
+    NodeId self = s->kind == SK_SET ? y : s->expr;
+
+    NodeList seen = {0};
+    rv->reads.len = 0;
+    collect_reads(rv, s->expr, &seen);
+    for (int i = 0; i < rv->reads.len; i++) {
+        NodeId leaf = rv->reads.items[i];
+        NodeId d = rules_derivative(ir, s->expr, leaf, self);
+        if (d == NO_NODE)
+            continue;
+        NodeId w = rules_mul(ir, rules_mul(ir, seed, factor), d);
+        if (winner != NO_NODE)
+            w = ir_node(ir, IR_SELECT, winner, w, ir_const(ir, 0));
+        const IrNode *rd = ir_at(ir, leaf);
+        int32_t adj_a = adjoint_of(rv, rd->array);
+        accumulate(rv, adj_a, rd->tuple, s->domain, w, s->origin);
+    }
+}
+
+/* Drop writes to adjoints nothing reads (a value whose every partial is
+ * zero, e.g. under floor), repeating until none is left, so no local is
+ * set but never used. */
+static void drop_unread(Ir *ir)
+{
+    char *read = arena_alloc(ir->arena, (size_t)ir->arrays.len);
+    char *reached = arena_alloc(ir->arena, (size_t)ir->nodes.len + 1);
+    for (int changed = 1; changed;) {
+        changed = 0;
+        memset(read, 0, (size_t)ir->arrays.len);
+        memset(reached, 0, (size_t)ir->nodes.len + 1);
+        ir_mark_reached(ir, &ir->reverse, reached);
+        for (int i = 0; i < ir->nodes.len; i++)
+            if (reached[i] && ir->nodes.items[i].op == IR_READ)
+                read[ir->nodes.items[i].array] = 1;
+        int out = 0;
+        for (int i = 0; i < ir->reverse.len; i++) {
+            const IrStmt *s = &ir->reverse.items[i];
+            const IrArray *t = &ir->arrays.items[s->target];
+            int param_grad = ir->arrays.items[t->primal].role == ROLE_PARAM;
+            if (!param_grad && !read[s->target]) {
+                changed = 1;
+                continue;
+            }
+            ir->reverse.items[out++] = *s;
+        }
+        ir->reverse.len = out;
+    }
+}
+
+void reverse_pass(Ir *ir)
+{
+    Reverse rv;
+    memset(&rv, 0, sizeof rv);
+    rv.ir = ir;
+    activity(ir);
+    /* adjoints are created on demand; size the flags for the worst case */
+    rv.written = arena_alloc(ir->arena, (size_t)(2 * ir->arrays.len + 1));
+    int32_t adj_out = adjoint_of(&rv, ir->output);
+    int32_t none = ir_tuple(ir, NULL, 0);
+    Span at = ir->output_span;
+    if (ir->arrays.items[ir->output].varied) {
+        emit_stmt(&rv, SK_SET, adj_out, none, none, ir_const(ir, 1), at);
+        rv.written[adj_out] = 1;
+    }
+    for (int i = ir->forward.len - 1; i >= 0; i--)
+        reverse_stmt(&rv, &ir->forward.items[i]);
+    /* every gradient member is overwritten, also where it is zero */
+    int narrays = ir->arrays.len;
+    for (int i = 0; i < narrays; i++) {
+        if (ir->arrays.items[i].role != ROLE_PARAM)
+            continue;
+        int32_t adj = adjoint_of(&rv, i);
+        if (!rv.written[adj]) {
+            int32_t whole = whole_tuple(ir, adj);
+            emit_stmt(&rv, SK_SET, adj, whole, whole, ir_const(ir, 0),
+                      ir->arrays.items[i].span);
+            rv.written[adj] = 1;
+        }
+    }
+    drop_unread(ir);
+}
