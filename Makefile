@@ -13,6 +13,7 @@ CC      ?= cc
 PREFIX  ?= /usr/local
 DESTDIR ?=
 VERSION := 0.1.0
+DEMO    ?= kiln
 
 WARN    := -std=c99 -Wall -Wextra -Wpedantic -Wshadow -Wstrict-prototypes \
            -Wmissing-prototypes
@@ -42,7 +43,7 @@ RUNTIME  := $(sort $(wildcard runtime/*.c))
 TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 
-.PHONY: all check samples clean install uninstall
+.PHONY: all check samples demo clean install uninstall
 all: $(B)/dervish dervish
 
 dervish: $(B)/dervish
@@ -95,6 +96,9 @@ check: $(B)/dervish $(TEST_BINS)
 
 samples: $(B)/dervish
 	@sh samples/run_samples.sh $(B)/dervish
+
+demo: $(B)/dervish
+	@sh samples/run_samples.sh $(B)/dervish $(DEMO)
 
 clean:
 	rm -rf build build-san dervish

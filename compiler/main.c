@@ -2,7 +2,7 @@
  *
  * Exit status: 0 success, 1 the model has errors (or check found a
  * mismatch), 2 bad command line, 3 an I/O failure. */
-#include "check.h"
+#include "gradcheck.h"
 #include "dervish.h"
 #include "fileio.h"
 

@@ -43,8 +43,8 @@ static double dvs_digamma(double x)
             if (f > 0.5)
                 f -= 1.0;           /* exact, in (-1/2, 1/2] */
         }
-        if (fabs(f) < 1e-9)
-            t = 1.0 / f;            /* pi cot(pi f) = 1/f - pi^2 f/3 - ... */
+        if (fabs(f) < 1e-9)         /* pi cot(pi f) = 1/f - pi^2 f/3 ... */
+            t = 1.0 / f;            /* and pi*f might be subnormal */
         else if (fabs(f) <= 0.25)
             t = pi / tan(pi * f);
         else {                      /* cot(pi f) = tan(pi (1/2 - f)) */

@@ -7,6 +7,8 @@
  * Other expected values are exact by the definitions in LANGUAGE.md and in
  * the helpers' own comments, or come from the handbook identities named
  * beside them.
+ * testutil.h is included for the project's shared test conventions; the
+ * numeric helpers below are local because only this program needs them.
  *
  * Set DVS_RUNTIME_REPORT=1 to print the worst error seen in each table. */
 #include <check.h>
@@ -14,6 +16,8 @@
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
+
+#include "testutil.h"
 
 #include "clamp.c"
 #include "digamma.c"
@@ -324,11 +328,17 @@ START_TEST(digamma_mpmath)
         double got = dvs_digamma(r->x);
         double err = fabs(got - r->want);
         double tol = 1e-14 * fabs(r->want) + 2e-15 * r->scale;
-        if (r->scale == 0.0 && rel_err(got, r->want) > worst)
-            worst = rel_err(got, r->want);
-        if (err / tol > worst_ratio)
-            worst_ratio = err / tol;
-        if (!(err <= tol)) {
+        int ok;
+        if (isinf(r->want)) {   /* overflow at x = +-2^-1074 */
+            ok = got == r->want;
+        } else {
+            ok = err <= tol;
+            if (r->scale == 0.0 && rel_err(got, r->want) > worst)
+                worst = rel_err(got, r->want);
+            if (err / tol > worst_ratio)
+                worst_ratio = err / tol;
+        }
+        if (!ok) {
             bad++;
             fprintf(stderr, "digamma(%.17g) = %.17g, want %.17g "
                     "(err %.3g, tolerance %.3g)\n",

@@ -1,8 +1,8 @@
-/* check.h - `dervish check`: evaluate a compiled model with the IR
+/* gradcheck.h - `dervish check`: evaluate a compiled model with the IR
  * evaluator, take its gradient by the reverse pass, and compare that with
  * numerical derivatives. */
-#ifndef DERVISH_CHECK_H
-#define DERVISH_CHECK_H
+#ifndef DERVISH_GRADCHECK_H
+#define DERVISH_GRADCHECK_H
 
 #include "dervish.h"
 

@@ -1,5 +1,5 @@
 /* check.c - placeholder until the evaluator lands. */
-#include "check.h"
+#include "gradcheck.h"
 
 int check_run(const DvCompilation *c, const CheckOptions *opt)
 {
