@@ -88,7 +88,7 @@ $(B)/runtime_text.o: $(B)/runtime_text.c
 # ---------------------------------------------------------------- tests
 $(B)/tests/%: tests/%.c tests/testutil.h $(B)/libdervish.a Makefile
 	@mkdir -p $(@D)
-	$(CC) $(ALL_CFLAGS) $(CHECK_CFLAGS) -Itests -Iruntime -o $@ $< \
+	$(CC) $(ALL_CFLAGS) -D_XOPEN_SOURCE=700 $(CHECK_CFLAGS) -Itests -o $@ $< \
 	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)
 
 check: $(B)/dervish $(TEST_BINS)

@@ -7,8 +7,8 @@
  * Other expected values are exact by the definitions in LANGUAGE.md and in
  * the helpers' own comments, or come from the handbook identities named
  * beside them.
- * testutil.h is included for the project's shared test conventions; the
- * numeric helpers below are local because only this program needs them.
+ * It needs nothing from tests/testutil.h (files, processes, the dervish
+ * binary), so its few numeric helpers are local static functions.
  *
  * Set DVS_RUNTIME_REPORT=1 to print the worst error seen in each table. */
 #include <check.h>
@@ -16,8 +16,6 @@
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
-
-#include "testutil.h"
 
 #include "clamp.c"
 #include "digamma.c"
