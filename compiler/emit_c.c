@@ -259,14 +259,17 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         }
     }
 
+    /* max and min need a block for the comparison; their loops get
+     * braces so the block reads as the loop body */
+    int block = s->kind == SK_MAX || s->kind == SK_MIN;
     int depth = 1;
     int n = ir_tuple_len(ir, s->domain);
     const int32_t *v = ir_tuple_vars(ir, s->domain);
     for (int k = 0; k < n; k++, depth++) {
         const IrIndexVar *iv = &ir->vars.items[v[k]];
         indent(e, depth);
-        buf_printf(e->out, "for (int %s = 0; %s < %d; %s++)\n", iv->name,
-                   iv->name, iv->extent, iv->name);
+        buf_printf(e->out, "for (int %s = 0; %s < %d; %s++)%s\n", iv->name,
+                   iv->name, iv->extent, iv->name, block ? " {" : "");
     }
     indent(e, depth);
     const IrNode *x = ir_at(ir, s->expr);
@@ -276,7 +279,10 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
             buf_printf(e->out, "%s ", c_type(t));
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, " = ");
-        emit_expr(e, s->expr, 0, -1);
+        if (t->role == ROLE_ARGPOS)
+            buf_put(e->out, "0");     /* positions start at the first point */
+        else
+            emit_expr(e, s->expr, 0, -1);
         break;
     case SK_ADD:
         emit_access(e, s->target, s->tuple);
@@ -298,24 +304,22 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         break;
     case SK_MAX:
     case SK_MIN: {
-        buf_put(e->out, "{\n");
-        indent(e, depth + 1);
         buf_put(e->out, "double " DV_PREFIX "next = ");
         emit_expr(e, s->expr, 0, -1);
         buf_put(e->out, ";\n");
-        indent(e, depth + 1);
+        indent(e, depth);
         buf_printf(e->out, "if (" DV_PREFIX "next %s ",
                    s->kind == SK_MAX ? ">" : "<");
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, ") {\n");
-        indent(e, depth + 2);
+        indent(e, depth + 1);
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, " = " DV_PREFIX "next;\n");
         if (needs_argpos) {
             /* the flat position of the winning point */
             int nr = ir_tuple_len(ir, s->reduced);
             const int32_t *rv = ir_tuple_vars(ir, s->reduced);
-            indent(e, depth + 2);
+            indent(e, depth + 1);
             emit_access(e, s->argpos, s->tuple);
             buf_put(e->out, " = ");
             for (int k = 0; k < nr; k++) {
@@ -325,10 +329,12 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
             }
             buf_put(e->out, ";\n");
         }
-        indent(e, depth + 1);
-        buf_put(e->out, "}\n");
         indent(e, depth);
         buf_put(e->out, "}\n");
+        while (--depth > 0) {
+            indent(e, depth);
+            buf_put(e->out, "}\n");
+        }
         return;
     }
     }

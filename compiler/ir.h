@@ -123,7 +123,8 @@ typedef struct Ir {
     IrStmtList forward;         /* the model's statements in order */
     IrStmtList reverse;         /* adjoint statements, in sweep order */
     int32_t output;             /* the output array */
-    Span output_span;
+    Span output_span;           /* the output's name in its statement */
+    Span output_stmt;           /* the whole output statement */
     /* hash-consing tables, open addressing, sized powers of two */
     int32_t *node_hash;
     int node_hash_cap;

@@ -991,6 +991,7 @@ static void resolve_output(Resolver *r, const AstStmt *s)
         }
         r->ir->output = sym->array;
         r->ir->output_span = n->span;
+        r->ir->output_stmt = s->span;
     }
 }
 

@@ -253,7 +253,7 @@ void reverse_pass(Ir *ir)
     rv.written = arena_alloc(ir->arena, (size_t)(2 * ir->arrays.len + 1));
     int32_t adj_out = adjoint_of(&rv, ir->output);
     int32_t none = ir_tuple(ir, NULL, 0);
-    Span at = ir->output_span;
+    Span at = ir->output_stmt;
     if (ir->arrays.items[ir->output].varied) {
         emit_stmt(&rv, SK_SET, adj_out, none, none, ir_const(ir, 1), at);
         rv.written[adj_out] = 1;
