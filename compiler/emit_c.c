@@ -241,10 +241,15 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         if (e->last_origin != UINT32_MAX)
             buf_put(e->out, "\n");
         e->last_origin = s->origin.off;
-        buf_printf(e->out, "    /* %s%s:%d: ", origin_label,
-                   e->opt->model_file, line);
-        put_model_text(e->out, ir->src, s->origin);
-        buf_put(e->out, " */\n");
+        if (s->note) {
+            buf_printf(e->out, "    /* %s:%d: %s */\n", e->opt->model_file,
+                       line, s->note);
+        } else {
+            buf_printf(e->out, "    /* %s%s:%d: ", origin_label,
+                       e->opt->model_file, line);
+            put_model_text(e->out, ir->src, s->origin);
+            buf_put(e->out, " */\n");
+        }
     }
     int scalar_init = 0;
     if (!is_external(t, ir) && !e->declared[s->target]) {
@@ -463,7 +468,8 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     for (int i = 0; i < ir->forward.len; i++)
         emit_stmt(e, &ir->forward.items[i], "");
     if (fn == FN_GRADIENT) {
-        buf_put(&body, "\n    /* The reverse sweep: adjoints, last statement "
+        buf_put(&body, ir->forward.len ? "\n" : "");
+        buf_put(&body, "    /* The reverse sweep: adjoints, last statement "
                        "first. */\n");
         e->last_origin = UINT32_MAX;
         for (int i = 0; i < ir->reverse.len; i++)

@@ -272,11 +272,17 @@ static void verify_tuple_in(const Ir *ir, int32_t tuple, int32_t domain)
     }
 }
 
-static void verify_expr(const Ir *ir, NodeId id, int32_t domain)
+/* Checks a statement's expression; seen[] holds the statement's number
+ * for nodes already checked, so shared subexpressions are visited once. */
+static void verify_expr(const Ir *ir, NodeId id, int32_t domain, int *seen,
+                        int stamp)
 {
-    const IrNode *n = ir_at(ir, id);
     if (id < 0 || id >= ir->nodes.len)
         DV_UNREACHABLE();
+    if (seen[id] == stamp)
+        return;
+    seen[id] = stamp;
+    const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ) {
         const IrArray *a = &ir->arrays.items[n->array];
         if (ir_tuple_len(ir, n->tuple) != a->rank)
@@ -286,11 +292,12 @@ static void verify_expr(const Ir *ir, NodeId id, int32_t domain)
     for (int i = 0; i < n->nargs; i++) {
         if (n->arg[i] >= id)    /* operands are built before their users */
             DV_UNREACHABLE();
-        verify_expr(ir, n->arg[i], domain);
+        verify_expr(ir, n->arg[i], domain, seen, stamp);
     }
 }
 
-static void verify_list(const Ir *ir, const IrStmtList *list)
+static void verify_list(const Ir *ir, const IrStmtList *list, int *seen,
+                        int *stamp)
 {
     for (int i = 0; i < list->len; i++) {
         const IrStmt *s = &list->items[i];
@@ -298,7 +305,7 @@ static void verify_list(const Ir *ir, const IrStmtList *list)
         if (ir_tuple_len(ir, s->tuple) != t->rank)
             DV_UNREACHABLE();
         verify_tuple_in(ir, s->tuple, s->domain);
-        verify_expr(ir, s->expr, s->domain);
+        verify_expr(ir, s->expr, s->domain, seen, ++*stamp);
         if (ir_is_condition(ir, s->expr))
             DV_UNREACHABLE();
     }
@@ -306,8 +313,13 @@ static void verify_list(const Ir *ir, const IrStmtList *list)
 
 void ir_verify(const Ir *ir)
 {
-    verify_list(ir, &ir->forward);
-    verify_list(ir, &ir->reverse);
+    int *seen = calloc((size_t)ir->nodes.len + 1, sizeof *seen);
+    int stamp = 0;
+    if (!seen)
+        DV_UNREACHABLE();
+    verify_list(ir, &ir->forward, seen, &stamp);
+    verify_list(ir, &ir->reverse, seen, &stamp);
+    free(seen);
 }
 
 static void print_tuple(const Ir *ir, int32_t tuple, FILE *out)

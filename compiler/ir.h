@@ -108,6 +108,7 @@ typedef struct IrStmt {
     int32_t argpos;     /* SK_MAX/SK_MIN: the ROLE_ARGPOS array, else -1 */
     NodeId expr;
     Span origin;        /* the model statement this came from */
+    const char *note;   /* a comment to show instead of the model text */
 } IrStmt;
 
 typedef VEC(IrStmt) IrStmtList;

@@ -17,6 +17,7 @@ typedef struct Reverse {
     Ir *ir;
     char *written;      /* adjoint array has received a contribution */
     NodeList reads;  /* scratch: distinct active reads of one expression */
+    DeriveMemo memo;
 } Reverse;
 
 /* Visit every READ node below n once (a small DAG walk with a seen list). */
@@ -201,7 +202,7 @@ static void reverse_stmt(Reverse *rv, const IrStmt *s)
     collect_reads(rv, s->expr, &seen);
     for (int i = 0; i < rv->reads.len; i++) {
         NodeId leaf = rv->reads.items[i];
-        NodeId d = rules_derivative(ir, s->expr, leaf, self);
+        NodeId d = rules_derivative(ir, &rv->memo, s->expr, leaf, self);
         if (d == NO_NODE)
             continue;
         NodeId w = rules_mul(ir, rules_mul(ir, seed, factor), d);
@@ -270,8 +271,11 @@ void reverse_pass(Ir *ir)
             int32_t whole = whole_tuple(ir, adj);
             emit_stmt(&rv, SK_SET, adj, whole, whole, ir_const(ir, 0),
                       ir->arrays.items[i].span);
+            ir->reverse.items[ir->reverse.len - 1].note = arena_printf(
+                ir->arena, "%s does not affect the output", ir->arrays.items[i].name);
             rv.written[adj] = 1;
         }
     }
+    rules_memo_free(&rv.memo);
     drop_unread(ir);
 }

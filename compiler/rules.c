@@ -5,6 +5,7 @@
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 
 static NodeId num(Ir *ir, double v)
 {
@@ -238,16 +239,7 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
     return NO_NODE;
 }
 
-/* Memo of derivatives for one rules_derivative call: node -> result, valid
- * where stamp matches. */
-typedef struct Memo {
-    NodeId *result;
-    int *stamp;
-    int cap;
-    int now;
-} Memo;
-
-static NodeId derive(Ir *ir, Memo *m, NodeId n, NodeId leaf, NodeId root,
+static NodeId derive(Ir *ir, DeriveMemo *m, NodeId n, NodeId leaf, NodeId root,
                      NodeId root_value)
 {
     if (n == leaf)
@@ -277,21 +269,35 @@ static NodeId derive(Ir *ir, Memo *m, NodeId n, NodeId leaf, NodeId root,
     return d;
 }
 
-NodeId rules_derivative(Ir *ir, NodeId root, NodeId leaf, NodeId root_value)
+NodeId rules_derivative(Ir *ir, DeriveMemo *m, NodeId root, NodeId leaf,
+                        NodeId root_value)
 {
-    /* Nodes created while differentiating are newer than root and never
-     * looked up, so a memo sized to the current node count suffices. */
-    Memo m;
-    m.cap = root + 1;
-    m.result = malloc((size_t)m.cap * sizeof *m.result);
-    m.stamp = calloc((size_t)m.cap, sizeof *m.stamp);
-    if (!m.result || !m.stamp) {
-        fputs("dervish: out of memory\n", stderr);
-        exit(3);
+    /* Nodes made while differentiating are newer than root and are never
+     * looked up, so the memo needs to cover ids up to root only. */
+    if (root >= m->cap) {
+        int cap = m->cap ? m->cap : 1024;
+        while (cap <= root)
+            cap *= 2;
+        NodeId *result = realloc(m->result, (size_t)cap * sizeof *result);
+        int *stamp = realloc(m->stamp, (size_t)cap * sizeof *stamp);
+        if (!result || !stamp) {
+            fputs("dervish: out of memory\n", stderr);
+            exit(3);
+        }
+        memset(stamp + m->cap, 0, (size_t)(cap - m->cap) * sizeof *stamp);
+        m->result = result;
+        m->stamp = stamp;
+        m->cap = cap;
     }
-    m.now = 1;
-    NodeId d = derive(ir, &m, root, leaf, root, root_value);
-    free(m.result);
-    free(m.stamp);
-    return d;
+    m->now++;
+    return derive(ir, m, root, leaf, root, root_value);
+}
+
+void rules_memo_free(DeriveMemo *m)
+{
+    free(m->result);
+    free(m->stamp);
+    m->result = NULL;
+    m->stamp = NULL;
+    m->cap = 0;
 }

@@ -21,8 +21,20 @@ NodeId rules_mul(Ir *ir, NodeId a, NodeId b);
  * is one, else N itself); rules reuse it (tanh' = 1 - value^2). */
 NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value);
 
+/* Scratch reused across rules_derivative calls, so each call costs the
+ * size of its expression, not of the whole IR.  Start zeroed; free with
+ * rules_memo_free. */
+typedef struct DeriveMemo {
+    NodeId *result;
+    int *stamp;         /* result[n] is valid when stamp[n] == now */
+    int cap;
+    int now;
+} DeriveMemo;
+
 /* d ROOT / d LEAF.  ROOT_VALUE stands for ROOT's value in the rules (the
  * statement's target when ROOT is a whole right side). */
-NodeId rules_derivative(Ir *ir, NodeId root, NodeId leaf, NodeId root_value);
+NodeId rules_derivative(Ir *ir, DeriveMemo *memo, NodeId root, NodeId leaf,
+                        NodeId root_value);
+void rules_memo_free(DeriveMemo *memo);
 
 #endif
