@@ -79,6 +79,10 @@ typedef struct AstStmt {
 typedef struct AstModel {
     AstStmt **stmts;
     int nstmts;
+    /* Names that statements with syntax errors were probably defining;
+     * uses of them are not reported again as unknown. */
+    const char **failed_names;
+    int nfailed;
 } AstModel;
 
 #endif

@@ -77,18 +77,89 @@ static int starts_operand(int code)
            code == TOK_MINUS || code == TOK_NOT;
 }
 
+/* How a token is named in a message: its text for names and numbers. */
+static const char *describe(ParseState *ps, int code, Token tok)
+{
+    const char *text = ps->lexer.src->text + tok.span.off;
+    if (code == TOK_NAME)
+        return arena_printf(ps->arena, "the name '%.*s'", (int)tok.span.len,
+                            text);
+    if (code == TOK_NUMBER)
+        return arena_printf(ps->arena, "the number '%.*s'",
+                            (int)tok.span.len, text);
+    return parse_token_name(code);
+}
+
+static int line_of(const Source *src, Span at)
+{
+    int line, col;
+    source_line_col(src, at.off, &line, &col);
+    return line;
+}
+
+/* True when nothing but blanks precedes the token on its line. */
+static int first_on_line(const Source *src, Span at)
+{
+    for (uint32_t i = at.off; i > 0; i--) {
+        char c = src->text[i - 1];
+        if (c == '\n')
+            return 1;
+        if (c != ' ' && c != '\t')
+            return 0;
+    }
+    return 1;
+}
+
+/* Remember the names the failing statement may have been defining (its
+ * leading name, or the names after const, input or param), so later uses
+ * of them are not reported as unknown. */
+static void note_failed_names(ParseState *ps)
+{
+    int first = ps->first.code;
+    if (ps->stmt_failed)
+        return;
+    ps->stmt_failed = 1;
+    if (first != TOK_NAME && first != TOK_CONST && first != TOK_INPUT &&
+        first != TOK_PARAM)
+        return;
+    for (int i = 0; i < ps->stmt_names.len; i++) {
+        Span n = ps->stmt_names.items[i];
+        VEC_PUSH(ps->arena, ps->failed,
+                 arena_strndup(ps->arena, ps->lexer.src->text + n.off, n.len));
+        if (first == TOK_NAME)
+            break;
+    }
+}
+
 void parse_syntax_error(ParseState *ps, int code, Token tok)
 {
+    const Source *src = ps->lexer.src;
+    note_failed_names(ps);
     if ((code == 0 || code == TOK_NEWLINE) && ps->lexer.failed_at_end)
         return;     /* the lexer already said which bracket is open */
-    const char *found = parse_token_name(code);
+    if (ps->lexer.open.len > 0 && first_on_line(src, tok.span)) {
+        /* A statement ran on into the next line: the bracket is the cause. */
+        Span open = ps->lexer.open.items[ps->lexer.open.len - 1];
+        diag_error(ps->diag, open,
+                   "'%c' is never closed, so the statement runs on into "
+                   "line %d", src->text[open.off],
+                   line_of(src, tok.span));
+        ps->lexer.open.len = 0;     /* newlines end statements again */
+        return;
+    }
+    const char *found = describe(ps, code, tok);
     int prev = ps->prev.code;
-    const char *text = ps->lexer.src->text;
+    if (code == TOK_NEWLINE || code == 0) {
+        /* point just past the last token, not at the next line */
+        tok.span.off = ps->prev.span.off + ps->prev.span.len;
+        tok.span.len = 1;
+    }
     if (wants_operand(prev) || prev == TOK_LPAREN || prev == TOK_COMMA ||
         prev == TOK_LBRACKET) {
         if (prev == TOK_COMMA || prev == TOK_LPAREN || prev == TOK_LBRACKET)
-            diag_error(ps->diag, tok.span, "expected a name or expression after '%c', found %s",
-                       text[ps->prev.span.off], found);
+            diag_error(ps->diag, tok.span,
+                       "expected a name or expression after '%c', found %s",
+                       src->text[ps->prev.span.off], found);
         else
             diag_error(ps->diag, tok.span,
                        "expected an expression after %s, found %s",
@@ -100,8 +171,8 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
                    found);
     } else if (ends_operand(prev) && starts_operand(code)) {
         diag_error(ps->diag, tok.span,
-                   "expected an operator or the end of the statement before %s",
-                   found);
+                   "expected an operator or the end of the statement "
+                   "before %s", found);
     } else {
         diag_error(ps->diag, tok.span, "unexpected %s", found);
     }
@@ -325,6 +396,13 @@ AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
     }
     for (;;) {
         Token t = lex_next(&ps.lexer);
+        if (ps.prev.code == TOK_NEWLINE || ps.prev.code == TOK_SEMI) {
+            ps.first = t;
+            ps.stmt_names.len = 0;
+            ps.stmt_failed = 0;
+        }
+        if (t.code == TOK_NAME)
+            VEC_PUSH(arena, ps.stmt_names, t.span);
         DvParser(parser, t.code, t, &ps);
         if (t.code == 0 || ps.too_deep || diag->errors >= diag->max_errors)
             break;
@@ -334,5 +412,7 @@ AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
     AstModel *m = arena_alloc(arena, sizeof *m);
     m->stmts = ps.stmts.items;
     m->nstmts = ps.stmts.len;
+    m->failed_names = ps.failed.items;
+    m->nfailed = ps.failed.len;
     return m;
 }

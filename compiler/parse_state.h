@@ -11,6 +11,10 @@ typedef struct ParseState {
     Lexer lexer;
     VEC(AstStmt *) stmts;
     Token prev;         /* the token before the one being parsed */
+    Token first;        /* the first token of the current statement */
+    VEC(Span) stmt_names;       /* names seen in the current statement */
+    VEC(const char *) failed;   /* names a failed statement may define */
+    int stmt_failed;    /* the current statement had a syntax error */
     int too_deep;       /* nesting limit hit: parsing stops */
 } ParseState;
 

@@ -1140,6 +1140,16 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
                              s->decls[k].span);
     }
 
+    /* names whose statements failed to parse: their uses stay quiet */
+    for (int i = 0; i < m->nfailed; i++)
+        if (!lookup(&r, m->failed_names[i])) {
+            Span none = {0, 0};
+            Symbol *sym = insert(&r, m->failed_names[i], none);
+            sym->kind = SYM_ARRAY;
+            sym->array = -1;
+            sym->failed = 1;
+        }
+
     const AstStmt *last_output = NULL;
     for (int i = 0; i < m->nstmts; i++) {
         const AstStmt *s = m->stmts[i];
