@@ -44,7 +44,8 @@ TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 
 .PHONY: all check samples demo clean install uninstall
-all: $(B)/dervish dervish
+# The copy ./dervish is made only by the default build directory.
+all: $(B)/dervish $(if $(filter build,$(B)),dervish)
 
 dervish: $(B)/dervish
 	cp $< $@
@@ -92,6 +93,7 @@ $(B)/tests/%: tests/%.c tests/testutil.h $(B)/libdervish.a Makefile
 	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)
 
 check: $(B)/dervish $(TEST_BINS)
+	@sh samples/run_samples.sh $(B)/dervish
 	@sh tests/run_all.sh $(B)
 
 samples: $(B)/dervish
