@@ -135,8 +135,8 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
 {
     const Source *src = ps->lexer.src;
     note_failed_names(ps);
-    if ((code == 0 || code == TOK_NEWLINE) && ps->lexer.failed_at_end)
-        return;     /* the lexer already said which bracket is open */
+    if (ps->lexer.error_in_stmt)
+        return;     /* the lexer already reported this statement */
     if (ps->lexer.open.len > 0 && first_on_line(src, tok.span)) {
         /* A statement ran on into the next line: the bracket is the cause. */
         Span open = ps->lexer.open.items[ps->lexer.open.len - 1];
@@ -149,6 +149,28 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
     }
     const char *found = describe(ps, code, tok);
     int prev = ps->prev.code;
+    Span joined = ps->lexer.joined;
+    if (ps->lexer.has_joined && code != 0 && code != TOK_NEWLINE &&
+        joined.off >= ps->first.span.off &&
+        line_of(src, tok.span) > line_of(src, joined)) {
+        /* An operator at the end of a line continued the statement onto
+         * the next, where it went wrong: the operator is the likely cause. */
+        diag_error(ps->diag, joined,
+                   "'%.*s' ends the line, so the statement runs on into "
+                   "line %d", (int)joined.len, src->text + joined.off,
+                   line_of(src, joined) + 1);
+        /* the next line probably began a definition of its own */
+        for (int i = 0; i < ps->stmt_names.len; i++) {
+            Span n = ps->stmt_names.items[i];
+            if (n.off > joined.off && first_on_line(src, n)) {
+                VEC_PUSH(ps->arena, ps->failed,
+                         arena_strndup(ps->arena, src->text + n.off, n.len));
+                break;
+            }
+        }
+        return;
+    }
+    int first = ps->first.code;
     if (code == TOK_NEWLINE || code == 0) {
         /* point just past the last token, not at the next line */
         tok.span.off = ps->prev.span.off + ps->prev.span.len;
@@ -164,6 +186,15 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
             diag_error(ps->diag, tok.span,
                        "expected an expression after %s, found %s",
                        parse_token_name(prev), found);
+    } else if (prev == TOK_MODEL || prev == TOK_CONST || prev == TOK_INPUT ||
+               prev == TOK_PARAM || prev == TOK_OUTPUT) {
+        diag_error(ps->diag, tok.span, "expected a name after %s, found %s",
+                   parse_token_name(prev), found);
+    } else if (first == TOK_NAME && ps->prev.span.off == ps->first.span.off) {
+        diag_error(ps->diag, tok.span,
+                   "expected '=' after the name '%.*s' to define it, found %s",
+                   (int)ps->prev.span.len, src->text + ps->prev.span.off,
+                   found);
     } else if (prev == TOK_NEWLINE || prev == TOK_SEMI || prev == 0) {
         diag_error(ps->diag, tok.span,
                    "expected a statement (a definition 'name = ...', or "
@@ -173,6 +204,13 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
         diag_error(ps->diag, tok.span,
                    "expected an operator or the end of the statement "
                    "before %s", found);
+    } else if ((code == TOK_NEWLINE || code == 0) && ps->open_selects > 0) {
+        diag_error(ps->diag, tok.span,
+                   "expected ':' and the other branch of '?', found the end "
+                   "of the line");
+    } else if (code == TOK_NEWLINE || code == 0) {
+        diag_error(ps->diag, tok.span,
+                   "the statement is incomplete at the end of the line");
     } else {
         diag_error(ps->diag, tok.span, "unexpected %s", found);
     }
@@ -182,8 +220,8 @@ void parse_too_deep(ParseState *ps)
 {
     if (!ps->too_deep)
         diag_error(ps->diag, ps->prev.span,
-                   "expression nested too deeply (limit is %d levels): "
-                   "split it into named steps", PARSE_MAX_DEPTH);
+                   "expression nested too deeply for the parser: split it "
+                   "into named steps");
     ps->too_deep = 1;
 }
 
@@ -234,6 +272,7 @@ AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
             diag_error(ps->diag, index.items[i]->span,
                        "the left side takes index names, as in "
                        "'%s[i, j] = ...'", s->name);
+            VEC_PUSH(ps->arena, ps->failed, s->name);
             return NULL;
         }
     s->index = index.items;
@@ -244,7 +283,7 @@ AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
 AstStmt *parse_later(ParseState *ps, Token keyword, const char *what)
 {
     diag_error(ps->diag, keyword.span,
-               "%s are not supported by this version of dervish", what);
+               "%s not supported by this version of dervish", what);
     return NULL;
 }
 
@@ -400,9 +439,13 @@ AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
             ps.first = t;
             ps.stmt_names.len = 0;
             ps.stmt_failed = 0;
+            ps.open_selects = 0;
+            ps.lexer.error_in_stmt = 0;
+            ps.lexer.has_joined = 0;
         }
         if (t.code == TOK_NAME)
             VEC_PUSH(arena, ps.stmt_names, t.span);
+        ps.open_selects += (t.code == TOK_QUESTION) - (t.code == TOK_COLON);
         DvParser(parser, t.code, t, &ps);
         if (t.code == 0 || ps.too_deep || diag->errors >= diag->max_errors)
             break;

@@ -22,8 +22,13 @@ typedef struct Lexer {
     const unsigned char *cur;   /* next byte to scan */
     const unsigned char *end;   /* the terminating NUL */
     int last;                   /* code of the last token returned */
+    Span last_span;             /* and its span */
     VEC(Span) open;             /* unclosed ( and [ */
     int failed_at_end;          /* an unclosed bracket was reported */
+    int error_in_stmt;          /* a lexical error in the current statement */
+    int too_deep;               /* the bracket limit was reported */
+    Span joined;                /* operator whose line break was joined */
+    int has_joined;             /* joined is set (reset per statement) */
 } Lexer;
 
 void lex_init(Lexer *lx, const Source *src, Diag *diag, Arena *arena);

@@ -15,6 +15,7 @@ typedef struct ParseState {
     VEC(Span) stmt_names;       /* names seen in the current statement */
     VEC(const char *) failed;   /* names a failed statement may define */
     int stmt_failed;    /* the current statement had a syntax error */
+    int open_selects;   /* '?' minus ':' seen in the current statement */
     int too_deep;       /* nesting limit hit: parsing stops */
 } ParseState;
 

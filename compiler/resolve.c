@@ -58,6 +58,7 @@ typedef struct Resolver {
     Ir *ir;
     SymTable symbols;   /* names defined so far */
     SymTable all_names; /* every name the model defines anywhere */
+    SymTable unparsed;  /* names of statements that failed to parse */
     VEC(DefinedValue) defined;
     int nparams;
     int noutputs;
@@ -128,6 +129,24 @@ static Symbol *insert(Resolver *r, const char *name, Span span)
     return table_insert(r->arena, &r->symbols, name, span);
 }
 
+/* True when NAME is unknown because its statement failed to parse: the
+ * error was reported there, and this use is not reported again. */
+static int failed_earlier(Resolver *r, const char *name)
+{
+    return table_find(&r->unparsed, name) != NULL;
+}
+
+/* Record a definition that was refused, so its uses stay quiet. */
+static void insert_failed(Resolver *r, const char *name, Span span)
+{
+    if (lookup(r, name))
+        return;
+    Symbol *sym = insert(r, name, span);
+    sym->kind = SYM_ARRAY;
+    sym->array = -1;
+    sym->failed = 1;
+}
+
 /* Check that NAME may be defined here; report and return 0 if not. */
 static int definable(Resolver *r, const char *name, Span span)
 {
@@ -160,7 +179,10 @@ static int const_eval(Resolver *r, const AstExpr *e, double *out)
     case AST_NAME: {
         Symbol *s = lookup(r, e->name);
         if (!s) {
-            diag_error(r->diag, e->span, "unknown name '%s'", e->name);
+            if (!failed_earlier(r, e->name))
+                diag_error(r->diag, e->span,
+                           "unknown name '%s': define it before this line",
+                           e->name);
             return 0;
         }
         if (s->failed)
@@ -218,8 +240,16 @@ static void resolve_const(Resolver *r, const AstStmt *s)
     double value = 0;
     int ok = definable(r, s->name, s->name_span);
     int valued = const_eval(r, s->expr, &value);
-    if (!ok)
+    if (valued && !isfinite(value)) {
+        diag_error(r->diag, s->expr->span,
+                   "constant '%s' is not a finite number (its value is %s)",
+                   s->name, isnan(value) ? "NaN" : value > 0 ? "+inf" : "-inf");
+        valued = 0;
+    }
+    if (!ok) {
+        insert_failed(r, s->name, s->name_span);
         return;
+    }
     Symbol *sym = insert(r, s->name, s->name_span);
     sym->kind = SYM_CONST;
     sym->value = value;
@@ -306,40 +336,50 @@ static void fail(Resolver *r)
     r->failed = 1;
 }
 
-/* Bind a new index called NAME at SPAN; returns its id or -1. */
+static int push_binder(Resolver *r, const char *name, Span span, int extent)
+{
+    Binder b;
+    memset(&b, 0, sizeof b);
+    b.name = name;
+    b.span = span;
+    b.extent = extent;
+    b.var = -1;
+    VEC_PUSH(r->arena, r->binders, b);
+    return r->binders.len - 1;
+}
+
+/* A binder standing for an index whose binding was refused: subscripts
+ * with it are accepted quietly, so the refusal is reported once. */
+#define EXTENT_FAILED (-2)
+
+/* Bind a new index called NAME at SPAN; returns its id.  When the name is
+ * refused the error is reported and the binder is marked failed. */
 static int bind(Resolver *r, const char *name, Span span)
 {
     const char *why = names_reserved(name, r->ir->model);
     Symbol *sym = lookup(r, name);
     int outer = find_binder(r, name);
+    Symbol *value = table_find(&r->all_names, name);
     if (why) {
         diag_error(r->diag, span, "index '%s' %s; choose another name",
                    name, why);
-        return -1;
-    }
-    Symbol *value = table_find(&r->all_names, name);
-    if (sym || value) {
+    } else if (sym || value) {
         diag_error(r->diag, span,
                    "index '%s' has the name of a value; index names must "
                    "differ from every name the model defines", name);
         if (value)
             diag_note(r->diag, value->span, "'%s' is defined here", name);
-        return -1;
-    }
-    if (outer >= 0) {
-        diag_error(r->diag, span, "index '%s' is already bound here", name);
+    } else if (outer >= 0) {
+        diag_error(r->diag, span,
+                   "index '%s' is bound twice: it is already bound by the "
+                   "left side or an enclosing reduction", name);
         diag_note(r->diag, r->binders.items[outer].span,
-                  "'%s' was bound here", name);
-        return -1;
+                  "'%s' is first bound here", name);
+    } else {
+        return push_binder(r, name, span, -1);
     }
-    Binder b;
-    memset(&b, 0, sizeof b);
-    b.name = name;
-    b.span = span;
-    b.extent = -1;
-    b.var = -1;
-    VEC_PUSH(r->arena, r->binders, b);
-    return r->binders.len - 1;
+    fail(r);
+    return push_binder(r, name, span, EXTENT_FAILED);
 }
 
 static void infer(Resolver *r, const AstExpr *e);
@@ -354,6 +394,10 @@ static void infer_name(Resolver *r, const AstExpr *e)
         return;
     }
     Symbol *s = lookup(r, e->name);
+    if (!s && failed_earlier(r, e->name)) {
+        fail(r);
+        return;
+    }
     if (!s) {
         if (strcmp(e->name, r->target_name) == 0)
             diag_error(r->diag, e->span,
@@ -405,6 +449,10 @@ static void infer_name(Resolver *r, const AstExpr *e)
 static void infer_subscript(Resolver *r, const AstExpr *e)
 {
     Symbol *s = lookup(r, e->name);
+    if (!s && failed_earlier(r, e->name)) {
+        fail(r);
+        return;
+    }
     if (!s) {
         diag_error(r->diag, e->name_span,
                    strcmp(e->name, r->target_name) == 0
@@ -425,6 +473,12 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
         return;
     }
     const IrArray *a = &r->ir->arrays.items[s->array];
+    if (a->rank == 0) {
+        diag_error(r->diag, e->span,
+                   "'%s' is a scalar and takes no subscripts", e->name);
+        fail(r);
+        return;
+    }
     if (a->rank != e->nargs) {
         diag_error(r->diag, e->span,
                    "'%s' has %d dimension%s but %d subscript%s here", e->name,
@@ -458,6 +512,8 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
             continue;
         }
         Binder *bd = &r->binders.items[b];
+        if (bd->extent == EXTENT_FAILED)
+            continue;
         if (bd->extent < 0) {
             bd->extent = a->dim[k];
             bd->range_from = ix->span;
@@ -539,17 +595,13 @@ static void infer_reduce(Resolver *r, AstExpr *e)
             continue;
         }
         int b = bind(r, e->bound[i]->name, e->bound[i]->span);
-        if (b < 0) {
-            fail(r);
-            continue;
-        }
         VEC_PUSH(r->arena, r->scope, b);
         pushed++;
     }
     e->binder = first;
     infer(r, e->body);
     for (int b = first; b < r->binders.len && b < first + pushed; b++)
-        if (r->binders.items[b].extent < 0) {
+        if (r->binders.items[b].extent == -1 && !r->failed) {
             diag_error(r->diag, r->binders.items[b].span,
                        "cannot tell the range of index '%s': use it as a "
                        "subscript of an array inside the reduction",
@@ -881,10 +933,7 @@ static void resolve_define(Resolver *r, const AstStmt *s)
     int ok = definable(r, s->name, s->name_span);
     for (int i = 0; i < s->nindex; i++) {
         int b = bind(r, s->index[i]->name, s->index[i]->span);
-        if (b < 0)
-            fail(r);
-        else
-            VEC_PUSH(r->arena, r->scope, b);
+        VEC_PUSH(r->arena, r->scope, b);
     }
     if (s->nindex > LANG_MAX_RANK) {
         diag_error(r->diag, s->name_span,
@@ -895,7 +944,7 @@ static void resolve_define(Resolver *r, const AstStmt *s)
     infer(r, s->expr);
     for (int i = 0; i < r->scope.len; i++) {
         Binder *b = &r->binders.items[r->scope.items[i]];
-        if (b->extent < 0) {
+        if (b->extent == -1 && !r->failed) {
             diag_error(r->diag, b->span,
                        "cannot tell the range of index '%s': use it as a "
                        "subscript of an array on the right side", b->name);
@@ -903,6 +952,7 @@ static void resolve_define(Resolver *r, const AstStmt *s)
         }
     }
     if (!ok) {
+        insert_failed(r, s->name, s->name_span);
         return;
     }
     Symbol *sym = insert(r, s->name, s->name_span);
@@ -961,6 +1011,8 @@ static void resolve_output(Resolver *r, const AstStmt *s)
         const AstExpr *n = s->names[i];
         Symbol *sym = lookup(r, n->name);
         r->noutputs++;
+        if (!sym && failed_earlier(r, n->name))
+            continue;
         if (!sym) {
             diag_error(r->diag, n->span,
                        "unknown name '%s': define it before 'output'",
@@ -1142,12 +1194,9 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
 
     /* names whose statements failed to parse: their uses stay quiet */
     for (int i = 0; i < m->nfailed; i++)
-        if (!lookup(&r, m->failed_names[i])) {
+        if (!table_find(&r.unparsed, m->failed_names[i])) {
             Span none = {0, 0};
-            Symbol *sym = insert(&r, m->failed_names[i], none);
-            sym->kind = SYM_ARRAY;
-            sym->array = -1;
-            sym->failed = 1;
+            table_insert(arena, &r.unparsed, m->failed_names[i], none);
         }
 
     const AstStmt *last_output = NULL;
@@ -1179,6 +1228,8 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
         diag_error(diag, last_output ? last_output->span : start,
                    "nothing to differentiate: the model declares no "
                    "'param'");
+    if (m->nstmts > 0)
+        start = m->stmts[m->nstmts - 1]->span;
     if (diag->errors == 0 && r.noutputs == 0)
         diag_error(diag, start,
                    "the model has no output: add 'output NAME' naming the "

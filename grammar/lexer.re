@@ -8,6 +8,8 @@
 #include "parser.h"
 
 #include <errno.h>
+#include <stdarg.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -43,6 +45,19 @@ static Span span_of(const Lexer *lx, const unsigned char *start)
     s.off = (uint32_t)(start - (const unsigned char *)lx->src->text);
     s.len = (uint32_t)(lx->cur - start);
     return s;
+}
+
+/* Report a lexical error; the parser stays quiet about the rest of the
+ * statement, whose tokens are now incomplete. */
+static void lex_error(Lexer *lx, Span at, const char *fmt, ...)
+{
+    char msg[256];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(msg, sizeof msg, fmt, ap);
+    va_end(ap);
+    diag_error(lx->diag, at, "%s", msg);
+    lx->error_in_stmt = 1;
 }
 
 static int keyword(const unsigned char *s, size_t n)
@@ -97,26 +112,27 @@ static Token scan(Lexer *lx)
                 return t;
             }
             t.span = span_of(lx, start);
-            diag_error(lx->diag, t.span,
-                       "NUL byte in the model file: save it as plain text");
+            lex_error(lx, t.span,
+                      "NUL byte in the model file: save it as plain text");
             continue;
         }
         [ \t\f\v]+ { continue; }
         "#" [^\n\x00]* { continue; }
         "\r"? "\n" { t.code = TOK_NEWLINE; t.span = span_of(lx, start); return t; }
         "\r" {
+            /* ends the line as well, so statements are not joined */
             t.span = span_of(lx, start);
-            diag_error(lx->diag, t.span,
-                       "carriage return without a line feed: use \\n or \\r\\n line ends");
-            continue;
+            lex_error(lx, t.span,
+                      "carriage return without a line feed: use \\n or \\r\\n line ends");
+            t.code = TOK_NEWLINE;
+            return t;
         }
         number {
             t.span = span_of(lx, start);
             errno = 0;
             t.num = strtod((const char *)start, NULL);
             if (errno == ERANGE && (t.num > 1.0 || t.num < -1.0)) {
-                diag_error(lx->diag, t.span,
-                           "number too large for a double");
+                lex_error(lx, t.span, "number too large for a double");
                 t.num = 0;
             }
             t.code = TOK_NUMBER;
@@ -124,16 +140,16 @@ static Token scan(Lexer *lx)
         }
         (digits ("." [0-9]*)? | "." digits) [eE] [+-]? {
             t.span = span_of(lx, start);
-            diag_error(lx->diag, t.span,
-                       "number has an exponent without digits (write e.g. 1e-3)");
+            lex_error(lx, t.span,
+                      "number has an exponent without digits (write e.g. 1e-3)");
             t.code = TOK_NUMBER;
             return t;
         }
         name { t.span = span_of(lx, start); t.code = keyword(start, t.span.len); return t; }
         "\"" [^"\n\x00]* "\"" { t.code = TOK_STRING; t.span = span_of(lx, start); return t; }
-        "\"" {
+        "\"" [^"\n\x00]* {
             t.span = span_of(lx, start);
-            diag_error(lx->diag, t.span, "string is not closed on this line");
+            lex_error(lx, t.span, "string is not closed on this line");
             continue;
         }
         "+"  { return op_token(lx, start, TOK_PLUS); }
@@ -159,15 +175,19 @@ static Token scan(Lexer *lx)
         ")"  { return op_token(lx, start, TOK_RPAREN); }
         "["  { return op_token(lx, start, TOK_LBRACKET); }
         "]"  { return op_token(lx, start, TOK_RBRACKET); }
+        [\x80-\xff]+ {
+            t.span = span_of(lx, start);
+            lex_error(lx, t.span,
+                      "non-ASCII text outside a comment: names and operators are ASCII");
+            continue;
+        }
         * {
             t.span = span_of(lx, start);
-            if (*start >= 0x80)
-                diag_error(lx->diag, t.span,
-                           "unexpected byte 0x%02X: names and operators are ASCII (text is allowed only in comments)",
-                           *start);
+            if (*start < 0x20 || *start == 0x7f)
+                lex_error(lx, t.span, "unexpected control byte 0x%02X",
+                          *start);
             else
-                diag_error(lx->diag, t.span, "unexpected character '%c'",
-                           *start);
+                lex_error(lx, t.span, "unexpected character '%c'", *start);
             continue;
         }
         */
@@ -184,6 +204,7 @@ Token lex_next(Lexer *lx)
                 Span open = lx->open.items[lx->open.len - 1];
                 diag_error(lx->diag, open, "'%c' is never closed",
                            lx->src->text[open.off]);
+                lx->error_in_stmt = 1;
                 lx->failed_at_end = 1;
             }
             /* End the last statement before the end of input. */
@@ -196,11 +217,22 @@ Token lex_next(Lexer *lx)
             lx->last = 0;
             return t;
         case TOK_NEWLINE:
+            if (lx->open.len == 0 && continues(lx->last) &&
+                lx->last != TOK_NEWLINE && lx->last != TOK_SEMI) {
+                lx->joined = lx->last_span;
+                lx->has_joined = 1;
+            }
             if (lx->open.len > 0 || continues(lx->last))
                 continue;
             break;
         case TOK_LPAREN:
         case TOK_LBRACKET:
+            if (lx->open.len == PARSE_MAX_DEPTH && !lx->too_deep) {
+                lex_error(lx, t.span,
+                          "brackets nested too deeply (limit is %d): split "
+                          "the expression into named steps", PARSE_MAX_DEPTH);
+                lx->too_deep = 1;
+            }
             VEC_PUSH(lx->arena, lx->open, t.span);
             break;
         case TOK_RPAREN:
@@ -212,6 +244,7 @@ Token lex_next(Lexer *lx)
             break;
         }
         lx->last = t.code;
+        lx->last_span = t.span;
         return t;
     }
 }

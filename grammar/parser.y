@@ -10,7 +10,7 @@
 %token_type {Token}
 %default_type {AstExpr *}
 %extra_argument {ParseState *ps}
-%stack_size 4000
+%stack_size 30000
 
 %include {
 #include "parse_state.h"
@@ -77,11 +77,11 @@ stmt(S) ::= NAME(N) ASSIGN expr(E).
 stmt(S) ::= NAME(N) LBRACKET exprs(L) RBRACKET ASSIGN expr(E).
     { S = parse_define_indexed(ps, N, L, E); }
 stmt(S) ::= SIZE(K) exprs.
-    { S = parse_later(ps, K, "'size' declarations"); }
+    { S = parse_later(ps, K, "'size' declarations are"); }
 stmt(S) ::= DEF(K) NAME LPAREN exprs RPAREN ASSIGN expr.
-    { S = parse_later(ps, K, "'def' functions"); }
+    { S = parse_later(ps, K, "'def' functions are"); }
 stmt(S) ::= USE(K) STRING.
-    { S = parse_later(ps, K, "'use' of other model files"); }
+    { S = parse_later(ps, K, "'use' (reading another model file) is"); }
 
 decls(D) ::= decl(A).                   { D = parse_decls(ps, NULL, A); }
 decls(D) ::= decls(L) COMMA decl(A).    { D = parse_decls(ps, &L, A); }

@@ -1,0 +1,46 @@
+/* eval.h - an interpreter for the IR, behind `dervish check` and the tests.
+ *
+ * It runs the forward statements (the model's value) and the reverse
+ * statements (its gradient) on doubles exactly as the emitted C does, and
+ * the forward statements once more in complex arithmetic for complex-step
+ * derivatives.  No C compiler is involved. */
+#ifndef DERVISH_EVAL_H
+#define DERVISH_EVAL_H
+
+#include "ir.h"
+
+typedef struct Evaluation Evaluation;
+
+/* Storage for every array of IR (which must outlive the evaluation), all
+ * zero.  Exits with status 3 when memory runs out. */
+Evaluation *eval_new(const Ir *ir);
+void eval_free(Evaluation *ev);
+
+/* The values of the param or input called NAME: ir_array_size() doubles,
+ * row-major, to read or set.  NULL when no param or input has that name. */
+double *eval_slot(Evaluation *ev, const char *name);
+
+/* The params as one flat vector: params in declaration order, row-major
+ * within each (the order of the emitted <model>_param struct). */
+long eval_param_count(const Evaluation *ev);
+double *eval_param(Evaluation *ev, long k);    /* entry k, 0 <= k < count */
+
+/* The output for the current params and inputs (the forward statements). */
+double eval_value(Evaluation *ev);
+
+/* The output, and its gradient in flat param order in grad[count]
+ * (forward statements, then the reverse sweep). */
+double eval_gradient(Evaluation *ev, double *grad);
+
+/* A complex-step evaluation: the forward statements in complex arithmetic
+ * with param entry k moved by i*h. */
+typedef struct EvalStep {
+    double value;       /* real part of the output */
+    double slope;       /* imaginary part over h: d output / d param k */
+    int blocked;        /* -1, or an IrOp with no complex form here (erf,
+                           erfc, lgamma, atan2, digamma) that the
+                           perturbation reached: slope is then meaningless */
+} EvalStep;
+EvalStep eval_complex_step(Evaluation *ev, long k, double h);
+
+#endif
