@@ -18,9 +18,9 @@
  *   # expect-caret: ^~~     optional: the marker under the first message's
  *                           source line, without the indentation before it.
  *
- * Other comment lines are free text; "# issue:" lines say how the compiler
- * falls short of the expectation today (those cases fail until it is
- * fixed).  Line numbers count the header lines, as dervish does.
+ * Other comment lines are free text; "# fixed:" lines record how dervish
+ * once fell short of the expectation, so the case guards against a
+ * regression.  Line numbers count the header lines, as dervish does.
  *
  * For every message line the test also checks the form
  * "NAME.dvs:L:C: error|warning|note: ...", followed by the source line L

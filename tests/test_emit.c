@@ -1,0 +1,477 @@
+/* test_emit.c - unit tests of the C emitter (emit_c.c) through dv_compile and
+ * dv_emit, without running a C compiler: the exact lines emitted for small
+ * models, which runtime helpers are copied, unused-argument casts,
+ * byte-identical output, and that quoted model text cannot end or reopen
+ * the C comment it sits in (LANGUAGE.md section 6). */
+#include "testutil.h"
+
+#include "dervish.h"
+
+/* The emitted source and header of one model. */
+typedef struct Emitted {
+    DvCompilation comp;
+    char *c, *h;
+} Emitted;
+
+static Emitted *compile(const char *text)
+{
+    Emitted *e = calloc(1, sizeof *e);
+    DvOptions opt = {NULL, NULL};
+    int rc = dv_compile(&e->comp, "m.dvs", text, strlen(text), &opt);
+    ck_assert_msg(rc == 0, "model has errors:\n%s", text);
+    return e;
+}
+
+/* Emit (again) from the compilation into e->c and e->h. */
+static void emit(Emitted *e)
+{
+    Buf c = {0}, h = {0};
+    dv_emit(&e->comp, "m.h", &c, &h);
+    free(e->c);
+    free(e->h);
+    e->c = c.data;
+    e->h = h.data;
+}
+
+static Emitted *build(const char *text)
+{
+    Emitted *e = compile(text);
+    emit(e);
+    return e;
+}
+
+static void emitted_free(Emitted *e)
+{
+    dv_free(&e->comp);
+    free(e->c);
+    free(e->h);
+    free(e);
+}
+
+static int count(const char *text, const char *what)
+{
+    int n = 0;
+    for (const char *p = strstr(text, what); p; p = strstr(p + 1, what))
+        n++;
+    return n;
+}
+
+/* The text of the function whose definition starts with HEAD, up to and
+ * including its closing "}\n" (malloc'd). */
+static char *function(const char *c, const char *head)
+{
+    const char *start = strstr(c, head);
+    ck_assert_msg(start != NULL, "no %s in:\n%s", head, c);
+    const char *end = strstr(start, "\n}\n");
+    ck_assert_ptr_nonnull(end);
+    return tu_format("%.*s", (int)(end + 3 - start), start);
+}
+
+/* ------------------------------------------------------- exact output */
+
+START_TEST(value_and_gradient_of_a_small_network)
+{
+    Emitted *e = build("model net\n"
+                       "input  s[3]\n"
+                       "param  W[2,3], v[2]\n"
+                       "z[j] = sum(i: W[j,i] * s[i])\n"
+                       "h = tanh(z)\n"
+                       "y = sum(j: v[j] * h[j])\n"
+                       "output y\n");
+    char *value = function(e->c, "double net_value(");
+    ck_assert_str_eq(value,
+        "double net_value(const net_param *dvs_p, const net_input *dvs_in)\n"
+        "{\n"
+        "    /* m.dvs:4: z[j] = sum(i: W[j,i] * s[i]) */\n"
+        "    double z[2];\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        z[j] = 0.0;\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        for (int i = 0; i < 3; i++)\n"
+        "            z[j] += dvs_p->W[j][i] * dvs_in->s[i];\n"
+        "\n"
+        "    /* m.dvs:5: h = tanh(z) */\n"
+        "    double h[2];\n"
+        "    for (int dvs_i0 = 0; dvs_i0 < 2; dvs_i0++)\n"
+        "        h[dvs_i0] = tanh(z[dvs_i0]);\n"
+        "\n"
+        "    /* m.dvs:6: y = sum(j: v[j] * h[j]) */\n"
+        "    double y = 0.0;\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        y += dvs_p->v[j] * h[j];\n"
+        "\n"
+        "    return y;\n"
+        "}\n");
+    free(value);
+    char *grad = function(e->c, "double net_gradient(");
+    /* the forward statements again, then the sweep: adj_y = 1,
+     * v[j] = h[j], adj_h[j] = v[j], adj_z = adj_h (1 - h^2),
+     * W[j,i] = adj_z[j] s[i] */
+    ck_assert_ptr_nonnull(strstr(grad,
+        "    /* The reverse sweep: adjoints, last statement first. */\n"
+        "    /* adjoint of: m.dvs:7: output y */\n"
+        "    double dvs_adj_y = 1.0;\n"
+        "\n"
+        "    /* adjoint of: m.dvs:6: y = sum(j: v[j] * h[j]) */\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        dvs_grad->v[j] = dvs_adj_y * h[j];\n"
+        "    double dvs_adj_h[2];\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        dvs_adj_h[j] = dvs_adj_y * dvs_p->v[j];\n"
+        "\n"
+        "    /* adjoint of: m.dvs:5: h = tanh(z) */\n"
+        "    double dvs_adj_z[2];\n"
+        "    for (int dvs_i0 = 0; dvs_i0 < 2; dvs_i0++)\n"
+        "        dvs_adj_z[dvs_i0] = dvs_adj_h[dvs_i0] * "
+        "(1.0 - h[dvs_i0] * h[dvs_i0]);\n"
+        "\n"
+        "    /* adjoint of: m.dvs:4: z[j] = sum(i: W[j,i] * s[i]) */\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        for (int i = 0; i < 3; i++)\n"
+        "            dvs_grad->W[j][i] = dvs_adj_z[j] * dvs_in->s[i];\n"
+        "\n"
+        "    return y;\n"
+        "}\n"));
+    static const char head[] = "double net_gradient(const net_param *dvs_p, "
+                               "const net_input *dvs_in, "
+                               "net_param *dvs_grad)\n{\n";
+    ck_assert(strncmp(grad, head, sizeof head - 1) == 0);
+    free(grad);
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(header_declares_the_interface)
+{
+    Emitted *e = build("model net\n"
+                       "input  s[3], target\n"
+                       "param  W[2,3], c\n"
+                       "y = sum(j, i: W[j,i] * s[i]) + c - target\n"
+                       "output y\n");
+    static const char *const lines[] = {
+        "#ifndef DVS_NET_H\n",
+        "#define NET_PARAM_COUNT 7   /* doubles in net_param */\n",
+        "typedef struct net_param {\n    double W[2][3];\n    double c;\n"
+        "} net_param;\n",
+        "typedef union net_param_flat {\n    net_param p;\n"
+        "    double v[NET_PARAM_COUNT];\n} net_param_flat;\n",
+        "typedef struct net_input {\n    double s[3];\n    double target;\n"
+        "} net_input;\n",
+        "double net_value(const net_param *p, const net_input *in);\n",
+        "double net_gradient(const net_param *p, const net_input *in, "
+        "net_param *grad);\n",
+        "#ifdef __cplusplus\nextern \"C\" {\n#endif\n",
+    };
+    for (size_t i = 0; i < sizeof lines / sizeof lines[0]; i++)
+        ck_assert_msg(strstr(e->h, lines[i]) != NULL, "no\n%s\nin:\n%s",
+                      lines[i], e->h);
+    /* the source includes the header it was given and checks the layout */
+    ck_assert_ptr_nonnull(strstr(e->c, "#include \"m.h\"\n\n#include "
+                                       "<math.h>\n"));
+    ck_assert_ptr_nonnull(strstr(e->c, "typedef char dvs_param_is_flat["
+                                       "sizeof(net_param) == NET_PARAM_COUNT "
+                                       "* sizeof(double) ? 1 : -1];\n"));
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(model_without_inputs_has_no_input_argument)
+{
+    Emitted *e = build("model bare\nparam a\ny = a * a\noutput y\n");
+    ck_assert_ptr_nonnull(strstr(e->c, "double bare_value(const bare_param "
+                                       "*dvs_p)\n{\n"));
+    ck_assert_ptr_nonnull(strstr(e->c, "double bare_gradient(const bare_param "
+                                       "*dvs_p, bare_param *dvs_grad)\n{\n"));
+    ck_assert_ptr_null(strstr(e->h, "bare_input"));
+    ck_assert_ptr_null(strstr(e->c, "dvs_in"));
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(max_reduction_keeps_its_winner_only_for_the_gradient)
+{
+    Emitted *e = build("model mx\n"
+                       "param x[4], W[2,4]\n"
+                       "m[j] = max(i: W[j,i] * x[i])\n"
+                       "y = sum(j: m[j])\n"
+                       "output y\n");
+    char *value = function(e->c, "double mx_value(");
+    ck_assert_ptr_nonnull(strstr(value,
+        "    double m[2];\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        m[j] = -HUGE_VAL;\n"
+        "    for (int j = 0; j < 2; j++) {\n"
+        "        for (int i = 0; i < 4; i++) {\n"
+        "            double dvs_next = dvs_p->W[j][i] * dvs_p->x[i];\n"
+        "            if (dvs_next > m[j]) {\n"
+        "                m[j] = dvs_next;\n"
+        "            }\n"
+        "        }\n"
+        "    }\n"));
+    ck_assert_ptr_null(strstr(value, "dvs_m_at"));
+    free(value);
+    char *grad = function(e->c, "double mx_gradient(");
+    ck_assert_ptr_nonnull(strstr(grad,
+        "    long dvs_m_at[2];\n"
+        "    for (int j = 0; j < 2; j++)\n"
+        "        dvs_m_at[j] = 0;\n"));
+    ck_assert_ptr_nonnull(strstr(grad,
+        "                m[j] = dvs_next;\n"
+        "                dvs_m_at[j] = i;\n"));
+    ck_assert_ptr_nonnull(strstr(grad,
+        "            dvs_grad->W[j][i] = i == dvs_m_at[j] ? "
+        "dvs_adj_m[j] * dvs_p->x[i] : 0.0;\n"));
+    free(grad);
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(negated_contribution_is_a_subtraction)
+{
+    Emitted *e = build("model neg\nparam x[3], a\n"
+                       "y = a * a - sum(i: x[i] * a)\noutput y\n");
+    /* adj of the sum is -adj_y; a += adj_sum * x[i] over i */
+    ck_assert_ptr_nonnull(strstr(e->c, "    double dvs_adj_y_sum = "
+                                       "-dvs_adj_y;\n"));
+    ck_assert_ptr_nonnull(strstr(e->c,
+        "    for (int i = 0; i < 3; i++)\n"
+        "        dvs_grad->a += dvs_adj_y_sum * dvs_p->x[i];\n"));
+    /* SK_ADD of a negation is written with -= */
+    Emitted *f = build("model neg2\nparam x[3], a\n"
+                       "y = sum(i: -(x[i] * a))\noutput y\n");
+    ck_assert_ptr_nonnull(strstr(f->c, "        y -= dvs_p->x[i] * "
+                                       "dvs_p->a;\n"));
+    emitted_free(f);
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(numbers_read_back_exactly)
+{
+    /* the shortest decimal that reads back as the same double; whole
+     * numbers keep a ".0" so they stay doubles in C */
+    Emitted *e = build("model nums\nparam a\n"
+                       "y = 0.1 * a + 3 * a * a + 1e-300 * a + 6.02e23 "
+                       "+ 0.30000000000000004 * a\n"
+                       "output y\n");
+    char *value = function(e->c, "double nums_value(");
+    ck_assert_ptr_nonnull(strstr(value,
+        "double y = 0.1 * dvs_p->a + 3.0 * dvs_p->a * dvs_p->a + "
+        "1e-300 * dvs_p->a + 6.02e+23 + 0.30000000000000004 * dvs_p->a;\n"));
+    free(value);
+    emitted_free(e);
+}
+END_TEST
+
+/* ------------------------------------------------------------ helpers */
+
+START_TEST(helpers_are_copied_only_when_used)
+{
+    Emitted *e = build("model plain\nparam a\ny = tanh(a) * exp(a)\n"
+                       "output y\n");
+    ck_assert_ptr_null(strstr(e->c, "dvs_sigmoid"));
+    ck_assert_int_eq(count(e->c, "static double dvs_"), 0);
+    emitted_free(e);
+
+    e = build("model sig\nparam a, b\n"
+              "y = sigmoid(a) * b + sigmoid(b)\noutput y\n");
+    ck_assert_int_eq(count(e->c, "static double dvs_sigmoid(double x)\n"), 1);
+    ck_assert_int_eq(count(e->c, "static double dvs_"), 1);
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(helpers_needed_by_the_gradient_are_copied)
+{
+    /* abs' is sign, lgamma' is digamma, logsumexp steps with logaddexp,
+     * softplus' is sigmoid: each appears once, in the runtime's order */
+    Emitted *e = build("model hl\nparam a, x[3]\n"
+                       "y = abs(a) + lgamma(a) + logsumexp(i: x[i]) + "
+                       "softplus(a)\n"
+                       "output y\n");
+    static const char *const defs[] = {
+        "static double dvs_digamma(double x)",
+        "static double dvs_logaddexp(double a, double b)",
+        "static double dvs_sigmoid(double x)",
+        "static double dvs_sign(double x)",
+        "static double dvs_softplus(double x)",
+    };
+    const char *at = e->c;
+    for (size_t i = 0; i < sizeof defs / sizeof defs[0]; i++) {
+        ck_assert_msg(count(e->c, defs[i]) == 1, "%s: %d copies", defs[i],
+                      count(e->c, defs[i]));
+        const char *p = strstr(e->c, defs[i]);
+        ck_assert_msg(p > at, "%s out of order", defs[i]);
+        at = p;
+    }
+    ck_assert_int_eq(count(e->c, "static double dvs_"), 5);
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(unused_arguments_are_cast_to_void)
+{
+    /* the value function does not read inputs: (void)dvs_in; */
+    Emitted *e = build("model tiny\ninput s\nparam a, b\nunused = s * a\n"
+                       "y = a * b\noutput y\n");
+    char *value = function(e->c, "double tiny_value(");
+    ck_assert_ptr_nonnull(strstr(value, ")\n{\n    (void)dvs_in;\n    /* "));
+    ck_assert_ptr_null(strstr(value, "(void)dvs_p;"));
+    free(value);
+    emitted_free(e);
+    /* inputs read: no cast */
+    e = build("model tiny\ninput s\nparam a\ny = a * s\noutput y\n");
+    ck_assert_ptr_null(strstr(e->c, "(void)dvs_in;"));
+    emitted_free(e);
+    /* the output does not depend on the params: the value function does
+     * not read *p, the gradient only writes zeros */
+    e = build("model tiny\ninput s\nparam a\ny = s * 2\noutput y\n");
+    char *v2 = function(e->c, "double tiny_value(");
+    ck_assert_ptr_nonnull(strstr(v2, ")\n{\n    (void)dvs_p;\n    /* "));
+    free(v2);
+    char *g2 = function(e->c, "double tiny_gradient(");
+    ck_assert_ptr_nonnull(strstr(g2, "(void)dvs_p;\n"));
+    ck_assert_ptr_nonnull(strstr(g2, "    dvs_grad->a = 0.0;\n"));
+    free(g2);
+    emitted_free(e);
+}
+END_TEST
+
+/* ------------------------------------------------------- determinism */
+
+START_TEST(output_is_deterministic)
+{
+    static const char model[] = "model det\ninput s[3]\nparam w[3], c\n"
+                                "y = sigmoid(sum(i: w[i] * s[i]) + c)\n"
+                                "output y\n";
+    Emitted *a = build(model);
+    char *c1 = tu_format("%s", a->c), *h1 = tu_format("%s", a->h);
+    emit(a);    /* the same compilation, emitted again */
+    ck_assert_str_eq(a->c, c1);
+    ck_assert_str_eq(a->h, h1);
+    Emitted *b = build(model);  /* a fresh compilation */
+    ck_assert_str_eq(b->c, c1);
+    ck_assert_str_eq(b->h, h1);
+    free(c1);
+    free(h1);
+    emitted_free(a);
+    emitted_free(b);
+}
+END_TEST
+
+/* ------------------------------------------------ comments stay closed */
+
+/* The comment lines of C text that quote the model ("/" "* m.dvs:" or
+ * "adjoint of:"), each checked to hold no comment delimiter or "??"
+ * between its own opening and closing. */
+static int check_quoted_comments(const char *c)
+{
+    int n = 0;
+    for (const char *line = c; line && *line;) {
+        const char *end = strchr(line, '\n');
+        size_t len = end ? (size_t)(end - line) : strlen(line);
+        char *l = tu_format("%.*s", (int)len, line);
+        if (strstr(l, "/* m.dvs:") || strstr(l, "/* adjoint of: m.dvs:")) {
+            const char *open = strstr(l, "/*");
+            const char *body = open + 2;
+            size_t blen = strlen(body);
+            ck_assert_msg(blen >= 3 && strcmp(body + blen - 3, " */") == 0,
+                          "comment not closed at the end: %s", l);
+            char *inner = tu_format("%.*s", (int)(blen - 2), body);
+            ck_assert_msg(!strstr(inner, "*/") && !strstr(inner, "/*") &&
+                          !strstr(inner, "??"), "unsafe comment: %s", l);
+            free(inner);
+            n++;
+        }
+        free(l);
+        line = end ? end + 1 : NULL;
+    }
+    return n;
+}
+
+START_TEST(model_comments_cannot_break_the_emitted_comment)
+{
+    /* a statement over several lines with comments between its parts:
+     * the quote drops the model comments */
+    Emitted *e = build("model cm\nparam a, b\n"
+                       "y = a *   # ends here */ and /* opens ?\?= \\\n"
+                       "    b     # what?\? */\n"
+                       "output y\n");
+    ck_assert_ptr_nonnull(strstr(e->c, "    /* m.dvs:3: y = a * b */\n"));
+    ck_assert_int_eq(check_quoted_comments(e->c), 4);
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(quoted_text_is_defused)
+{
+    /* Point a statement's origin at raw text holding comment delimiters
+     * and trigraph starts: the emitter must still write one closed,
+     * harmless comment.  (Only comments can hold such text in a valid
+     * model, and they are dropped; this checks the quoting itself.) */
+    static const char model[] = "model q\nparam a\ny = a * a\noutput y\n"
+                                "#x */ a /* b ?\?) c ?\?/ d */* e f\n";
+    Emitted *e = compile(model);
+    const char *raw = strstr(e->comp.src.text, "x */");
+    Span at = {(uint32_t)(raw - e->comp.src.text), 0};
+    at.len = (uint32_t)strlen(raw) - 1;
+    e->comp.ir->forward.items[0].origin = at;
+    emit(e);
+    ck_assert_int_ge(check_quoted_comments(e->c), 1);
+    ck_assert_ptr_nonnull(strstr(e->c, "    /* m.dvs:5: x * / a / * b ? ?) c "
+                                       "? ?/ d * / * e f */\n"));
+    emitted_free(e);
+}
+END_TEST
+
+START_TEST(long_statements_are_cut_in_the_quote)
+{
+    /* "y = a + a + ... + a" with 101 terms: the quote stops after 160
+     * visible characters (blanks between them are not counted) and says
+     * so: y, =, a and 78 times "+ a" make 159, then one more "+" */
+    char *sum = tu_format("%s", "y = a");
+    char *cut = NULL;
+    for (int i = 0; i < 100; i++) {
+        if (i == 78)
+            cut = tu_format("%s +", sum);
+        char *more = tu_format("%s + a", sum);
+        free(sum);
+        sum = more;
+    }
+    char *model = tu_format("model lengthy\nparam a\n%s\noutput y\n", sum);
+    Emitted *e = build(model);
+    char *want = tu_format("    /* m.dvs:3: %s ... */\n", cut);
+    ck_assert_msg(strstr(e->c, want) != NULL, "no\n%s\nin:\n%s", want, e->c);
+    free(want);
+    free(model);
+    free(cut);
+    free(sum);
+    emitted_free(e);
+}
+END_TEST
+
+static Suite *emit_suite(void)
+{
+    Suite *s = suite_create("emit");
+    TCase *tc = tcase_create("emit");
+    tcase_add_test(tc, value_and_gradient_of_a_small_network);
+    tcase_add_test(tc, header_declares_the_interface);
+    tcase_add_test(tc, model_without_inputs_has_no_input_argument);
+    tcase_add_test(tc, max_reduction_keeps_its_winner_only_for_the_gradient);
+    tcase_add_test(tc, negated_contribution_is_a_subtraction);
+    tcase_add_test(tc, numbers_read_back_exactly);
+    tcase_add_test(tc, helpers_are_copied_only_when_used);
+    tcase_add_test(tc, helpers_needed_by_the_gradient_are_copied);
+    tcase_add_test(tc, unused_arguments_are_cast_to_void);
+    tcase_add_test(tc, output_is_deterministic);
+    tcase_add_test(tc, model_comments_cannot_break_the_emitted_comment);
+    tcase_add_test(tc, quoted_text_is_defused);
+    tcase_add_test(tc, long_statements_are_cut_in_the_quote);
+    suite_add_tcase(s, tc);
+    return s;
+}
+
+int main(void)
+{
+    return tu_main(emit_suite());
+}
