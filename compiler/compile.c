@@ -51,12 +51,13 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     return 0;
 }
 
-void dv_emit(const DvCompilation *c, const char *header_name, Buf *c_out,
-             Buf *h_out)
+void dv_emit(const DvCompilation *c, const char *source_name,
+             const char *header_name, Buf *c_out, Buf *h_out)
 {
     EmitOptions o;
     o.model_file = dv_basename(c->src.path);
     o.header_name = header_name;
+    o.source_name = source_name;
     o.version = DERVISH_VERSION;
     emit_c(c->ir, &o, c_out, h_out);
 }

@@ -28,9 +28,10 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
                size_t len, const DvOptions *opt);
 
 /* Emit C for a compiled model: source into *c_out, header into *h_out
- * (both appended to).  header_name is what the source #includes. */
-void dv_emit(const DvCompilation *c, const char *header_name, Buf *c_out,
-             Buf *h_out);
+ * (both appended to).  source_name and header_name are the files' names
+ * as the banners show them; the source #includes header_name. */
+void dv_emit(const DvCompilation *c, const char *source_name,
+             const char *header_name, Buf *c_out, Buf *h_out);
 
 void dv_free(DvCompilation *c);
 

@@ -9,6 +9,7 @@
 typedef struct EmitOptions {
     const char *model_file;     /* shown in comments (a base name) */
     const char *header_name;    /* what the source #includes */
+    const char *source_name;    /* the C file's own name, for its banner */
     const char *version;        /* dervish's version, for the banner */
 } EmitOptions;
 

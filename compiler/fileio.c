@@ -117,6 +117,16 @@ int fileio_commit(PendingFile *f)
     return 0;
 }
 
+int fileio_check_target(const char *path)
+{
+    struct stat st;
+    if (stat(path, &st) == 0 && S_ISDIR(st.st_mode)) {
+        fprintf(stderr, "dervish: cannot write %s: it is a directory\n", path);
+        return -1;
+    }
+    return 0;
+}
+
 void fileio_abandon(PendingFile *f)
 {
     if (f->temp) {

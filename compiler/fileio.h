@@ -22,6 +22,11 @@ typedef struct PendingFile {
 int fileio_prepare(PendingFile *f, const char *path, const char *data,
                    size_t len);
 int fileio_commit(PendingFile *f);      /* 0, or -1 after printing why */
+
+/* 0 when a file may be renamed onto path (it is absent or not a
+ * directory), else -1 after printing why; checked for every output before
+ * any is replaced, so a failure replaces none. */
+int fileio_check_target(const char *path);
 void fileio_abandon(PendingFile *f);
 
 /* True when a and b name the same existing file. */

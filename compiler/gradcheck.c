@@ -12,10 +12,12 @@
  * The --at FILE format: `name = numbers`, one param or input per entry,
  * its elements row-major; numbers are C decimal floats separated by
  * whitespace or commas and may continue over following lines (each number
- * belongs to the last `name =` before it); `#` starts a comment.  Names
- * the file does not give keep their random values.  Errors (an unknown
- * name, a name given twice, a wrong count, a bad number) are reported as
- * FILE:line:col: error: ..., and the check does not run.
+ * belongs to the last `name =` before it; the `name =` itself stays on one
+ * line); `#` starts a comment.  Names the file does not give keep their
+ * random values (all are drawn, so they do not depend on which names the
+ * file gives).  Errors (an unknown name, a name given twice, a wrong count,
+ * a bad number) are reported as FILE:line:col: error: ... and the check
+ * does not run.
  *
  * Numerical derivatives, for every param entry x:
  *  - central differences D(h) = (f(x+h) - f(x-h)) / 2h at h = 1e-3 max(1,|x|)
@@ -25,13 +27,17 @@
  *  - the complex-step derivative Im f(x + i 1e-200) / 1e-200 (Squire and
  *    Trapp 1998, SIAM Review 40(1)), exact to rounding, unless the step
  *    reaches an op with no complex form here (erf, erfc, lgamma, atan2).
- * The reference is the complex step when Richardson agrees with it (within
- * the tolerance plus its estimate), else Richardson.  They disagree at a
- * kink or jump within h of the point: there the reverse mode (following the
- * language's convention) is reported as a mismatch if Richardson sees a
- * different slope.  Error measure: |reverse - numerical| / max(1, |numerical|),
- * relative for large derivatives and absolute for small ones, so zero
- * derivatives are judged sensibly. */
+ *
+ * Agreement.  The error of an entry is |reverse - numerical| / max(1,
+ * |numerical|): relative for large derivatives and absolute for small ones,
+ * so zero derivatives are judged sensibly.  An entry agrees when that is
+ * within the tolerance (plus Richardson's own estimate when Richardson is
+ * the reference).  The reference is the complex step when Richardson agrees
+ * with it in the same sense, else Richardson.  The two disagree at a kink
+ * or jump within h of the point; there the reverse mode follows the
+ * language's convention (floor' = 0, relu'(0) = 0), and an entry whose
+ * slope central differences see differently is a mismatch, flagged with a
+ * star.  Exit status 0 when every entry agrees, else 1. */
 #include "gradcheck.h"
 #include "eval.h"
 #include "fileio.h"
@@ -178,7 +184,7 @@ static void take_number(AtReader *r, Span at)
     const char *word = arena_strndup(r->ir->arena, r->text + at.off, at.len);
     char *end;
     double v = strtod(word, &end);
-    if (end == word || *end != '\0') {
+    if (end == word || *end != '\0' || strlen(word) != at.len) {
         if (isalpha((unsigned char)word[0]) || word[0] == '_') {
             /* a name without '=': its numbers must not go to the last one */
             finish_entry(r);
@@ -214,33 +220,32 @@ static void take_number(AtReader *r, Span at)
     eval_slot(r->ev, a->name)[r->count++] = v;
 }
 
-static int is_separator(char c)
+/* Blanks separate numbers; a word also ends at '#' or '='. */
+static int is_blank(char c)
 {
     return c == ' ' || c == '\t' || c == '\r' || c == '\n' || c == ',' ||
-           c == '#' || c == '=' || c == '\f' || c == '\v';
+           c == '\f' || c == '\v';
 }
 
-/* The next word or '=' from pos, skipping separators and comments; a span
- * of length 0 at the end. */
+/* The next word or '=' from pos, skipping blanks and comments; a span of
+ * length 0 at the end. */
 static Span next_token(AtReader *r)
 {
     const char *t = r->text;
     for (;;) {
-        while (r->pos < r->len && is_separator(t[r->pos]) &&
-               t[r->pos] != '#' && t[r->pos] != '=')
+        while (r->pos < r->len && is_blank(t[r->pos]))
             r->pos++;
-        if (r->pos < r->len && t[r->pos] == '#') {
-            while (r->pos < r->len && t[r->pos] != '\n')
-                r->pos++;
-            continue;
-        }
-        break;
+        if (r->pos >= r->len || t[r->pos] != '#')
+            break;
+        while (r->pos < r->len && t[r->pos] != '\n')
+            r->pos++;
     }
     Span s = {(uint32_t)r->pos, 0};
     if (r->pos < r->len && t[r->pos] == '=') {
         s.len = 1;
     } else {
-        while (r->pos + s.len < r->len && !is_separator(t[r->pos + s.len]))
+        while (r->pos + s.len < r->len && !is_blank(t[r->pos + s.len]) &&
+               t[r->pos + s.len] != '#' && t[r->pos + s.len] != '=')
             s.len++;
     }
     r->pos += s.len;
@@ -399,15 +404,15 @@ static char *entry_name(const Ir *ir, long k)
             k -= n;
             continue;
         }
-        char sub[IR_MAX_RANK * 24] = "";
+        long at[IR_MAX_RANK];
         for (int d = a->rank - 1; d >= 0; d--) {
-            char one[24], rest[sizeof sub];
-            snprintf(one, sizeof one, "[%ld]", k % a->dim[d]);
+            at[d] = k % a->dim[d];
             k /= a->dim[d];
-            snprintf(rest, sizeof rest, "%s%s", one, sub);
-            memcpy(sub, rest, sizeof sub);
         }
-        return arena_printf(ir->arena, "%s%s", a->name, sub);
+        char *s = arena_printf(ir->arena, "%s", a->name);
+        for (int d = 0; d < a->rank; d++)
+            s = arena_printf(ir->arena, "%s[%ld]", s, at[d]);
+        return s;
     }
     DV_UNREACHABLE();
     return NULL;
@@ -524,16 +529,17 @@ static void print_notes(FILE *out, const Entry *es, long n,
     if (unchecked)
         fputs("unchecked: no finite numerical derivative here: f(x +- h) is "
               "not finite\n  and the complex step is not available\n", out);
-    int any = 0;
+    int count = 0;
     for (int op = 0; op < IR_OP_COUNT; op++)
         if (blocked_ops[op]) {
-            fprintf(out, "%s%s", any ? ", " : "note: no complex step through ",
-                    ir_ops[op].model_name ? ir_ops[op].model_name : "digamma");
-            any = 1;
+            fprintf(out, "%s%s", count ? ", " : "note: no complex step "
+                    "through ", ir_ops[op].model_name ? ir_ops[op].model_name
+                                                      : "digamma");
+            count++;
         }
-    if (any)
-        fputs(": entries that reach it are\n  checked by Richardson "
-              "extrapolation alone\n", out);
+    if (count)
+        fprintf(out, ": the entries that reach %s\n  are checked by "
+                "Richardson extrapolation alone\n", count > 1 ? "them" : "it");
 }
 
 int check_run(const DvCompilation *c, const CheckOptions *opt)

@@ -2,9 +2,10 @@
  *
  * Exit status: 0 success, 1 the model has errors (or check found a
  * mismatch), 2 bad command line, 3 an I/O failure. */
-#include "gradcheck.h"
 #include "dervish.h"
 #include "fileio.h"
+#include "gradcheck.h"
+#include "names.h"
 
 #include <stdio.h>
 #include <stdlib.h>
@@ -82,11 +83,20 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
     }
     if (!a->model)
         return usage_error("%s", "no model file given");
+    if (a->name && !names_is_identifier(a->name))
+        return usage_error("--name '%s' is not a C identifier", a->name);
+    if (a->name && names_reserved(a->name, NULL)) {
+        fprintf(stderr, "dervish: --name '%s' %s\n", a->name,
+                names_reserved(a->name, NULL));
+        return EXIT_USAGE;
+    }
     return 0;
 }
 
-/* Read and compile the model; returns 0 or an exit status. */
-static int compile_file(const Args *a, DvCompilation *c)
+/* Read and compile the model; returns 0 or an exit status.  what_failed
+ * ends the summary line printed when the model has errors. */
+static int compile_file(const Args *a, DvCompilation *c,
+                        const char *what_failed)
 {
     size_t len;
     char *text = fileio_read(a->model, &len);
@@ -96,8 +106,12 @@ static int compile_file(const Args *a, DvCompilation *c)
     int failed = dv_compile(c, a->model, text, len, &o);
     free(text);
     if (failed) {
-        fprintf(stderr, "%s: %d error%s; nothing written\n", a->model,
-                c->diag.errors, c->diag.errors == 1 ? "" : "s");
+        if (c->diag.errors > c->diag.max_errors)
+            fprintf(stderr, "%s: more than %d errors%s\n", a->model,
+                    c->diag.max_errors, what_failed);
+        else
+            fprintf(stderr, "%s: %d error%s%s\n", a->model, c->diag.errors,
+                    c->diag.errors == 1 ? "" : "s", what_failed);
         return EXIT_MODEL;
     }
     return 0;
@@ -135,14 +149,16 @@ static int build(const Args *a)
     DvCompilation c;
     memset(&c, 0, sizeof c);
     if (!status)
-        status = compile_file(a, &c);
+        status = compile_file(a, &c, "; nothing written");
     if (!status) {
         Buf src = {0}, hdr = {0};
-        dv_emit(&c, dv_basename(hp), &src, &hdr);
+        dv_emit(&c, dv_basename(cp), dv_basename(hp), &src, &hdr);
         PendingFile pc = {0}, ph = {0};
         if (fileio_prepare(&pc, cp, src.data, src.len) != 0)
             status = EXIT_IO;
         else if (fileio_prepare(&ph, hp, hdr.data, hdr.len) != 0)
+            status = EXIT_IO;
+        else if (fileio_check_target(cp) != 0 || fileio_check_target(hp) != 0)
             status = EXIT_IO;
         /* both files are complete before either replaces its target */
         if (!status && (fileio_commit(&ph) != 0 || fileio_commit(&pc) != 0))
@@ -164,7 +180,7 @@ static int check(const Args *a)
     if (a->seed) {
         char *end;
         o.seed = strtoul(a->seed, &end, 10);
-        if (*end || !*a->seed)
+        if (*end || !*a->seed || a->seed[0] == '-' || a->seed[0] == '+')
             return usage_error("--seed takes a whole number, not '%s'",
                                a->seed);
     }
@@ -177,7 +193,7 @@ static int check(const Args *a)
     }
     DvCompilation c;
     memset(&c, 0, sizeof c);
-    int status = compile_file(a, &c);
+    int status = compile_file(a, &c, "");
     if (!status)
         status = check_run(&c, &o);
     dv_free(&c);

@@ -91,8 +91,8 @@ const char *names_reserved(const char *name, const char *model)
                "capital letter belong to the C implementation)";
     if (strncmp(name, DV_PREFIX, strlen(DV_PREFIX)) == 0 ||
         strncmp(name, "DVS_", 4) == 0)
-        return "starts with '" DV_PREFIX "', the prefix dervish reserves for "
-               "the names it invents in emitted code";
+        return "starts with '" DV_PREFIX "' or 'DVS_', prefixes dervish "
+               "reserves for the names it invents in emitted code";
     if (ir_builtin(name) >= 0 || listed(reductions, name))
         return "is the name of a builtin function";
     if (listed(c_library, name))

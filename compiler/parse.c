@@ -149,6 +149,13 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
     }
     const char *found = describe(ps, code, tok);
     int prev = ps->prev.code;
+    if ((code == TOK_SIZE || code == TOK_DEF || code == TOK_USE) &&
+        prev != TOK_NEWLINE && prev != TOK_SEMI) {
+        diag_error(ps->diag, tok.span,
+                   "%s is a word reserved for a later version of dervish "
+                   "and cannot be used as a name", found);
+        return;
+    }
     Span joined = ps->lexer.joined;
     if (ps->lexer.has_joined && code != 0 && code != TOK_NEWLINE &&
         joined.off >= ps->first.span.off &&

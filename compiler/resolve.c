@@ -279,6 +279,24 @@ static int dimension(Resolver *r, const AstExpr *e, const char *array)
     return (int)v;
 }
 
+/* Whether an array of these dims is small enough to declare; reports the
+ * error when it is not. */
+static int fits(Resolver *r, int rank, const int *dim, Span at,
+                const char *what)
+{
+    long count = 1;
+    for (int k = 0; k < rank; k++) {
+        count *= dim[k];
+        if (count > MAX_ELEMENTS) {
+            diag_error(r->diag, at,
+                       "'%s' would have more than %ld elements, too many "
+                       "for one array", what, MAX_ELEMENTS);
+            return 0;
+        }
+    }
+    return 1;
+}
+
 static void resolve_decls(Resolver *r, const AstStmt *s)
 {
     IrRole role = s->kind == STMT_PARAM ? ROLE_PARAM : ROLE_INPUT;
@@ -292,20 +310,13 @@ static void resolve_decls(Resolver *r, const AstStmt *s)
                        d->name, d->ndims, LANG_MAX_RANK);
             ok = 0;
         }
-        long count = 1;
         for (int k = 0; k < d->ndims && k < LANG_MAX_RANK; k++) {
             dim[k] = dimension(r, d->dims[k], d->name);
             if (dim[k] < 0)
                 ok = 0;
-            else if (count <= MAX_ELEMENTS)
-                count *= dim[k];
         }
-        if (ok && count > MAX_ELEMENTS) {
-            diag_error(r->diag, d->span,
-                       "'%s' has more than %ld elements, too many for one "
-                       "array", d->name, MAX_ELEMENTS);
+        if (ok && !fits(r, d->ndims, dim, d->span, d->name))
             ok = 0;
-        }
         if (!lookup(r, d->name)) {
             Symbol *sym = insert(r, d->name, d->span);
             sym->kind = SYM_ARRAY;
@@ -662,10 +673,14 @@ static int32_t scope_tuple(Resolver *r)
 
 static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond);
 
+/* Both report a value where a condition belongs or the other way round,
+ * unless lowering the operand already reported an error (a cascade). */
 static NodeId lower_value(Resolver *r, const AstExpr *e)
 {
-    int cond = 0;
+    int cond = 0, errors = r->diag->errors;
     NodeId n = lower(r, e, &cond);
+    if (cond && r->diag->errors > errors)
+        return ir_const(r->ir, 0);
     if (cond) {
         diag_error(r->diag, e->span,
                    "a comparison is a condition, not a number: use it as "
@@ -678,8 +693,10 @@ static NodeId lower_value(Resolver *r, const AstExpr *e)
 
 static NodeId lower_cond(Resolver *r, const AstExpr *e)
 {
-    int cond = 0;
+    int cond = 0, errors = r->diag->errors;
     NodeId n = lower(r, e, &cond);
+    if (!cond && r->diag->errors > errors)
+        return ir_node(r->ir, IR_NE, n, ir_const(r->ir, 0), NO_NODE);
     if (!cond) {
         diag_error(r->diag, e->span,
                    "expected a condition such as 'x > 0' here, found a "
@@ -803,6 +820,8 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
         int dim[IR_MAX_RANK];
         for (int k = 0; k < nouter; k++)
             dim[k] = r->ir->vars.items[outer[k]].extent;
+        if (!fits(r, nouter, dim, e->span, "this reduction's result"))
+            fail(r);
         acc = ir_add_array(r->ir, temp_name(r, what[kind]), ROLE_TEMP,
                            nouter, dim, e->span);
     }
@@ -982,6 +1001,10 @@ static void resolve_define(Resolver *r, const AstStmt *s)
             VEC_PUSH(r->arena, r->binders, b);
             VEC_PUSH(r->arena, r->scope, r->binders.len - 1);
         }
+    }
+    if (!fits(r, rank, dim, s->name_span, s->name)) {
+        sym->failed = 1;
+        return;
     }
     int32_t target = ir_add_array(r->ir, s->name, ROLE_VALUE, rank, dim,
                                   s->name_span);

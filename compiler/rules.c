@@ -143,8 +143,8 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
         return divide(ir, one, rules_mul(ir, num(ir, 3), square(ir, value)));
     case IR_EXP:
         return value;
-    case IR_EXPM1:
-        return rules_add(ir, value, one);
+    case IR_EXPM1:          /* exp(x), not value + 1: that cancels for x << 0 */
+        return op1(ir, IR_EXP, x);
     case IR_LOG:
         return divide(ir, one, x);
     case IR_LOG1P:

@@ -57,8 +57,10 @@ static void expect_near(Tally *t, const char *what, double got, double want,
 
 static void tally_finish(const Tally *t)
 {
-    if (getenv("DVS_E2E_REPORT"))
+    if (getenv("DVS_E2E_REPORT")) {
         printf("%s: %d comparisons, %d failed\n", t->model, t->checks, t->bad);
+        fflush(stdout);     /* a failed assertion ends the forked test */
+    }
     ck_assert_msg(t->bad == 0, "%s: %d of %d comparisons failed (listed above)",
                   t->model, t->bad, t->checks);
 }

@@ -1,8 +1,7 @@
-/* test_emit.c - unit tests of the C emitter (emit_c.c) through dv_compile and
- * dv_emit, without running a C compiler: the exact lines emitted for small
- * models, which runtime helpers are copied, unused-argument casts,
- * byte-identical output, and that quoted model text cannot end or reopen
- * the C comment it sits in (LANGUAGE.md section 6). */
+/* test_emit.c - unit tests of the C emitter (emit_c.c) via dv_compile and
+ * dv_emit, with no C compiler run: exact emitted lines, which runtime helpers
+ * are copied, unused-argument casts, byte-identical output, and quoted model
+ * text that cannot break its C comment (LANGUAGE.md section 6). */
 #include "testutil.h"
 
 #include "dervish.h"
@@ -26,7 +25,7 @@ static Emitted *compile(const char *text)
 static void emit(Emitted *e)
 {
     Buf c = {0}, h = {0};
-    dv_emit(&e->comp, "m.h", &c, &h);
+    dv_emit(&e->comp, "m.c", "m.h", &c, &h);
     free(e->c);
     free(e->h);
     e->c = c.data;

@@ -1,9 +1,7 @@
-/* test_rules.c - unit tests of the derivative rules (rules.c) on IR built by
- * hand: each op's local partials (rules_partial), symbolic derivatives of
- * composite expressions (rules_derivative), structural zeros, and the
- * simplifying constructors rules_add and rules_mul.  Expressions are
- * compared as ir_print text; expected forms are the calculus identities
- * named beside them. */
+/* test_rules.c - unit tests of the derivative rules (rules.c) on hand-built
+ * IR: every op's local partials, derivatives of composite expressions,
+ * structural zeros, and the simplifying rules_add and rules_mul.  Results
+ * are compared as ir_print text against the calculus identities named. */
 #include "testutil.h"
 
 #include "rules.h"
@@ -121,9 +119,10 @@ static const PartialCase partial_cases[] = {
     /* sqrt' = 1/(2 sqrt x); cbrt' = 1/(3 cbrt(x)^2) */
     {IR_SQRT, {"(0.5 / v)"}},
     {IR_CBRT, {"(1 / (3 * (v * v)))"}},
-    /* exp' = exp, the stored value; expm1' = exp = expm1 + 1 */
+    /* exp' = exp, the stored value; expm1' = exp(x) (not expm1 + 1, which
+     * cancels for x << 0) */
     {IR_EXP, {"v"}},
-    {IR_EXPM1, {"(v + 1)"}},
+    {IR_EXPM1, {"exp(x)"}},
     /* log' = 1/x; log2' = 1/(x ln 2); log10' = 1/(x ln 10).  ln 2 =
      * 0.693147180559945309417... and ln 10 = 2.302585092994045684017...
      * (recalled from memory; they agree with mpmath's log(2) and log(10)),
