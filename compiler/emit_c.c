@@ -179,8 +179,13 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     case OPK_INFIX:
     case OPK_COMPARE:
         if (n->nargs == 1) {
+            /* -(-x), never --x, which C reads as a decrement */
+            const IrNode *a = ir_at(ir, n->arg[0]);
+            int sign_first = a->op == IR_NEG ||
+                             (a->op == IR_CONST && signbit(a->num));
             buf_put(e->out, info->c_spelling);
-            emit_expr(e, n->arg[0], PREC_UNARY, n->op);
+            emit_expr(e, n->arg[0], sign_first ? PREC_ATOM + 1 : PREC_UNARY,
+                      n->op);
             break;
         }
         emit_expr(e, n->arg[0], p, n->op);

@@ -173,8 +173,8 @@ int32_t ir_tuple(Ir *ir, const int32_t *vars, int n)
     while (ir->tuple_hash[slot] >= 0) {
         int32_t id = ir->tuple_hash[slot];
         if (ir->tuple_data.items[id] == n &&
-            memcmp(&ir->tuple_data.items[id + 1], vars,
-                   (size_t)n * sizeof *vars) == 0)
+            (n == 0 || memcmp(&ir->tuple_data.items[id + 1], vars,
+                              (size_t)n * sizeof *vars) == 0))
             return id;
         slot = (slot + 1) & (cap - 1);
     }

@@ -454,6 +454,14 @@ AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
             VEC_PUSH(arena, ps.stmt_names, t.span);
         ps.open_selects += (t.code == TOK_QUESTION) - (t.code == TOK_COLON);
         DvParser(parser, t.code, t, &ps);
+        if (t.code == TOK_NEWLINE || t.code == TOK_SEMI) {
+            /* Statements are independent: parse each as a whole program,
+             * so recovery from an error never reaches into the next one
+             * and its errors are reported in full. */
+            DvParser(parser, 0, t, &ps);
+            DvParserFinalize(parser);
+            DvParserInit(parser);
+        }
         if (t.code == 0 || ps.too_deep || diag->errors >= diag->max_errors)
             break;
         ps.prev = t;

@@ -37,6 +37,14 @@ static NodeId select(Ir *ir, NodeId cond, NodeId a, NodeId b)
                    b == NO_NODE ? num(ir, 0) : b);
 }
 
+/* cond ? d : 0 or cond ? 0 : d */
+static int is_selector(const Ir *ir, NodeId n)
+{
+    const IrNode *x = ir_at(ir, n);
+    return x->op == IR_SELECT &&
+           (is_const(ir, x->arg[1], 0) || is_const(ir, x->arg[2], 0));
+}
+
 NodeId rules_add(Ir *ir, NodeId a, NodeId b)
 {
     if (a == NO_NODE)
@@ -55,6 +63,9 @@ NodeId rules_mul(Ir *ir, NodeId a, NodeId b)
 {
     if (a == NO_NODE || b == NO_NODE)
         return NO_NODE;
+    const IrNode *ca = ir_at(ir, a), *cb = ir_at(ir, b);
+    if (ca->op == IR_CONST && cb->op == IR_CONST)
+        return num(ir, ca->num * cb->num);
     if (is_const(ir, a, 1))
         return b;
     if (is_const(ir, b, 1))
@@ -69,16 +80,16 @@ NodeId rules_mul(Ir *ir, NodeId a, NodeId b)
     if (x->op == IR_CONST && y->op == IR_CONST)
         return num(ir, x->num * y->num);
     /* A selector rule (derivative 0 on one branch) keeps its zero out of
-     * the product, so the derivative flows only into the branch taken. */
-    if (y->op == IR_SELECT &&
-        (is_const(ir, y->arg[1], 0) || is_const(ir, y->arg[2], 0))) {
+     * the product, so the derivative flows only into the branch taken.
+     * Each step removes one selector, so this ends. */
+    if (is_selector(ir, b)) {
         NodeId t = is_const(ir, y->arg[1], 0) ? NO_NODE
                                               : rules_mul(ir, a, y->arg[1]);
         NodeId f = is_const(ir, y->arg[2], 0) ? NO_NODE
                                               : rules_mul(ir, a, y->arg[2]);
         return select(ir, y->arg[0], t, f);
     }
-    if (x->op == IR_SELECT)
+    if (is_selector(ir, a))
         return rules_mul(ir, b, a);
     /* Constants first reads naturally: 2 * x, not x * 2. */
     if (y->op == IR_CONST)

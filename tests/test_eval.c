@@ -451,10 +451,12 @@ static const char *const c_models[] = {
     "pred = sum(j: v[j] * h[j]) + c\nloss = 0.5 * (pred - target)^2\n"
     "output loss\n",
 
-    "model m\ninput x[3]\nparam A[2,3], u[3]\n"
+    "model m\ninput x[3]\nparam A[2,3], u[3], Y[2,3,2]\n"
     "top = max(i, j: A[i,j] * x[j])\nlow[i] = min(j: A[i,j] - u[j])\n"
     "soft = logsumexp(j: u[j] * x[j])\n"
-    "y = top + sum(i: low[i] * low[i]) + soft\noutput y\n",
+    "deep = min(k, i, j: Y[k,i,j] * x[i]) + max(k, i, j: Y[k,i,j] * x[i]) +\n"
+    "       sum(k: max(i, j: Y[k,i,j]))\n"
+    "y = top + sum(i: low[i] * low[i]) + soft + deep\noutput y\n",
 
     "model m\nparam a, b, p[3]\n"
     "q = clamp(a, -0.2, 0.4) * relu(b) + softplus(a * b) + sigmoid(b)\n"
