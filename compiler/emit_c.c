@@ -60,6 +60,7 @@ static void put_model_text(Buf *b, const Source *src, Span span)
     const char *t = src->text + span.off;
     size_t n = span.len, shown = 0;
     int space = 0;
+    char last = ' ';
     for (size_t i = 0; i < n && shown < 160; i++) {
         char c = t[i];
         if (c == '#') {
@@ -71,19 +72,16 @@ static void put_model_text(Buf *b, const Source *src, Span span)
             space = 1;
             continue;
         }
-        if (space && shown)
+        if (c == '\\' || (unsigned char)c >= 0x7f)
+            c = '?';
+        /* decide on what is written, so no pair can form "*" "/", "/" "*"
+         * or "??" (a trigraph start) */
+        if ((space && shown) || (last == '*' && c == '/') ||
+            (last == '/' && c == '*') || (last == '?' && c == '?'))
             buf_put(b, " ");
         space = 0;
-        if ((c == '*' && i + 1 < n && t[i + 1] == '/') ||
-            (c == '/' && i + 1 < n && t[i + 1] == '*') ||
-            (c == '?' && i + 1 < n && t[i + 1] == '?')) {
-            buf_putn(b, &c, 1);
-            buf_put(b, " ");
-        } else if (c == '\\' || (unsigned char)c >= 0x7f) {
-            buf_put(b, "?");
-        } else {
-            buf_putn(b, &c, 1);
-        }
+        buf_putn(b, &c, 1);
+        last = c;
         shown++;
     }
     if (shown >= 160)

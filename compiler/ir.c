@@ -227,6 +227,22 @@ void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s)
     VEC_PUSH(ir->arena, *list, s);
 }
 
+IrStmt ir_stmt(Ir *ir, IrStmtKind kind, int32_t target, int32_t tuple,
+               int32_t domain, NodeId expr, Span origin)
+{
+    IrStmt s;
+    memset(&s, 0, sizeof s);
+    s.kind = kind;
+    s.target = target;
+    s.tuple = tuple;
+    s.domain = domain;
+    s.reduced = ir_tuple(ir, NULL, 0);
+    s.argpos = -1;
+    s.expr = expr;
+    s.origin = origin;
+    return s;
+}
+
 long ir_array_size(const IrArray *a)
 {
     long n = 1;

@@ -151,6 +151,11 @@ int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
 int32_t ir_add_var(Ir *ir, const char *name, int extent);
 void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s);
 
+/* A statement target[tuple] KIND expr over domain, with no reduced vars,
+ * no argpos array and no note. */
+IrStmt ir_stmt(Ir *ir, IrStmtKind kind, int32_t target, int32_t tuple,
+               int32_t domain, NodeId expr, Span origin);
+
 static inline const IrNode *ir_at(const Ir *ir, NodeId id)
 {
     return &ir->nodes.items[id];

@@ -395,6 +395,28 @@ static int bind(Resolver *r, const char *name, Span span)
 
 static void infer(Resolver *r, const AstExpr *e);
 
+/* The symbol a name in an expression refers to, or NULL after reporting
+ * why there is none (or quietly, when its definition already failed). */
+static Symbol *resolve_use(Resolver *r, const char *name, Span at)
+{
+    Symbol *s = lookup(r, name);
+    if (s && !s->failed)
+        return s;
+    if (!s && !failed_earlier(r, name)) {
+        if (strcmp(name, r->target_name) == 0)
+            diag_error(r->diag, at, "'%s' is used in its own definition",
+                       name);
+        else if (ir_builtin(name) >= 0)
+            diag_error(r->diag, at, "'%s' is a function: call it, as in %s(x)",
+                       name, name);
+        else
+            diag_error(r->diag, at,
+                       "unknown name '%s': define it before this line", name);
+    }
+    fail(r);
+    return NULL;
+}
+
 static void infer_name(Resolver *r, const AstExpr *e)
 {
     if (find_binder(r, e->name) >= 0) {
@@ -404,30 +426,9 @@ static void infer_name(Resolver *r, const AstExpr *e)
         fail(r);
         return;
     }
-    Symbol *s = lookup(r, e->name);
-    if (!s && failed_earlier(r, e->name)) {
-        fail(r);
+    Symbol *s = resolve_use(r, e->name, e->span);
+    if (!s)
         return;
-    }
-    if (!s) {
-        if (strcmp(e->name, r->target_name) == 0)
-            diag_error(r->diag, e->span,
-                       "'%s' is used in its own definition", e->name);
-        else if (ir_builtin(e->name) >= 0)
-            diag_error(r->diag, e->span,
-                       "'%s' is a function: call it, as in %s(x)", e->name,
-                       e->name);
-        else
-            diag_error(r->diag, e->span,
-                       "unknown name '%s': define it before this line",
-                       e->name);
-        fail(r);
-        return;
-    }
-    if (s->failed) {
-        fail(r);
-        return;
-    }
     if (s->kind != SYM_ARRAY)
         return;
     const IrArray *a = &r->ir->arrays.items[s->array];
@@ -459,24 +460,9 @@ static void infer_name(Resolver *r, const AstExpr *e)
 
 static void infer_subscript(Resolver *r, const AstExpr *e)
 {
-    Symbol *s = lookup(r, e->name);
-    if (!s && failed_earlier(r, e->name)) {
-        fail(r);
+    Symbol *s = resolve_use(r, e->name, e->name_span);
+    if (!s)
         return;
-    }
-    if (!s) {
-        diag_error(r->diag, e->name_span,
-                   strcmp(e->name, r->target_name) == 0
-                       ? "'%s' is used in its own definition"
-                       : "unknown name '%s': define it before this line",
-                   e->name);
-        fail(r);
-        return;
-    }
-    if (s->failed) {
-        fail(r);
-        return;
-    }
     if (s->kind != SYM_ARRAY) {
         diag_error(r->diag, e->span,
                    "'%s' is a constant and cannot be subscripted", e->name);
@@ -748,17 +734,7 @@ static void node_vars(const Ir *ir, NodeId id, int32_t *vars, int *n,
 static IrStmt make_stmt(Resolver *r, IrStmtKind kind, int32_t target,
                         int32_t tuple, int32_t domain, NodeId expr)
 {
-    IrStmt s;
-    memset(&s, 0, sizeof s);
-    s.kind = kind;
-    s.target = target;
-    s.tuple = tuple;
-    s.domain = domain;
-    s.reduced = ir_tuple(r->ir, NULL, 0);
-    s.argpos = -1;
-    s.expr = expr;
-    s.origin = r->stmt->span;
-    return s;
+    return ir_stmt(r->ir, kind, target, tuple, domain, expr, r->stmt->span);
 }
 
 static const char *temp_name(Resolver *r, const char *what)

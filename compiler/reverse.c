@@ -114,17 +114,8 @@ static int32_t whole_tuple(Ir *ir, int32_t array)
 static void emit_stmt(Reverse *rv, IrStmtKind kind, int32_t target,
                       int32_t tuple, int32_t domain, NodeId e, Span origin)
 {
-    IrStmt s;
-    memset(&s, 0, sizeof s);
-    s.kind = kind;
-    s.target = target;
-    s.tuple = tuple;
-    s.domain = domain;
-    s.reduced = ir_tuple(rv->ir, NULL, 0);
-    s.argpos = -1;
-    s.expr = e;
-    s.origin = origin;
-    ir_add_stmt(rv->ir, &rv->ir->reverse, s);
+    ir_add_stmt(rv->ir, &rv->ir->reverse,
+                ir_stmt(rv->ir, kind, target, tuple, domain, e, origin));
 }
 
 /* True when a statement over DOMAIN writing array[tuple] writes each

@@ -225,6 +225,126 @@ START_TEST(max_reduction_keeps_its_winner_only_for_the_gradient)
 }
 END_TEST
 
+/* A tiny evaluator for the integer position expressions the emitter
+ * writes: numbers, the names k, i and j, '+', '*', brackets and casts to
+ * long. */
+typedef struct PosExpr {
+    const char *at;
+    int k, i, j;
+} PosExpr;
+
+static long pos_sum(PosExpr *p);
+
+static long pos_atom(PosExpr *p)
+{
+    while (*p->at == ' ')
+        p->at++;
+    if (strncmp(p->at, "(long)", 6) == 0) {
+        p->at += 6;
+        return pos_atom(p);
+    }
+    if (*p->at == '(') {
+        p->at++;
+        long v = pos_sum(p);
+        while (*p->at == ' ')
+            p->at++;
+        ck_assert_int_eq(*p->at, ')');
+        p->at++;
+        return v;
+    }
+    if (*p->at >= '0' && *p->at <= '9')
+        return strtol(p->at, (char **)&p->at, 10);
+    char c = *p->at++;
+    ck_assert_msg(c == 'k' || c == 'i' || c == 'j', "unexpected '%c'", c);
+    return c == 'k' ? p->k : c == 'i' ? p->i : p->j;
+}
+
+static long pos_product(PosExpr *p)
+{
+    long v = pos_atom(p);
+    for (;;) {
+        while (*p->at == ' ')
+            p->at++;
+        if (*p->at != '*')
+            return v;
+        p->at++;
+        v *= pos_atom(p);
+    }
+}
+
+static long pos_sum(PosExpr *p)
+{
+    long v = pos_product(p);
+    for (;;) {
+        while (*p->at == ' ')
+            p->at++;
+        if (*p->at != '+')
+            return v;
+        p->at++;
+        v += pos_product(p);
+    }
+}
+
+START_TEST(winner_position_over_three_indices)
+{
+    /* max over k < 2, i < 3, j < 2: the stored winner must be the
+     * row-major flat position (k*3 + i)*2 + j that the reverse sweep
+     * compares with */
+    Emitted *e = build("model am\nparam Y[2,3,2]\n"
+                       "ymax = max(k, i, j: Y[k, i, j])\noutput ymax\n");
+    static const char store[] = "                    dvs_ymax_at = ";
+    const char *at = strstr(e->c, store);
+    ck_assert_msg(at != NULL, "no winner store in:\n%s", e->c);
+    char *rhs = tu_format("%.*s", (int)strcspn(at + sizeof store - 1, ";"),
+                          at + sizeof store - 1);
+    for (int k = 0; k < 2; k++)
+        for (int i = 0; i < 3; i++)
+            for (int j = 0; j < 2; j++) {
+                PosExpr p = {rhs, k, i, j};
+                long got = pos_sum(&p);
+                ck_assert_msg(got == (k * 3 + i) * 2 + j && *p.at == '\0',
+                              "%s gives %ld at k=%d i=%d j=%d", rhs, got, k,
+                              i, j);
+            }
+    free(rhs);
+    emitted_free(e);
+}
+END_TEST
+
+/* The line of C text holding AT (malloc'd, for failure messages). */
+static char *line_at(const char *c, const char *at)
+{
+    const char *start = at;
+    while (start > c && start[-1] != '\n')
+        start--;
+    return tu_format("%.*s", (int)strcspn(start, "\n"), start);
+}
+
+/* Assert that the emitted C has no "--" (a decrement) anywhere. */
+static void check_no_decrement(const char *c)
+{
+    const char *at = strstr(c, "--");
+    if (at) {
+        char *line = line_at(c, at);
+        ck_abort_msg("a decrement in the emitted code: %s", line);
+    }
+}
+
+START_TEST(double_negation_is_not_a_decrement)
+{
+    /* "- -z" written without a space or bracket would be C's "--z", a
+     * decrement: a wrong value, or code that does not compile */
+    Emitted *e = build("model neg\ninput s\nparam a\nz = s * 2\n"
+                       "y = -(-z) + a\noutput y\n");
+    check_no_decrement(e->c);
+    emitted_free(e);
+    /* d/dx (1 - (-2) x) = -(-2): a negated negative constant */
+    e = build("model neg\nparam x\ny = 1 - -2 * x\noutput y\n");
+    check_no_decrement(e->c);
+    emitted_free(e);
+}
+END_TEST
+
 START_TEST(negated_contribution_is_a_subtraction)
 {
     Emitted *e = build("model neg\nparam x[3], a\n"
@@ -457,6 +577,8 @@ static Suite *emit_suite(void)
     tcase_add_test(tc, header_declares_the_interface);
     tcase_add_test(tc, model_without_inputs_has_no_input_argument);
     tcase_add_test(tc, max_reduction_keeps_its_winner_only_for_the_gradient);
+    tcase_add_test(tc, winner_position_over_three_indices);
+    tcase_add_test(tc, double_negation_is_not_a_decrement);
     tcase_add_test(tc, negated_contribution_is_a_subtraction);
     tcase_add_test(tc, numbers_read_back_exactly);
     tcase_add_test(tc, helpers_are_copied_only_when_used);

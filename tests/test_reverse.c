@@ -1,9 +1,7 @@
-/* test_reverse.c - unit tests of the reverse pass (reverse.c) through
- * dv_compile: activity analysis, the order of the adjoint sweep, how each
- * adjoint is first written (set, or zeroed then accumulated), zeroed
- * gradients of params that do not affect the output, and dropping adjoints
- * nothing reads.  Expected sweeps are derived by hand with the chain rule
- * (DESIGN.md, "Reverse mode on this IR"). */
+/* test_reverse.c - unit tests of the reverse pass (reverse.c) via dv_compile:
+ * activity analysis, sweep order, first writes (set, or zero then add),
+ * zeroed gradients of unused params, dropped unread adjoints.  Expected
+ * sweeps are derived by hand with the chain rule (DESIGN.md). */
 #include "testutil.h"
 
 #include "dervish.h"

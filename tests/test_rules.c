@@ -413,6 +413,9 @@ START_TEST(mul_simplifications)
     /* the constant goes first */
     check_shown(f, rules_mul(ir, f->x, ir_const(ir, 2)), "(2 * x)", "x*2");
     check_shown(f, rules_mul(ir, f->x, f->y), "(x * y)", "x*y");
+    /* -1 times a constant is a constant too */
+    check_shown(f, rules_mul(ir, m1, ir_const(ir, 2)), "-2", "-1*2");
+    check_shown(f, rules_mul(ir, ir_const(ir, -2), m1), "2", "-2*-1");
     /* -1 x = -x, and -1 (-x) = x */
     check_shown(f, rules_mul(ir, m1, f->x), "(-x)", "-1*x");
     check_shown(f, rules_mul(ir, f->x, m1), "(-x)", "x*-1");
@@ -429,6 +432,29 @@ START_TEST(mul_simplifications)
     NodeId sel1 = ir_node(ir, IR_SELECT, cond, zero, one);
     check_shown(f, rules_mul(ir, f->y, sel1), "((x > 0) ? 0 : y)",
                 "y*sel1");
+    fixture_free(f);
+}
+END_TEST
+
+START_TEST(product_of_two_selects)
+{
+    /* neither factor has a zero branch, so neither moves into the other:
+     * a plain product (a loop here would hang the compiler) */
+    Fixture *f = fixture();
+    Ir *ir = f->ir;
+    NodeId zero = ir_const(ir, 0);
+    NodeId c1 = ir_node(ir, IR_GT, f->x, zero, NO_NODE);
+    NodeId c2 = ir_node(ir, IR_LT, f->y, zero, NO_NODE);
+    NodeId s1 = ir_node(ir, IR_SELECT, c1, f->x, f->y);
+    NodeId s2 = ir_node(ir, IR_SELECT, c2, ir_const(ir, 2), ir_const(ir, 3));
+    check_shown(f, rules_mul(ir, s1, s2),
+                "(((x > 0) ? x : y) * ((y < 0) ? 2 : 3))", "s1*s2");
+    /* as met in practice: d/dx of (x > 0 ? x : 2x) (y < 0 ? 3x : x) */
+    NodeId two_x = ir_node(ir, IR_MUL, ir_const(ir, 2), f->x, NO_NODE);
+    NodeId three_x = ir_node(ir, IR_MUL, ir_const(ir, 3), f->x, NO_NODE);
+    NodeId p = ir_node(ir, IR_MUL, ir_node(ir, IR_SELECT, c1, f->x, two_x),
+                       ir_node(ir, IR_SELECT, c2, three_x, f->x), NO_NODE);
+    ck_assert_int_ne(rules_derivative(ir, &f->memo, p, f->x, f->v), NO_NODE);
     fixture_free(f);
 }
 END_TEST
@@ -467,6 +493,11 @@ static Suite *rules_suite(void)
     tcase_add_test(tc, mul_simplifications);
     tcase_add_test(tc, add_simplifications);
     suite_add_tcase(s, tc);
+    /* a case of its own with a short timeout: its failure mode is a hang */
+    TCase *loop = tcase_create("termination");
+    tcase_set_timeout(loop, 5);
+    tcase_add_test(loop, product_of_two_selects);
+    suite_add_tcase(s, loop);
     return s;
 }
 
