@@ -43,7 +43,7 @@ RUNTIME  := $(sort $(wildcard runtime/*.c))
 TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 
-.PHONY: all check samples demo clean install uninstall
+.PHONY: all check samples demo soak clean install uninstall
 # The copy ./dervish is made only by the default build directory.
 all: $(B)/dervish $(if $(filter build,$(B)),dervish)
 
@@ -87,7 +87,7 @@ $(B)/runtime_text.o: $(B)/runtime_text.c
 	$(CC) $(ALL_CFLAGS) -c -o $@ $<
 
 # ---------------------------------------------------------------- tests
-$(B)/tests/%: tests/%.c tests/testutil.h $(B)/libdervish.a Makefile
+$(B)/tests/%: tests/%.c $(wildcard tests/*.h) $(B)/libdervish.a Makefile
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -D_XOPEN_SOURCE=700 $(CHECK_CFLAGS) -Itests -o $@ $< \
 	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)
@@ -95,6 +95,17 @@ $(B)/tests/%: tests/%.c tests/testutil.h $(B)/libdervish.a Makefile
 check: $(B)/dervish $(TEST_BINS)
 	@sh samples/run_samples.sh $(B)/dervish
 	@sh tests/run_all.sh $(B)
+
+# A long run of the randomized-model test: make soak SOAK_COUNT=10000
+SOAK_COUNT ?= 10000
+SOAK_SEED  ?= 1
+soak: $(B)/dervish $(B)/tests/soak
+	DERVISH=$(B)/dervish $(B)/tests/soak $(SOAK_COUNT) $(SOAK_SEED)
+
+$(B)/tests/soak: tests/soak.c tests/testutil.h $(wildcard tests/*.h) $(B)/libdervish.a Makefile
+	@mkdir -p $(@D)
+	$(CC) $(ALL_CFLAGS) -D_XOPEN_SOURCE=700 $(CHECK_CFLAGS) -Itests -o $@ $< \
+	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)
 
 samples: $(B)/dervish
 	@sh samples/run_samples.sh $(B)/dervish
