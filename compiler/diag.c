@@ -30,6 +30,12 @@ void source_line_col(const Source *src, uint32_t off, int *line, int *col)
 
 /* Print the line holding `at` with a caret under its first byte and tildes
  * under the rest of the span (clipped to the line). */
+/* Widest part of a source line shown; longer lines are cut around the
+ * cause, with "..." where text is left out. */
+#define SHOW_WIDTH 120
+
+/* Print the line holding `at` with a caret under its first byte and tildes
+ * under the rest of the span (clipped to what is shown). */
 static void show_line(const Diag *d, Span at)
 {
     const char *text = d->src->text;
@@ -40,13 +46,23 @@ static void show_line(const Diag *d, Span at)
         start--;
     while (end < len && text[end] != '\n' && text[end] != '\r')
         end++;
-    fputs("    ", d->out);
+    int cut_left = 0, cut_right = 0;
+    if (off - start > SHOW_WIDTH / 2) {
+        start = off - SHOW_WIDTH / 2;
+        cut_left = 1;
+    }
+    if (end - start > SHOW_WIDTH) {
+        end = start + SHOW_WIDTH;
+        cut_right = 1;
+    }
+    fputs(cut_left ? "    ..." : "    ", d->out);
     for (uint32_t i = start; i < end; i++) {
         unsigned char c = (unsigned char)text[i];
         /* Control bytes would garble the terminal; show them as spaces. */
         fputc(c == '\t' || c >= 0x20 ? c : ' ', d->out);
     }
-    fputs("\n    ", d->out);
+    fputs(cut_right ? "...\n" : "\n", d->out);
+    fputs(cut_left ? "       " : "    ", d->out);
     for (uint32_t i = start; i < off; i++)
         fputc(text[i] == '\t' ? '\t' : ' ', d->out);
     fputc('^', d->out);

@@ -462,7 +462,8 @@ AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
             DvParserFinalize(parser);
             DvParserInit(parser);
         }
-        if (t.code == 0 || ps.too_deep || diag->errors >= diag->max_errors)
+        if (t.code == 0 || ps.too_deep || ps.lexer.too_deep ||
+            diag->errors >= diag->max_errors)
             break;
         ps.prev = t;
     }

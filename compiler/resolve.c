@@ -1090,17 +1090,22 @@ static void check_model_name(Resolver *r, const AstModel *m)
 {
     const char *name = r->ir->model;
     Span at = {0, 0};
+    int stated = 0;
     for (int i = 0; i < m->nstmts; i++)
-        if (m->stmts[i]->kind == STMT_MODEL)
+        if (m->stmts[i]->kind == STMT_MODEL) {
             at = m->stmts[i]->name_span;
-    if (!names_is_identifier(name)) {
-        diag_error(r->diag, at, "model name '%s' is not a C identifier",
-                   name);
-        return;
-    }
-    const char *why = names_reserved(name, NULL);
-    if (why)
+            stated = 1;
+        }
+    const char *why = !names_is_identifier(name)
+                          ? "is not a C identifier"
+                          : names_reserved(name, NULL);
+    if (why && stated)
         diag_error(r->diag, at, "model name '%s' %s; choose another name",
+                   name, why);
+    else if (why)
+        diag_error(r->diag, at,
+                   "the model is named '%s' after its file, and that name "
+                   "%s: add a 'model NAME' statement or use --name",
                    name, why);
 }
 
@@ -1223,6 +1228,10 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
         }
     }
     Span start = {0, 0};
+    if (diag->errors == 0 && m->nstmts == 0)
+        diag_error(diag, start,
+                   "the model is empty: declare params, define values and "
+                   "name the output");
     if (diag->errors == 0 && r.nparams == 0)
         diag_error(diag, last_output ? last_output->span : start,
                    "nothing to differentiate: the model declares no "

@@ -210,24 +210,40 @@ static void check_excerpt(const char *src, size_t len, int l, int c,
                       l, c);
     while (end < len && src[end] != '\n' && src[end] != '\r')
         end++;
-    char *want = malloc(end - start + 6), *w = want;
-    w += sprintf(w, "    ");
+    /* dervish shows at most SHOW_WIDTH bytes of a line, cut around the
+     * cause with "..." where text is left out */
+    enum { SHOW_WIDTH = 120 };
+    const char *lead = "    ", *caret_lead = "    ";
+    int cut_right = 0;
+    if (at - start > SHOW_WIDTH / 2) {
+        start = at - SHOW_WIDTH / 2;
+        lead = "    ...";
+        caret_lead = "       ";
+    }
+    if (end - start > SHOW_WIDTH) {
+        end = start + SHOW_WIDTH;
+        cut_right = 1;
+    }
+    size_t pad = strlen(caret_lead);
+    char *want = malloc(end - start + 16), *w = want;
+    w += sprintf(w, "%s", lead);
     for (size_t i = start; i < end; i++) {
         unsigned char b = (unsigned char)src[i];
         *w++ = b == '\t' || b >= 0x20 ? (char)b : ' ';
     }
+    w += sprintf(w, "%s", cut_right ? "..." : "");
     *w = '\0';
     ck_assert_msg(shown && strcmp(shown, want) == 0,
                   "%s:%d:%d: expected the source line\n%s\nfound\n%s", file, l,
                   c, want, shown ? shown : "(nothing)");
-    ck_assert_msg(caret && strncmp(caret, "    ", 4) == 0 &&
-                      strlen(caret) > 4 + (at - start),
+    ck_assert_msg(caret && strncmp(caret, caret_lead, pad) == 0 &&
+                      strlen(caret) > pad + (at - start),
                   "%s:%d:%d: no caret line under the source line", file, l, c);
     for (size_t i = start; i < at; i++)
-        ck_assert_msg(caret[4 + i - start] == (src[i] == '\t' ? '\t' : ' '),
+        ck_assert_msg(caret[pad + i - start] == (src[i] == '\t' ? '\t' : ' '),
                       "%s:%d:%d: caret line '%s' is not aligned", file, l, c,
                       caret);
-    const char *marker = caret + 4 + (at - start);
+    const char *marker = caret + pad + (at - start);
     ck_assert_msg(marker[0] == '^' && strspn(marker + 1, "~") ==
                                           strlen(marker + 1),
                   "%s:%d:%d: caret line '%s' has no '^' under column %d", file,
