@@ -55,32 +55,8 @@ char *fileio_read(const char *path, size_t *len)
     return buf;
 }
 
-int fileio_prepare(PendingFile *f, const char *path, const char *data,
-                   size_t len)
+static int write_fd(int fd, const char *path, const char *data, size_t len)
 {
-    f->path = path;
-    f->temp = malloc(strlen(path) + 32);
-    if (!f->temp) {
-        fputs("dervish: out of memory\n", stderr);
-        exit(3);
-    }
-    /* same directory as the target, so rename() cannot cross devices */
-    const char *slash = strrchr(path, '/');
-    int dirlen = slash ? (int)(slash - path) + 1 : 0;
-    sprintf(f->temp, "%.*s.%s.XXXXXX", dirlen, path,
-            slash ? slash + 1 : path);
-    int fd = mkstemp(f->temp);
-    if (fd < 0) {
-        fprintf(stderr, "dervish: cannot write %s: %s\n", path,
-                strerror(errno));
-        free(f->temp);
-        f->temp = NULL;
-        return -1;
-    }
-    /* mkstemp makes the file 0600; outputs get the usual 0666 & ~umask */
-    mode_t mask = umask(0);
-    umask(mask);
-    fchmod(fd, 0666 & ~mask);
     size_t done = 0;
     while (done < len) {
         ssize_t w = write(fd, data + done, len - done);
@@ -89,51 +65,105 @@ int fileio_prepare(PendingFile *f, const char *path, const char *data,
         if (w <= 0) {
             fprintf(stderr, "dervish: cannot write %s: %s\n", path,
                     strerror(w < 0 ? errno : ENOSPC));
-            close(fd);
-            fileio_abandon(f);
             return -1;
         }
         done += (size_t)w;
     }
-    if (close(fd) != 0) {
+    return 0;
+}
+
+/* Write data to a new temporary file beside path; returns its malloc'd
+ * name, or NULL after printing why (and removing it). */
+static char *write_temp(const char *path, const char *data, size_t len)
+{
+    char *temp = malloc(strlen(path) + 32);
+    if (!temp) {
+        fputs("dervish: out of memory\n", stderr);
+        exit(3);
+    }
+    /* same directory as the target, so rename() cannot cross devices */
+    const char *slash = strrchr(path, '/');
+    int dirlen = slash ? (int)(slash - path) + 1 : 0;
+    sprintf(temp, "%.*s.%s.XXXXXX", dirlen, path, slash ? slash + 1 : path);
+    int fd = mkstemp(temp);
+    if (fd < 0) {
         fprintf(stderr, "dervish: cannot write %s: %s\n", path,
                 strerror(errno));
-        fileio_abandon(f);
-        return -1;
+        free(temp);
+        return NULL;
     }
-    return 0;
+    /* mkstemp makes the file 0600; outputs get the usual 0666 & ~umask */
+    mode_t mask = umask(0);
+    umask(mask);
+    fchmod(fd, 0666 & ~mask);
+    int failed = write_fd(fd, path, data, len);
+    if (close(fd) != 0 && !failed) {
+        fprintf(stderr, "dervish: cannot write %s: %s\n", path,
+                strerror(errno));
+        failed = 1;
+    }
+    if (failed) {
+        remove(temp);
+        free(temp);
+        return NULL;
+    }
+    return temp;
 }
 
-int fileio_commit(PendingFile *f)
+/* Write into an existing special file (a device, a pipe) in place. */
+static int write_special(const OutputFile *f)
 {
-    if (rename(f->temp, f->path) != 0) {
+    int fd = open(f->path, O_WRONLY | O_TRUNC);
+    if (fd < 0) {
         fprintf(stderr, "dervish: cannot write %s: %s\n", f->path,
                 strerror(errno));
-        fileio_abandon(f);
         return -1;
     }
-    free(f->temp);
-    f->temp = NULL;
-    return 0;
+    int failed = write_fd(fd, f->path, f->data, f->len);
+    if (close(fd) != 0 && !failed) {
+        fprintf(stderr, "dervish: cannot write %s: %s\n", f->path,
+                strerror(errno));
+        failed = 1;
+    }
+    return failed ? -1 : 0;
 }
 
-int fileio_check_target(const char *path)
+int fileio_write_all(const OutputFile *files, int n)
 {
-    struct stat st;
-    if (stat(path, &st) == 0 && S_ISDIR(st.st_mode)) {
-        fprintf(stderr, "dervish: cannot write %s: it is a directory\n", path);
-        return -1;
+    char **temp = calloc((size_t)n + 1, sizeof *temp);
+    int failed = !temp;
+    for (int i = 0; i < n && !failed; i++) {
+        struct stat st;
+        if (stat(files[i].path, &st) == 0 && S_ISDIR(st.st_mode)) {
+            fprintf(stderr, "dervish: cannot write %s: it is a directory\n",
+                    files[i].path);
+            failed = 1;
+        } else if (stat(files[i].path, &st) == 0 && !S_ISREG(st.st_mode)) {
+            temp[i] = NULL;     /* special: written in place below */
+        } else if (!(temp[i] = write_temp(files[i].path, files[i].data,
+                                          files[i].len))) {
+            failed = 1;
+        }
     }
-    return 0;
-}
-
-void fileio_abandon(PendingFile *f)
-{
-    if (f->temp) {
-        remove(f->temp);
-        free(f->temp);
-        f->temp = NULL;
-    }
+    for (int i = 0; i < n && !failed; i++)
+        if (!temp[i] && write_special(&files[i]) != 0)
+            failed = 1;
+    for (int i = 0; i < n && !failed; i++)
+        if (temp[i] && rename(temp[i], files[i].path) != 0) {
+            fprintf(stderr, "dervish: cannot write %s: %s\n", files[i].path,
+                    strerror(errno));
+            failed = 1;
+        } else if (temp[i]) {
+            free(temp[i]);
+            temp[i] = NULL;
+        }
+    for (int i = 0; temp && i < n; i++)
+        if (temp[i]) {
+            remove(temp[i]);
+            free(temp[i]);
+        }
+    free(temp);
+    return failed ? -1 : 0;
 }
 
 int fileio_same_file(const char *a, const char *b)

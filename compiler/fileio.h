@@ -10,24 +10,20 @@
  * prints "dervish: cannot read PATH: reason" and returns NULL. */
 char *fileio_read(const char *path, size_t *len);
 
-/* An output in preparation: written to a temporary file, then committed
- * (renamed over path) or abandoned (removed). */
-typedef struct PendingFile {
+/* One file to write: its path and its complete contents. */
+typedef struct OutputFile {
     const char *path;
-    char *temp;         /* malloc'd temporary path, NULL once settled */
-} PendingFile;
+    const char *data;
+    size_t len;
+} OutputFile;
 
-/* Write data to a temporary file beside path.  Returns 0, or -1 after
- * printing why. */
-int fileio_prepare(PendingFile *f, const char *path, const char *data,
-                   size_t len);
-int fileio_commit(PendingFile *f);      /* 0, or -1 after printing why */
-
-/* 0 when a file may be renamed onto path (it is absent or not a
- * directory), else -1 after printing why; checked for every output before
- * any is replaced, so a failure replaces none. */
-int fileio_check_target(const char *path);
-void fileio_abandon(PendingFile *f);
+/* Write every output so that nothing is lost: each regular file is first
+ * written whole to a temporary file beside it; only when all of them are
+ * complete (and any special file such as /dev/stdout, which is written in
+ * place, has been written) are the temporaries renamed over their targets.
+ * On a failure no target is replaced and no temporary is left behind.
+ * Returns 0, or -1 after printing why. */
+int fileio_write_all(const OutputFile *files, int n);
 
 /* True when a and b name the same existing file. */
 int fileio_same_file(const char *a, const char *b);

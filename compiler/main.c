@@ -22,12 +22,14 @@ static const char usage[] =
     "         -o FILE          C source path (default: MODEL's stem + .c here)\n"
     "         --header FILE    header path (default: the C path with .h)\n"
     "         --name NAME      symbol prefix (overrides the model statement)\n"
+    "         --fail-on-warning  treat warnings as errors (exit 1, write nothing)\n"
     "       dervish check [options] MODEL.dvs    compare the gradient with\n"
     "                                            numerical derivatives\n"
     "         --at FILE        values of params and inputs (name = numbers...)\n"
     "         --seed N         seed for random values when --at is not given\n"
     "         --tolerance X    largest accepted relative error (default 1e-6)\n"
     "         --name NAME      symbol prefix\n"
+    "         --fail-on-warning  treat warnings as errors\n"
     "       dervish --help | --version\n"
     "exit status: 0 success, 1 model errors or a derivative mismatch,\n"
     "             2 bad command line, 3 input/output failure\n";
@@ -48,6 +50,7 @@ typedef struct Args {
     const char *at;
     const char *seed;
     const char *tolerance;
+    int fail_on_warning;
 } Args;
 
 /* Parse the options after the command word; returns 0 or an exit status. */
@@ -69,6 +72,10 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->seed;
         else if (!is_build && strcmp(opt, "--tolerance") == 0)
             slot = &a->tolerance;
+        if (strcmp(opt, "--fail-on-warning") == 0) {
+            a->fail_on_warning = 1;
+            continue;
+        }
         if (slot) {
             if (i + 1 >= argc)
                 return usage_error("option %s needs a value", opt);
@@ -114,6 +121,12 @@ static int compile_file(const Args *a, DvCompilation *c,
                     c->diag.errors == 1 ? "" : "s", what_failed);
         return EXIT_MODEL;
     }
+    if (a->fail_on_warning && c->diag.warnings > 0) {
+        fprintf(stderr, "%s: %d warning%s, treated as errors "
+                "(--fail-on-warning)%s\n", a->model, c->diag.warnings,
+                c->diag.warnings == 1 ? "" : "s", what_failed);
+        return EXIT_MODEL;
+    }
     return 0;
 }
 
@@ -153,18 +166,10 @@ static int build(const Args *a)
     if (!status) {
         Buf src = {0}, hdr = {0};
         dv_emit(&c, dv_basename(cp), dv_basename(hp), &src, &hdr);
-        PendingFile pc = {0}, ph = {0};
-        if (fileio_prepare(&pc, cp, src.data, src.len) != 0)
+        /* the header first: a source is never newer than its header */
+        OutputFile out[2] = {{hp, hdr.data, hdr.len}, {cp, src.data, src.len}};
+        if (fileio_write_all(out, 2) != 0)
             status = EXIT_IO;
-        else if (fileio_prepare(&ph, hp, hdr.data, hdr.len) != 0)
-            status = EXIT_IO;
-        else if (fileio_check_target(cp) != 0 || fileio_check_target(hp) != 0)
-            status = EXIT_IO;
-        /* both files are complete before either replaces its target */
-        if (!status && (fileio_commit(&ph) != 0 || fileio_commit(&pc) != 0))
-            status = EXIT_IO;
-        fileio_abandon(&pc);
-        fileio_abandon(&ph);
         buf_free(&src);
         buf_free(&hdr);
     }
