@@ -43,7 +43,7 @@ RUNTIME  := $(sort $(wildcard runtime/*.c))
 TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 
-.PHONY: all check samples demo soak clean install uninstall
+.PHONY: all check samples demo soak fuzz clean install uninstall
 # The copy ./dervish is made only by the default build directory.
 all: $(B)/dervish $(if $(filter build,$(B)),dervish)
 
@@ -109,6 +109,34 @@ $(B)/tests/soak: tests/soak.c tests/testutil.h $(wildcard tests/*.h) $(B)/libder
 
 samples: $(B)/dervish
 	@sh samples/run_samples.sh $(B)/dervish
+
+# libFuzzer over the whole pipeline (clang): make fuzz FUZZ_SECONDS=60
+FUZZ_SECONDS ?= 60
+FUZZ_CC      ?= clang
+FUZZ_FLAGS   := -std=c99 -g -O1 -fsanitize=fuzzer-no-link,address,undefined \
+                -fno-sanitize-recover=all -D_POSIX_C_SOURCE=200809L \
+                -DDERVISH_VERSION='"$(VERSION)"' -Icompiler -Iruntime -Ibuild-fuzz
+FUZZ_SRCS    := $(LIB_SRCS) build-fuzz/lexer.c build-fuzz/parser.c \
+                build-fuzz/runtime_text.c fuzz/fuzz_compile.c
+fuzz: build-fuzz/fuzz_compile
+	@mkdir -p build-fuzz/corpus
+	sh fuzz/run.sh build-fuzz/fuzz_compile $(FUZZ_SECONDS)
+
+build-fuzz/fuzz_compile: $(LIB_SRCS) $(wildcard compiler/*.h) fuzz/fuzz_compile.c \
+                         build-fuzz/lexer.c build-fuzz/parser.c build-fuzz/runtime_text.c
+	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer -o $@ $(FUZZ_SRCS) -lm
+
+build-fuzz/parser.c build-fuzz/parser.h: grammar/parser.y
+	@mkdir -p build-fuzz
+	lemon -q -l -dbuild-fuzz -T/usr/share/lemon/lempar.c $<
+	touch build-fuzz/parser.h
+
+build-fuzz/lexer.c: grammar/lexer.re build-fuzz/parser.h
+	re2c -W -Werror --no-generation-date --no-version -o $@ $<
+
+build-fuzz/runtime_text.c: $(RUNTIME) scripts/embed_runtime.sh
+	@mkdir -p build-fuzz
+	sh scripts/embed_runtime.sh $(RUNTIME) > $@
 
 demo: $(B)/dervish
 	@sh samples/run_samples.sh $(B)/dervish $(DEMO)
