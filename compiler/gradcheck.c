@@ -427,9 +427,12 @@ static void print_values(FILE *out, const Ir *ir, Evaluation *ev,
             continue;
         const double *v = eval_slot(ev, a->name);
         int indent = (int)strlen(a->name) + 3;
+        /* one row of the last dimension per line (wrapped when long), so a
+         * matrix reads as a matrix */
+        long row = a->rank > 0 ? a->dim[a->rank - 1] : 1;
         fprintf(out, "%s =", a->name);
         for (long e = 0; e < ir_array_size(a); e++) {
-            if (e > 0 && e % VALUES_PER_LINE == 0)
+            if (e > 0 && (e % row == 0 || e % row % VALUES_PER_LINE == 0))
                 fprintf(out, "\n%*s", indent - 1, "");
             fprintf(out, " %.4f", v[e]);
         }
