@@ -4,6 +4,7 @@
 
 #include <errno.h>
 #include <fcntl.h>
+#include <signal.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -55,6 +56,34 @@ char *fileio_read(const char *path, size_t *len)
     return buf;
 }
 
+/* Temporary files in existence, so a signal that ends dervish (Ctrl-C, a
+ * build tool's kill) can remove them: the one piece of process-wide state,
+ * and only the command line's file writing uses it. */
+#define MAX_TEMPS 8
+static char *volatile live_temps[MAX_TEMPS];
+
+static void remove_temps_and_die(int sig)
+{
+    for (int i = 0; i < MAX_TEMPS; i++)
+        if (live_temps[i])
+            unlink(live_temps[i]);          /* async-signal-safe */
+    signal(sig, SIG_DFL);
+    raise(sig);
+}
+
+static void track_temp(int slot, char *temp)
+{
+    static int handlers_set;
+    if (!handlers_set) {
+        static const int sigs[] = {SIGINT, SIGTERM, SIGHUP, SIGPIPE};
+        for (size_t i = 0; i < sizeof sigs / sizeof sigs[0]; i++)
+            signal(sigs[i], remove_temps_and_die);
+        handlers_set = 1;
+    }
+    if (slot < MAX_TEMPS)
+        live_temps[slot] = temp;
+}
+
 static int write_fd(int fd, const char *path, const char *data, size_t len)
 {
     size_t done = 0;
@@ -73,8 +102,10 @@ static int write_fd(int fd, const char *path, const char *data, size_t len)
 }
 
 /* Write data to a new temporary file beside path; returns its malloc'd
- * name, or NULL after printing why (and removing it). */
-static char *write_temp(const char *path, const char *data, size_t len)
+ * name, or NULL after printing why (and removing it).  SLOT tracks it for
+ * removal on a signal. */
+static char *write_temp(int slot, const char *path, const char *data,
+                        size_t len)
 {
     char *temp = malloc(strlen(path) + 32);
     if (!temp) {
@@ -85,10 +116,12 @@ static char *write_temp(const char *path, const char *data, size_t len)
     const char *slash = strrchr(path, '/');
     int dirlen = slash ? (int)(slash - path) + 1 : 0;
     sprintf(temp, "%.*s.%s.XXXXXX", dirlen, path, slash ? slash + 1 : path);
+    track_temp(slot, temp);
     int fd = mkstemp(temp);
     if (fd < 0) {
         fprintf(stderr, "dervish: cannot write %s: %s\n", path,
                 strerror(errno));
+        track_temp(slot, NULL);
         free(temp);
         return NULL;
     }
@@ -104,6 +137,7 @@ static char *write_temp(const char *path, const char *data, size_t len)
     }
     if (failed) {
         remove(temp);
+        track_temp(slot, NULL);
         free(temp);
         return NULL;
     }
@@ -140,7 +174,7 @@ int fileio_write_all(const OutputFile *files, int n)
             failed = 1;
         } else if (stat(files[i].path, &st) == 0 && !S_ISREG(st.st_mode)) {
             temp[i] = NULL;     /* special: written in place below */
-        } else if (!(temp[i] = write_temp(files[i].path, files[i].data,
+        } else if (!(temp[i] = write_temp(i, files[i].path, files[i].data,
                                           files[i].len))) {
             failed = 1;
         }
@@ -154,12 +188,14 @@ int fileio_write_all(const OutputFile *files, int n)
                     strerror(errno));
             failed = 1;
         } else if (temp[i]) {
+            track_temp(i, NULL);
             free(temp[i]);
             temp[i] = NULL;
         }
     for (int i = 0; temp && i < n; i++)
         if (temp[i]) {
             remove(temp[i]);
+            track_temp(i, NULL);
             free(temp[i]);
         }
     free(temp);
