@@ -87,7 +87,7 @@ $(B)/runtime_text.o: $(B)/runtime_text.c
 	$(CC) $(ALL_CFLAGS) -c -o $@ $<
 
 # ---------------------------------------------------------------- tests
-$(B)/tests/%: tests/%.c $(wildcard tests/*.h) $(B)/libdervish.a Makefile
+$(B)/tests/%: tests/%.c $(wildcard tests/*.h tests/e2e/*.h) $(B)/libdervish.a Makefile
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -D_XOPEN_SOURCE=700 $(CHECK_CFLAGS) -Itests -o $@ $< \
 	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)
@@ -102,7 +102,7 @@ SOAK_SEED  ?= 1
 soak: $(B)/dervish $(B)/tests/soak
 	DERVISH=$(B)/dervish $(B)/tests/soak $(SOAK_COUNT) $(SOAK_SEED)
 
-$(B)/tests/soak: tests/soak.c tests/testutil.h $(wildcard tests/*.h) $(B)/libdervish.a Makefile
+$(B)/tests/soak: tests/soak.c tests/testutil.h $(wildcard tests/*.h tests/e2e/*.h) $(B)/libdervish.a Makefile
 	@mkdir -p $(@D)
 	$(CC) $(ALL_CFLAGS) -D_XOPEN_SOURCE=700 $(CHECK_CFLAGS) -Itests -o $@ $< \
 	    $(B)/libdervish.a $(ALL_LDFLAGS) $(CHECK_LIBS) $(LDLIBS)

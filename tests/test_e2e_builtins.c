@@ -4,10 +4,9 @@
  * and gradient are compared with closed-form values and derivatives.
  *
  * Set DVS_E2E_REPORT=1 to print how many comparisons each test made. */
-#include "testutil.h"
+#include "e2eutil.h"
 
 #include <float.h>
-#include <math.h>
 
 /* Constants recalled from memory; each agrees with mpmath 1.2.1 at 30 digits
  * (/usr/bin/python3 -c "import mpmath as m; m.mp.dps = 30;
@@ -22,205 +21,19 @@
  * ulp or two and the emitted code adds a few roundings. */
 #define REL 1e-13
 
-#define COUNT(a) (sizeof(a) / sizeof((a)[0]))
-
-/* ------------------------------------------------------------ comparisons */
-
-/* Mismatches are listed on stderr and counted, so one run shows them all;
- * each test ends by asserting that none were seen. */
-typedef struct Tally {
-    const char *model;
-    const char *cc;     /* the compiler that built the driver */
-    int point;          /* index of the evaluation point */
-    int checks;
-    int bad;
-} Tally;
-
-/* |got - want| <= tol; an infinite or NaN want must be matched exactly. */
-static void expect_near(Tally *t, const char *what, double got, double want,
-                        double tol)
-{
-    int ok;
-    t->checks++;
-    if (isnan(want))
-        ok = isnan(got);
-    else if (isinf(want))
-        ok = got == want;
-    else
-        ok = fabs(got - want) <= tol;
-    if (!ok) {
-        t->bad++;
-        fprintf(stderr, "%s, point %d, %s: %s = %.17g, want %.17g (tol %.3g)\n",
-                t->model, t->point, t->cc, what, got, want, tol);
-    }
-}
-
-static void tally_finish(const Tally *t)
-{
-    if (getenv("DVS_E2E_REPORT")) {
-        printf("%s: %d comparisons, %d failed\n", t->model, t->checks, t->bad);
-        fflush(stdout);     /* a failed assertion ends the forked test */
-    }
-    ck_assert_msg(t->bad == 0, "%s: %d of %d comparisons failed (listed above)",
-                  t->model, t->bad, t->checks);
-}
-
 /* --------------------------------------------------------------- harness */
-
-/* A model to evaluate at npoints points. Point k sets the params, seen as a
- * flat vector, to pts[k * count ...]; inputs, if not NULL, is the C
- * initializer list of the model's input structs, one per point. */
-typedef struct Model {
-    const char *name;
-    const char *text;
-    int count;          /* doubles in the param struct */
-    int npoints;
-    const double *pts;
-    const char *inputs;
-} Model;
-
-/* Each driver row: value, gradient's return value, then the gradient. */
-#define ROW(m, rows, k) ((rows) + (size_t)(k) * (size_t)((m)->count + 2))
-
-/* Appends printf output to the malloc'd string *s. */
-static void append(char **s, const char *fmt, ...)
-{
-    va_list ap;
-    va_start(ap, fmt);
-    int n = vsnprintf(NULL, 0, fmt, ap);
-    va_end(ap);
-    size_t len = *s ? strlen(*s) : 0;
-    *s = realloc(*s, len + (size_t)n + 1);
-    ck_assert_ptr_nonnull(*s);
-    va_start(ap, fmt);
-    vsnprintf(*s + len, (size_t)n + 1, fmt, ap);
-    va_end(ap);
-}
-
-/* The C driver: evaluates value and gradient at every point and prints
- * one row per point with %.17g. The gradient is pre-filled with NaN, so a
- * member the emitted code fails to overwrite shows up. */
-static char *driver_source(const Model *m)
-{
-    char upper[64];
-    size_t i;
-    for (i = 0; m->name[i] && i + 1 < sizeof upper; i++)
-        upper[i] = (char)(m->name[i] >= 'a' && m->name[i] <= 'z'
-                              ? m->name[i] - 'a' + 'A' : m->name[i]);
-    upper[i] = '\0';
-    const char *in_arg = m->inputs ? ", &ins[k]" : "";
-    char *s = NULL;
-    append(&s, "#include <math.h>\n#include <stdio.h>\n#include \"%s.h\"\n\n",
-           m->name);
-    /* the header's count must match the layout the test assumes */
-    append(&s, "typedef char count_ok[%s_PARAM_COUNT == %d ? 1 : -1];\n\n",
-           upper, m->count);
-    append(&s, "static const double pts[%d][%d] = {\n", m->npoints, m->count);
-    for (int k = 0; k < m->npoints; k++) {
-        append(&s, "    {");
-        for (int j = 0; j < m->count; j++)
-            append(&s, "%s%.17g", j ? ", " : "", m->pts[k * m->count + j]);
-        append(&s, "},\n");
-    }
-    append(&s, "};\n\n");
-    if (m->inputs)
-        append(&s, "static const %s_input ins[%d] = {%s};\n\n", m->name,
-               m->npoints, m->inputs);
-    append(&s,
-           "int main(void)\n{\n"
-           "    for (int k = 0; k < %d; k++) {\n"
-           "        %s_param_flat x, g;\n"
-           "        for (int i = 0; i < %d; i++) {\n"
-           "            x.v[i] = pts[k][i];\n"
-           "            g.v[i] = nan(\"\");\n"
-           "        }\n"
-           "        double v = %s_value(&x.p%s);\n"
-           "        double r = %s_gradient(&x.p%s, &g.p);\n"
-           "        printf(\"%%.17g %%.17g\", v, r);\n"
-           "        for (int i = 0; i < %d; i++)\n"
-           "            printf(\" %%.17g\", g.v[i]);\n"
-           "        printf(\"\\n\");\n"
-           "    }\n"
-           "    return 0;\n}\n",
-           m->npoints, m->name, m->count, m->name, in_arg, m->name, in_arg,
-           m->count);
-    return s;
-}
-
-/* The driver's output parsed into npoints rows (malloc'd). */
-static double *parse_rows(const Model *m, const char *out, const char *cc)
-{
-    size_t n = (size_t)m->npoints * (size_t)(m->count + 2);
-    double *rows = malloc(n * sizeof *rows);
-    ck_assert_ptr_nonnull(rows);
-    const char *at = out;
-    for (size_t i = 0; i < n; i++) {
-        char *end;
-        rows[i] = strtod(at, &end);
-        ck_assert_msg(end != at, "%s (%s): driver printed too few numbers:\n%s",
-                      m->name, cc, out);
-        at = end;
-    }
-    while (*at == ' ' || *at == '\n')
-        at++;
-    ck_assert_msg(*at == '\0', "%s (%s): driver printed extra output:\n%s",
-                  m->name, cc, out);
-    return rows;
-}
-
-/* The model run by every C compiler found: rows[c] from cc[c]. */
-typedef struct Runs {
-    int n;
-    const char *cc[COUNT(tu_compilers)];
-    double *rows[COUNT(tu_compilers)];
-} Runs;
-
-static Runs run_model(const Model *m)
-{
-    Runs r;
-    char *dir = tu_tmpdir(), *err = NULL;
-    int rc = tu_build_model(dir, m->name, m->text, &err);
-    ck_assert_msg(rc == 0 && err && err[0] == '\0',
-                  "dervish build %s: status %d\n%s\nmodel:\n%s", m->name, rc,
-                  err ? err : "", m->text);
-    free(err);
-    char *path = tu_format("%s/driver.c", dir), *src = driver_source(m);
-    tu_write(path, src);
-    free(path);
-    free(src);
-    r.n = 0;
-    for (size_t c = 0; c < COUNT(tu_compilers); c++) {
-        if (!tu_have(tu_compilers[c]))
-            continue;
-        char *out = tu_compile_and_run(dir, m->name, tu_compilers[c]);
-        r.cc[r.n] = tu_compilers[c];
-        r.rows[r.n] = parse_rows(m, out, tu_compilers[c]);
-        r.n++;
-        free(out);
-    }
-    ck_assert_msg(r.n > 0, "no C compiler found");
-    tu_rmdir(dir);
-    free(dir);
-    return r;
-}
-
-static void runs_free(Runs *r)
-{
-    for (int c = 0; c < r->n; c++)
-        free(r->rows[c]);
-}
 
 /* Checks one row: gradient returns the value, the value is near want_value
  * (tolerance value_tol), and gradient entry i is near want[i] within tol[i]. */
-static void check_row(Tally *t, const Model *m, const double *row,
+static void check_row(E2eTally *t, const E2eModel *m, const double *row,
                       const char *const *names, double want_value,
                       double value_tol, const double *want, const double *tol)
 {
-    expect_near(t, "gradient's return - value", row[1] - row[0], 0.0, 0.0);
-    expect_near(t, "value", row[0], want_value, value_tol);
+    e2e_expect_near(t, "gradient's return - value", row[1] - row[0], 0.0, 0.0);
+    e2e_expect_near(t, "value", row[0], want_value, value_tol);
     for (int i = 0; i < m->count; i++) {
         char *what = tu_format("d/d%s", names[i]);
-        expect_near(t, what, row[2 + i], want[i], tol[i]);
+        e2e_expect_near(t, what, row[2 + i], want[i], tol[i]);
         free(what);
     }
 }
@@ -255,9 +68,9 @@ static char *case_expr(const Case *c)
     char *s = NULL;
     for (const char *e = c->expr; *e; e++) {
         if (*e == '@')
-            append(&s, "%s_%c", c->tag, *++e);
+            e2e_append(&s, "%s_%c", c->tag, *++e);
         else
-            append(&s, "%c", *e);
+            e2e_append(&s, "%c", *e);
     }
     return s;
 }
@@ -268,21 +81,22 @@ static void run_cases(const char *name, const Case *cases, int ncases)
 {
     char *text = NULL, *sum = NULL;
     int count = 0;
-    append(&text, "model %s\n", name);
+    e2e_append(&text, "model %s\n", name);
     for (int c = 0; c < ncases; c++) {
-        append(&text, "param ");
+        e2e_append(&text, "param ");
         for (int i = 0; i < cases[c].arity; i++)
-            append(&text, "%s_%d, ", cases[c].tag, i);
-        append(&text, "w_%s\n", cases[c].tag);
+            e2e_append(&text, "%s_%d, ", cases[c].tag, i);
+        e2e_append(&text, "w_%s\n", cases[c].tag);
         count += cases[c].arity + 1;
     }
     for (int c = 0; c < ncases; c++) {
         char *e = case_expr(&cases[c]);
-        append(&text, "t_%s = w_%s * (%s)\n", cases[c].tag, cases[c].tag, e);
-        append(&sum, "%st_%s", c ? " + " : "", cases[c].tag);
+        e2e_append(&text, "t_%s = w_%s * (%s)\n", cases[c].tag, cases[c].tag,
+                   e);
+        e2e_append(&sum, "%st_%s", c ? " + " : "", cases[c].tag);
         free(e);
     }
-    append(&text, "out = %s\noutput out\n", sum);
+    e2e_append(&text, "out = %s\noutput out\n", sum);
     free(sum);
 
     double *pts = malloc(sizeof(double) * NPTS * (size_t)count);
@@ -321,19 +135,20 @@ static void run_cases(const char *name, const Case *cases, int ncases)
         value_tol[k] = REL * magnitude;
     }
 
-    Model m = {name, text, count, NPTS, pts, NULL};
-    Runs r = run_model(&m);
-    Tally t = {name, NULL, 0, 0, 0};
+    E2eModel m = {name, text, count, NPTS, pts, NULL};
+    E2eRuns r = e2e_run_model(&m);
+    E2eTally t = {name, NULL, 0, 0, 0};
     for (int c = 0; c < r.n; c++) {
         t.cc = r.cc[c];
         for (int k = 0; k < NPTS; k++) {
             t.point = k;
-            check_row(&t, &m, ROW(&m, r.rows[c], k), (const char *const *)names,
-                      want_value[k], value_tol[k], want_grad + k * count,
+            check_row(&t, &m, E2E_ROW(&m, r.rows[c], k),
+                      (const char *const *)names, want_value[k],
+                      value_tol[k], want_grad + k * count,
                       tol_grad + k * count);
         }
     }
-    runs_free(&r);
+    e2e_runs_free(&r);
     for (int i = 0; i < count; i++)
         free(names[i]);
     free(names);
@@ -341,7 +156,7 @@ static void run_cases(const char *name, const Case *cases, int ncases)
     free(want_grad);
     free(tol_grad);
     free(text);
-    tally_finish(&t);
+    e2e_tally_finish(&t);
 }
 
 /* ---------------------------------------- closed forms of the builtins */
@@ -902,10 +717,10 @@ START_TEST(reductions)
         memcpy(pts[k], reduce_x[k], sizeof reduce_x[k]);
         memcpy(pts[k] + RN, reduce_w[k], sizeof reduce_w[k]);
     }
-    Model m = {"reduce", reduce_model, REDUCE_COUNT, NP, &pts[0][0],
+    E2eModel m = {"reduce", reduce_model, REDUCE_COUNT, NP, &pts[0][0],
                REDUCE_INPUTS};
-    Runs r = run_model(&m);
-    Tally t = {"reduce", NULL, 0, 0, 0};
+    E2eRuns r = e2e_run_model(&m);
+    E2eTally t = {"reduce", NULL, 0, 0, 0};
     for (int k = 0; k < NP; k++) {
         const double *x = reduce_x[k], *c = reduce_c[k], *w = reduce_w[k];
         double s1 = 0, s1_mag = 0, top = x[0];
@@ -954,12 +769,12 @@ START_TEST(reductions)
         for (int c2 = 0; c2 < r.n; c2++) {
             t.cc = r.cc[c2];
             t.point = k;
-            check_row(&t, &m, ROW(&m, r.rows[c2], k), names, value, REL * mag,
-                      want, tol);
+            check_row(&t, &m, E2E_ROW(&m, r.rows[c2], k), names, value,
+                      REL * mag, want, tol);
         }
     }
-    runs_free(&r);
-    tally_finish(&t);
+    e2e_runs_free(&r);
+    e2e_tally_finish(&t);
 }
 END_TEST
 
@@ -1017,10 +832,10 @@ START_TEST(multi_index_max_min)
         names[AY + f] = tu_format("U[%d][%d]", f / 3, f % 3);
     for (int k = 0; k < AW; k++)
         names[AY + AU + k] = tu_format("%s", weights[k]);
-    Model m = {"argmax", argmax_model, ARGMAX_COUNT, NP, &argmax_points[0][0],
-               NULL};
-    Runs r = run_model(&m);
-    Tally t = {"argmax", NULL, 0, 0, 0};
+    E2eModel m = {"argmax", argmax_model, ARGMAX_COUNT, NP,
+                  &argmax_points[0][0], NULL};
+    E2eRuns r = e2e_run_model(&m);
+    E2eTally t = {"argmax", NULL, 0, 0, 0};
     for (int k = 0; k < NP; k++) {
         const double *Y = argmax_points[k], *U = Y + AY, *w = U + AU;
         const int ymax = first_extreme(Y, AY, 1), ymin = first_extreme(Y, AY, -1);
@@ -1046,14 +861,14 @@ START_TEST(multi_index_max_min)
         for (int c = 0; c < r.n; c++) {
             t.cc = r.cc[c];
             t.point = k;
-            check_row(&t, &m, ROW(&m, r.rows[c], k),
+            check_row(&t, &m, E2E_ROW(&m, r.rows[c], k),
                       (const char *const *)names, value, REL * mag, want, tol);
         }
     }
-    runs_free(&r);
+    e2e_runs_free(&r);
     for (int f = 0; f < ARGMAX_COUNT; f++)
         free(names[f]);
-    tally_finish(&t);
+    e2e_tally_finish(&t);
 }
 END_TEST
 
@@ -1219,10 +1034,10 @@ START_TEST(statement_forms)
         pts[k][F_G] = p->g;
         memcpy(pts[k] + F_WEIGHTS, p->w, sizeof p->w);
     }
-    Model m = {"forms", forms_model, FORMS_COUNT, NP, &pts[0][0],
+    E2eModel m = {"forms", forms_model, FORMS_COUNT, NP, &pts[0][0],
                FORMS_INPUTS};
-    Runs r = run_model(&m);
-    Tally t = {"forms", NULL, 0, 0, 0};
+    E2eRuns r = e2e_run_model(&m);
+    E2eTally t = {"forms", NULL, 0, 0, 0};
     for (int k = 0; k < NP; k++) {
         double value, value_mag, want[FORMS_COUNT], mag[FORMS_COUNT];
         double tol[FORMS_COUNT];
@@ -1232,12 +1047,12 @@ START_TEST(statement_forms)
         for (int c = 0; c < r.n; c++) {
             t.cc = r.cc[c];
             t.point = k;
-            check_row(&t, &m, ROW(&m, r.rows[c], k), names, value,
+            check_row(&t, &m, E2E_ROW(&m, r.rows[c], k), names, value,
                       REL * value_mag, want, tol);
         }
     }
-    runs_free(&r);
-    tally_finish(&t);
+    e2e_runs_free(&r);
+    e2e_tally_finish(&t);
 }
 END_TEST
 
