@@ -7,7 +7,7 @@
 
 #include "clamp.c"
 #include "digamma.c"
-#include "logaddexp.c"
+#include "hypot_slope.c"
 #include "max2.c"
 #include "min2.c"
 #include "relu.c"
@@ -73,7 +73,7 @@ double apply_op(IrOp op, const double *v)
     case IR_RELU: return dvs_relu(a);
     case IR_SIGN: return dvs_sign(a);
     case IR_DIGAMMA: return dvs_digamma(a);
-    case IR_LOGADDEXP: return dvs_logaddexp(a, b);
+    case IR_HYPOTSLOPE: return dvs_hypot_slope(a, b);
     case IR_CONST:
     case IR_READ:
     case IR_INDEX:

@@ -304,14 +304,6 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
             emit_expr(e, s->expr, 0, -1);
         }
         break;
-    case SK_LSE:
-        emit_access(e, s->target, s->tuple);
-        buf_put(e->out, " = " DV_PREFIX "logaddexp(");
-        emit_access(e, s->target, s->tuple);
-        buf_put(e->out, ", ");
-        emit_expr(e, s->expr, 0, -1);
-        buf_put(e->out, ")");
-        break;
     case SK_MAX:
     case SK_MIN: {
         buf_put(e->out, "double " DV_PREFIX "next = ");
@@ -452,12 +444,6 @@ static void emit_helpers(const Ir *ir, const char *reached, Buf *c)
     for (int i = 0; i < ir->nodes.len; i++)
         if (reached[i])
             used[ir->nodes.items[i].op] = 1;
-    for (int i = 0; i < ir->reverse.len; i++)
-        if (ir->reverse.items[i].kind == SK_LSE)
-            used[IR_LOGADDEXP] = 1;
-    for (int i = 0; i < ir->forward.len; i++)
-        if (ir->forward.items[i].kind == SK_LSE)
-            used[IR_LOGADDEXP] = 1;
     for (int t = 0; t < runtime_text_count; t++)
         for (int op = 0; op < IR_OP_COUNT; op++)
             if (used[op] && ir_ops[op].kind == OPK_HELPER &&

@@ -252,16 +252,12 @@ static void run_stmt(Evaluation *ev, const IrStmt *s, const Plan *p)
         eval_nodes(ev, p);
         double e = ev->val[s->expr];
         double *t = &ev->data[s->target][offset(ev, s->target, s->tuple)];
-        double both[3] = {*t, e, 0};
         switch (s->kind) {
         case SK_SET:
             *t = e;
             break;
         case SK_ADD:
             *t += e;
-            break;
-        case SK_LSE:
-            *t = apply_op(IR_LOGADDEXP, both);
             break;
         case SK_MAX:
         case SK_MIN:
@@ -362,18 +358,6 @@ static Cplx ccbrt_(Cplx z)
     return cmake(cbrt(creal(z)), 0);
 }
 
-/* The same steps as runtime/logaddexp.c, choosing by real parts. */
-static Cplx clogaddexp_(Cplx a, Cplx b)
-{
-    if (isnan(creal(a)) || isnan(creal(b)))
-        return a + b;
-    Cplx hi = creal(a) >= creal(b) ? a : b;
-    Cplx lo = creal(a) >= creal(b) ? b : a;
-    if (isinf(creal(hi)) || isinf(creal(lo)))
-        return hi;
-    return hi + clog1p_(cexp(lo - hi));
-}
-
 /* Overflow-safe as runtime/sigmoid.c: exp only sees Re <= 0. */
 static Cplx csigmoid_(Cplx z)
 {
@@ -443,9 +427,9 @@ static Cplx capply(Evaluation *ev, IrOp op, const Cplx *z)
     case IR_ACOSH: return cacosh(a);
     case IR_ATANH: return catanh(a);
     case IR_HYPOT: return csqrt(a * a + b * b);
+    case IR_HYPOTSLOPE: return a / csqrt(a * a + b * b);
     case IR_SIGMOID: return csigmoid_(a);
     case IR_SOFTPLUS: return csoftplus_(a);
-    case IR_LOGADDEXP: return clogaddexp_(a, b);
     case IR_LT: case IR_LE: case IR_GT: case IR_GE: case IR_EQ: case IR_NE:
     case IR_AND: case IR_OR: case IR_NOT:
     case IR_FLOOR: case IR_CEIL: case IR_ROUND: case IR_TRUNC: case IR_SIGN:
@@ -497,9 +481,6 @@ static void crun_stmt(Evaluation *ev, const IrStmt *s, const Plan *p)
             break;
         case SK_ADD:
             *t += e;
-            break;
-        case SK_LSE:
-            *t = clogaddexp_(*t, e);
             break;
         case SK_MAX:
         case SK_MIN:

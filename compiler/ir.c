@@ -411,7 +411,7 @@ static void print_expr(const Ir *ir, NodeId id, FILE *out)
 
 static void print_list(const Ir *ir, const IrStmtList *list, FILE *out)
 {
-    static const char *kind_text[] = {"=", "+=", "max=", "min=", "lse="};
+    static const char *kind_text[] = {"=", "+=", "max=", "min="};
     for (int i = 0; i < list->len; i++) {
         const IrStmt *s = &list->items[i];
         fputs("  ", out);

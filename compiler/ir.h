@@ -84,6 +84,8 @@ typedef struct IrArray {
     uint8_t used;       /* some kept statement or the output reads it */
     uint8_t varied;     /* depends on a param (activity analysis) */
     uint8_t useful;     /* an output depends on it (activity analysis) */
+    uint8_t no_adjoint; /* the output does not depend on it, though it is
+                           computed from params (a logsumexp shift) */
 } IrArray;
 
 typedef struct IrIndexVar {
@@ -94,9 +96,9 @@ typedef struct IrIndexVar {
 typedef enum IrStmtKind {
     SK_SET,             /* t[I] = e */
     SK_ADD,             /* t[I] += e           (sum reductions, adjoints) */
-    SK_MAX,             /* if (e > t[I]) { t[I] = e; argpos[I] = point } */
-    SK_MIN,             /* if (e < t[I]) { t[I] = e; argpos[I] = point } */
-    SK_LSE              /* t[I] = logaddexp(t[I], e) */
+    SK_MAX,             /* if (e > t[I]) { t[I] = e; argpos[I] = point },
+                           argpos being optional */
+    SK_MIN              /* if (e < t[I]) { t[I] = e; argpos[I] = point } */
 } IrStmtKind;
 
 typedef struct IrStmt {

@@ -737,13 +737,56 @@ static IrStmt make_stmt(Resolver *r, IrStmtKind kind, int32_t target,
     return ir_stmt(r->ir, kind, target, tuple, domain, expr, r->stmt->span);
 }
 
-static const char *temp_name(Resolver *r, const char *what)
+/* The name of a temporary of reduction number n in this definition:
+ * dvs_y_sum for the first, dvs_y_sum2 for the second, ... */
+static const char *temp_name_n(Resolver *r, const char *what, int n)
 {
-    r->ntemps++;
-    if (r->ntemps == 1)
+    if (n == 1)
         return arena_printf(r->arena, DV_PREFIX "%s_%s", r->target_name, what);
     return arena_printf(r->arena, DV_PREFIX "%s_%s%d", r->target_name, what,
-                        r->ntemps);
+                        n);
+}
+
+static const char *temp_name(Resolver *r, const char *what)
+{
+    return temp_name_n(r, what, ++r->ntemps);
+}
+
+/* logsumexp(e) = m + log(sum(exp(e - m))) with m the largest e (0 when
+ * that is infinite, so all -inf gives -inf and +inf gives +inf).  The shift
+ * m gets no adjoint: the result does not depend on it, and without it the
+ * reverse sweep yields the softmax weight exp(e - m) / sum directly, to
+ * full relative accuracy whatever the size of the result. */
+static NodeId lower_logsumexp(Resolver *r, const AstExpr *e, NodeId body,
+                              int32_t tuple, int32_t domain, int rank,
+                              const int *dim)
+{
+    Ir *ir = r->ir;
+    int n = ++r->ntemps;
+    int32_t shift = ir_add_array(ir, temp_name_n(r, "shift", n), ROLE_TEMP,
+                                 rank, dim, e->span);
+    ir->arrays.items[shift].no_adjoint = 1;
+    NodeId m = ir_read(ir, shift, tuple);
+    ir_add_stmt(ir, &ir->forward, make_stmt(r, SK_SET, shift, tuple, tuple,
+                                            ir_const(ir, -HUGE_VAL)));
+    ir_add_stmt(ir, &ir->forward,
+                make_stmt(r, SK_MAX, shift, tuple, domain, body));
+    NodeId finite = ir_node(ir, IR_LT, ir_node(ir, IR_ABS, m, NO_NODE, NO_NODE),
+                            ir_const(ir, HUGE_VAL), NO_NODE);
+    ir_add_stmt(ir, &ir->forward,
+                make_stmt(r, SK_SET, shift, tuple, tuple,
+                          ir_node(ir, IR_SELECT, finite, m, ir_const(ir, 0))));
+    int32_t sum = ir_add_array(ir, temp_name_n(r, "expsum", n), ROLE_TEMP,
+                               rank, dim, e->span);
+    ir_add_stmt(ir, &ir->forward,
+                make_stmt(r, SK_SET, sum, tuple, tuple, ir_const(ir, 0)));
+    NodeId term = ir_node(ir, IR_EXP, ir_node(ir, IR_SUB, body, m, NO_NODE),
+                          NO_NODE, NO_NODE);
+    ir_add_stmt(ir, &ir->forward,
+                make_stmt(r, SK_ADD, sum, tuple, domain, term));
+    NodeId log_sum = ir_node(ir, IR_LOG, ir_read(ir, sum, tuple), NO_NODE,
+                             NO_NODE);
+    return ir_node(ir, IR_ADD, m, log_sum, NO_NODE);
 }
 
 /* Lower a reduction.  Its accumulator is indexed by the enclosing indices
@@ -754,9 +797,9 @@ static const char *temp_name(Resolver *r, const char *what)
 static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
                            int32_t direct_tuple, int *direct_used)
 {
-    static const double init[] = {0, -HUGE_VAL, HUGE_VAL, -HUGE_VAL};
-    static const IrStmtKind kinds[] = {SK_ADD, SK_MAX, SK_MIN, SK_LSE};
-    static const char *const what[] = {"sum", "max", "min", "lse"};
+    static const double init[] = {0, -HUGE_VAL, HUGE_VAL};
+    static const IrStmtKind kinds[] = {SK_ADD, SK_MAX, SK_MIN};
+    static const char *const what[] = {"sum", "max", "min"};
     int kind = reduction_kind(e->name);
     for (int i = 0; i < e->nbound; i++)
         VEC_PUSH(r->arena, r->scope, e->binder + i);
@@ -788,16 +831,18 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
     memcpy(dom + nouter, own, (size_t)nown * sizeof *dom);
     int32_t tuple = ir_tuple(r->ir, outer, nouter);
     int32_t domain = ir_tuple(r->ir, dom, nouter + nown);
+    int dim[IR_MAX_RANK];
+    for (int k = 0; k < nouter; k++)
+        dim[k] = r->ir->vars.items[outer[k]].extent;
+    if (!fits(r, nouter, dim, e->span, "this reduction's result"))
+        fail(r);
+    if (kind == 3)
+        return lower_logsumexp(r, e, body, tuple, domain, nouter, dim);
     int32_t acc;
     if (direct >= 0 && tuple == direct_tuple) {
         acc = direct;
         *direct_used = 1;
     } else {
-        int dim[IR_MAX_RANK];
-        for (int k = 0; k < nouter; k++)
-            dim[k] = r->ir->vars.items[outer[k]].extent;
-        if (!fits(r, nouter, dim, e->span, "this reduction's result"))
-            fail(r);
         acc = ir_add_array(r->ir, temp_name(r, what[kind]), ROLE_TEMP,
                            nouter, dim, e->span);
     }

@@ -3,9 +3,8 @@
  * For a forward statement  y[I] (op)= e  over domain D and each active
  * read a[J] in e, the sweep appends
  *     adj_a[J] += adj_y[I] * w      over D
- * where w is de/da[J] from the rules, times the reduction's own factor:
- * 1 for = and +=, the softmax weight exp(e - y) for logsumexp, and the
- * indicator of the winning point for max and min.  Statements are visited
+ * where w is de/da[J] from the rules, and for max and min only at the
+ * winning point.  Statements are visited
  * in reverse order, so every adjoint is complete before it is read. */
 #include "reverse.h"
 #include "names.h"
@@ -68,8 +67,9 @@ static void activity(Ir *ir)
     }
     for (int i = 0; i < ir->forward.len; i++) {
         const IrStmt *s = &ir->forward.items[i];
-        if (reads_varied(ir, s->expr))
-            ir->arrays.items[s->target].varied = 1;
+        IrArray *t = &ir->arrays.items[s->target];
+        if (!t->no_adjoint && reads_varied(ir, s->expr))
+            t->varied = 1;
     }
     for (int i = ir->forward.len - 1; i >= 0; i--) {
         const IrStmt *s = &ir->forward.items[i];
@@ -178,10 +178,6 @@ static void reverse_stmt(Reverse *rv, const IrStmt *s)
         return;     /* its adjoint is zero: nothing to propagate */
     NodeId seed = ir_read(ir, adj_y, s->tuple);
     NodeId y = ir_read(ir, s->target, s->tuple);
-    NodeId factor = ir_const(ir, 1);
-    if (s->kind == SK_LSE)
-        factor = ir_node(ir, IR_EXP, ir_node(ir, IR_SUB, s->expr, y, NO_NODE),
-                         NO_NODE, NO_NODE);
     NodeId winner = NO_NODE;
     if (s->kind == SK_MAX || s->kind == SK_MIN)
         winner = ir_node(ir, IR_EQ, flat_point(ir, s->reduced),
@@ -196,7 +192,9 @@ static void reverse_stmt(Reverse *rv, const IrStmt *s)
         NodeId d = rules_derivative(ir, &rv->memo, s->expr, leaf, self);
         if (d == NO_NODE)
             continue;
-        NodeId w = rules_mul(ir, rules_mul(ir, seed, factor), d);
+        NodeId w = rules_mul(ir, seed, d);
+        if (w == NO_NODE)
+            continue;   /* e.g. a - a under a selector: zero on every branch */
         if (winner != NO_NODE)
             w = ir_node(ir, IR_SELECT, winner, w, ir_const(ir, 0));
         const IrNode *rd = ir_at(ir, leaf);

@@ -160,10 +160,10 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
         return divide(ir, one, x);
     case IR_LOG1P:
         return divide(ir, one, rules_add(ir, one, x));
-    case IR_LOG2:
-        return divide(ir, one, rules_mul(ir, x, num(ir, log(2.0))));
+    case IR_LOG2:           /* (1/ln 2)/x: x * ln 2 would overflow */
+        return divide(ir, num(ir, 1 / log(2.0)), x);
     case IR_LOG10:
-        return divide(ir, one, rules_mul(ir, x, num(ir, log(10.0))));
+        return divide(ir, num(ir, 1 / log(10.0)), x);
     case IR_SIN:
         return op1(ir, IR_COS, x);
     case IR_COS:
@@ -199,8 +199,9 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
         return arg == 0 ? divide(ir, divide(ir, y, h), h)
                         : op1(ir, IR_NEG, divide(ir, divide(ir, x, h), h));
     }
-    case IR_HYPOT:
-        return divide(ir, arg == 0 ? x : y, value);
+    case IR_HYPOT:          /* a/h and b/h, exact also for tiny a and b */
+        return arg == 0 ? op2(ir, IR_HYPOTSLOPE, x, y)
+                        : op2(ir, IR_HYPOTSLOPE, y, x);
     case IR_ERF:            /* 2/sqrt(pi) exp(-x^2) */
         return rules_mul(ir, num(ir, 1.1283791670955126),
                          op1(ir, IR_EXP, op1(ir, IR_NEG, square(ir, x))));
@@ -225,7 +226,10 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
                                   op2(ir, IR_LE, x, z)), one, NO_NODE);
         if (arg == 1)
             return select(ir, op2(ir, IR_LT, x, y), one, NO_NODE);
-        return select(ir, op2(ir, IR_GT, x, z), one, NO_NODE);
+        /* hi is the value only when x is not below lo: clamp tests lo
+         * first, which matters when lo > hi */
+        return select(ir, op2(ir, IR_AND, op2(ir, IR_GE, x, y),
+                              op2(ir, IR_GT, x, z)), one, NO_NODE);
     case IR_SIGMOID:
         return rules_mul(ir, value, sub(ir, one, value));
     case IR_SOFTPLUS:
@@ -240,7 +244,7 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
         return NO_NODE;
     case IR_SELECT:         /* handled by rules_derivative */
     case IR_DIGAMMA:        /* second derivatives come later */
-    case IR_LOGADDEXP:      /* only in SK_LSE statements */
+    case IR_HYPOTSLOPE:
     case IR_LT: case IR_LE: case IR_GT: case IR_GE: case IR_EQ: case IR_NE:
     case IR_AND: case IR_OR: case IR_NOT:
     case IR_CONST: case IR_READ: case IR_INDEX: case IR_OP_COUNT:

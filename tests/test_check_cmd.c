@@ -16,18 +16,12 @@ static int run_check(const char *model, const char *at, const char *args,
                      char **out, char **err)
 {
     char *dir = tu_tmpdir();
-    char *m = tu_format("%s/m.dvs", dir), *p = tu_format("%s/p.at", dir);
-    tu_write(m, model);
+    tu_write_in(dir, "m.dvs", model);
     if (at)
-        tu_write(p, at);
-    char *cmd = tu_format("cd '%s' && '%s' check %s m.dvs", dir,
-                          tu_abs_dervish(), args);
-    int rc = tu_run(cmd, out, err);
+        tu_write_in(dir, "p.at", at);
+    int rc = tu_run_dervish(dir, out, err, "check %s m.dvs", args);
     tu_rmdir(dir);
     free(dir);
-    free(m);
-    free(p);
-    free(cmd);
     return rc;
 }
 
@@ -386,8 +380,7 @@ START_TEST(a_wrong_gradient_is_named_first)
 {
     const char *text = "param a, b, c\ny = a * sin(b) + c * c\noutput y\n";
     DvCompilation c;
-    DvOptions o = {NULL, stderr};
-    ck_assert_int_eq(dv_compile(&c, "w.dvs", text, strlen(text), &o), 0);
+    tu_compile(&c, "w.dvs", text);
     Ir *ir = c.ir;
     int32_t adj_a = ir->arrays.items[0].adjoint;
     int changed = 0;
@@ -400,13 +393,10 @@ START_TEST(a_wrong_gradient_is_named_first)
         }
     }
     ck_assert(changed);
-    char *dir = tu_tmpdir(), *path = tu_format("%s/report", dir);
-    FILE *f = fopen(path, "w+");
-    ck_assert_ptr_nonnull(f);
-    CheckOptions opt = {NULL, 3, 1e-6, f};
+    TuCapture report;
+    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report)};
     ck_assert_int_eq(check_run(&c, &opt), 1);
-    fclose(f);
-    char *out = tu_read(path);
+    char *out = tu_capture_close(&report);
     char *row = first_row(out), *last = last_line(out);
     ck_assert_msg(strncmp(row, "a ", 2) == 0 &&
                       strstr(row, "complex step") && strstr(row, "  MISMATCH"),
@@ -417,9 +407,6 @@ START_TEST(a_wrong_gradient_is_named_first)
     free(row);
     free(last);
     free(out);
-    tu_rmdir(dir);
-    free(dir);
-    free(path);
     dv_free(&c);
 }
 END_TEST
@@ -454,30 +441,20 @@ START_TEST(an_entry_without_numerical_derivative_is_unchecked)
 }
 END_TEST
 
-static Suite *check_suite(void)
-{
-    Suite *s = suite_create("check command");
-    TCase *tc = tcase_create("check");
-    tcase_set_timeout(tc, 60);
-    tcase_add_loop_test(tc, correct_models_pass, 0,
-                        (int)(sizeof good_models / sizeof good_models[0]));
-    tcase_add_test(tc, at_file_sets_the_point);
-    tcase_add_test(tc, missing_names_stay_random);
-    tcase_add_test(tc, at_file_errors_are_reported_in_place);
-    tcase_add_test(tc, numbers_need_a_name_and_must_be_finite);
-    tcase_add_test(tc, unreadable_at_file_is_status_3);
-    tcase_add_test(tc, seeds_are_reproducible);
-    tcase_add_test(tc, printed_values_reproduce_the_point);
-    tcase_add_test(tc, a_jump_is_a_mismatch);
-    tcase_add_test(tc, tolerance_is_honoured);
-    tcase_add_test(tc, a_wrong_gradient_is_named_first);
-    tcase_add_test(tc, a_value_that_is_not_finite_is_reported);
-    tcase_add_test(tc, an_entry_without_numerical_derivative_is_unchecked);
-    suite_add_tcase(s, tc);
-    return s;
-}
-
 int main(void)
 {
-    return tu_main(check_suite());
+    Suite *s = suite_create("check command");
+    TCase *tc = tu_case(s, "check", 60);
+    tcase_add_loop_test(tc, correct_models_pass, 0,
+                        (int)(sizeof good_models / sizeof good_models[0]));
+    TU_ADD_TESTS(tc,
+                 at_file_sets_the_point, missing_names_stay_random,
+                 at_file_errors_are_reported_in_place,
+                 numbers_need_a_name_and_must_be_finite,
+                 unreadable_at_file_is_status_3, seeds_are_reproducible,
+                 printed_values_reproduce_the_point, a_jump_is_a_mismatch,
+                 tolerance_is_honoured, a_wrong_gradient_is_named_first,
+                 a_value_that_is_not_finite_is_reported,
+                 an_entry_without_numerical_derivative_is_unchecked);
+    return tu_main(s);
 }

@@ -69,9 +69,8 @@ static Lexed lex_n(const char *text, size_t len)
     memcpy(copy, text, len);
     copy[len] = '\0';
     Source src = {"t.dvs", copy, len};
-    size_t dlen = 0, tlen = 0;
-    FILE *dout = open_memstream(&r.diag, &dlen);
-    FILE *tout = open_memstream(&r.tokens, &tlen);
+    TuCapture dcap, tcap;
+    FILE *dout = tu_capture_open(&dcap), *tout = tu_capture_open(&tcap);
     Diag diag;
     diag_init(&diag, &src, dout);
     Arena arena;
@@ -87,8 +86,8 @@ static Lexed lex_n(const char *text, size_t len)
         if (t.code == 0)
             break;
     }
-    fclose(tout);
-    fclose(dout);
+    r.tokens = tu_capture_close(&tcap);
+    r.diag = tu_capture_close(&dcap);
     r.errors = diag.errors;
     arena_free(&arena);
     free(copy);
@@ -113,6 +112,16 @@ static void check_tokens(const char *text, const char *expected)
     ck_assert_msg(strcmp(r.tokens, expected) == 0,
                   "input \"%s\"\n got: %s\nwant: %s", text, r.tokens, expected);
     ck_assert_str_eq(r.diag, "");
+    lexed_free(&r);
+}
+
+/* Assert the token stream of LEN bytes of TEXT, whose errors are checked
+ * elsewhere: lexing goes on after a bad byte or number. */
+static void check_tokens_after_errors(const char *text, size_t len,
+                                      const char *expected)
+{
+    Lexed r = lex_n(text, len);
+    ck_assert_str_eq(r.tokens, expected);
     lexed_free(&r);
 }
 
@@ -228,9 +237,7 @@ START_TEST(number_errors)
                "    x = 1e999\n"
                "        ^~~~~\n");
     /* the bad number is still a number token, so parsing can go on */
-    Lexed r = lex("1e+ 2");
-    ck_assert_str_eq(r.tokens, "num@0+3 num@4+1 nl@5+0 eof@5+0");
-    lexed_free(&r);
+    check_tokens_after_errors("1e+ 2", 5, "num@0+3 num@4+1 nl@5+0 eof@5+0");
 }
 END_TEST
 
@@ -362,9 +369,7 @@ START_TEST(bad_characters)
                "    y =  a\n"
                "        ^\n");
     /* the bad byte is skipped and lexing goes on */
-    Lexed r = lex("a @ b");
-    ck_assert_str_eq(r.tokens, "name@0+1 name@4+1 nl@5+0 eof@5+0");
-    lexed_free(&r);
+    check_tokens_after_errors("a @ b", 5, "name@0+1 name@4+1 nl@5+0 eof@5+0");
 }
 END_TEST
 
@@ -377,19 +382,17 @@ START_TEST(nul_byte_and_lone_carriage_return)
                "plain text\n"
                "    a = 1  + 2\n"
                "         ^\n");
-    Lexed r = lex_n(nul, sizeof nul - 1);
-    ck_assert_str_eq(r.tokens, "name@0+1 =@2+1 num@4+1 +@7+1 num@9+1 "
-                               "nl@10+1 eof@11+0");
-    lexed_free(&r);
+    check_tokens_after_errors(nul, sizeof nul - 1,
+                              "name@0+1 =@2+1 num@4+1 +@7+1 num@9+1 "
+                              "nl@10+1 eof@11+0");
     /* a lone carriage return is reported and still ends the line */
     check_diag("a\rb\n", 4, 1,
                "t.dvs:1:2: error: carriage return without a line feed: use "
                "\\n or \\r\\n line ends\n"
                "    a\n"
                "     ^\n");
-    r = lex("a\rb\n");
-    ck_assert_str_eq(r.tokens, "name@0+1 nl@1+1 name@2+1 nl@3+1 eof@4+0");
-    lexed_free(&r);
+    check_tokens_after_errors("a\rb\n", 4,
+                              "name@0+1 nl@1+1 name@2+1 nl@3+1 eof@4+0");
 }
 END_TEST
 
@@ -447,36 +450,22 @@ START_TEST(lines_and_columns_of_later_lines)
 }
 END_TEST
 
-static Suite *lexer_suite(void)
-{
-    Suite *s = suite_create("lexer");
-    TCase *tc = tcase_create("lexer");
-    tcase_add_test(tc, definition_tokens_and_spans);
-    tcase_add_test(tc, every_operator_and_punctuation);
-    tcase_add_test(tc, keywords_and_names);
-    tcase_add_test(tc, strings);
-    tcase_add_test(tc, numbers_are_exact_doubles);
-    tcase_add_test(tc, a_minus_sign_is_an_operator);
-    tcase_add_test(tc, number_errors);
-    tcase_add_test(tc, newline_ends_a_statement);
-    tcase_add_test(tc, newline_after_binary_operators_continues);
-    tcase_add_test(tc, newline_after_punctuation_continues);
-    tcase_add_test(tc, newline_inside_brackets_continues);
-    tcase_add_test(tc, blank_lines_give_one_newline);
-    tcase_add_test(tc, semicolon_separates_statements);
-    tcase_add_test(tc, end_of_input_ends_the_last_statement);
-    tcase_add_test(tc, comments);
-    tcase_add_test(tc, crlf_line_ends);
-    tcase_add_test(tc, bad_characters);
-    tcase_add_test(tc, nul_byte_and_lone_carriage_return);
-    tcase_add_test(tc, unclosed_bracket_reported_once_at_its_position);
-    tcase_add_test(tc, bracket_nesting_limit);
-    tcase_add_test(tc, lines_and_columns_of_later_lines);
-    suite_add_tcase(s, tc);
-    return s;
-}
-
 int main(void)
 {
-    return tu_main(lexer_suite());
+    Suite *s = suite_create("lexer");
+    TU_ADD_TESTS(tu_case(s, "lexer", 0),
+                 definition_tokens_and_spans, every_operator_and_punctuation,
+                 keywords_and_names, strings, numbers_are_exact_doubles,
+                 a_minus_sign_is_an_operator, number_errors,
+                 newline_ends_a_statement,
+                 newline_after_binary_operators_continues,
+                 newline_after_punctuation_continues,
+                 newline_inside_brackets_continues,
+                 blank_lines_give_one_newline, semicolon_separates_statements,
+                 end_of_input_ends_the_last_statement, comments,
+                 crlf_line_ends, bad_characters,
+                 nul_byte_and_lone_carriage_return,
+                 unclosed_bracket_reported_once_at_its_position,
+                 bracket_nesting_limit, lines_and_columns_of_later_lines);
+    return tu_main(s);
 }

@@ -22,12 +22,11 @@ static Parsed *parse(const char *text)
     p->src.path = "t.dvs";
     p->src.text = text;
     p->src.len = strlen(text);
-    size_t n = 0;
-    FILE *out = open_memstream(&p->diag, &n);
+    TuCapture cap;
     Diag diag;
-    diag_init(&diag, &p->src, out);
+    diag_init(&diag, &p->src, tu_capture_open(&cap));
     p->model = parse_model(&p->arena, &diag, &p->src);
-    fclose(out);
+    p->diag = tu_capture_close(&cap);
     p->errors = diag.errors;
     return p;
 }
@@ -150,15 +149,13 @@ static void print_stmt(FILE *f, const AstStmt *s)
 /* All statements of a parse, one per line. */
 static char *show_model(const Parsed *p)
 {
-    char *text = NULL;
-    size_t n = 0;
-    FILE *f = open_memstream(&text, &n);
+    TuCapture cap;
+    FILE *f = tu_capture_open(&cap);
     for (int i = 0; i < p->model->nstmts; i++) {
         print_stmt(f, p->model->stmts[i]);
         fputc('\n', f);
     }
-    fclose(f);
-    return text;
+    return tu_capture_close(&cap);
 }
 
 /* Parse "y = EXPR" and assert the printed tree of EXPR. */
@@ -634,38 +631,25 @@ START_TEST(parser_stack_limit_is_an_error_not_a_crash)
 }
 END_TEST
 
-static Suite *parser_suite(void)
-{
-    Suite *s = suite_create("parser");
-    TCase *tc = tcase_create("parser");
-    tcase_add_test(tc, power_binds_tighter_than_unary_minus);
-    tcase_add_test(tc, power_is_right_associative);
-    tcase_add_test(tc, arithmetic_is_left_associative);
-    tcase_add_test(tc, levels_of_precedence);
-    tcase_add_test(tc, logic_grouping);
-    tcase_add_test(tc, select_is_right_associative);
-    tcase_add_test(tc, calls_subscripts_and_reductions);
-    tcase_add_test(tc, numbers_in_expressions);
-    tcase_add_test(tc, statements_of_every_kind);
-    tcase_add_test(tc, statement_and_expression_spans);
-    tcase_add_test(tc, statement_continues_over_lines);
-    tcase_add_test(tc, missing_operand_messages);
-    tcase_add_test(tc, missing_operator_and_stray_token_messages);
-    tcase_add_test(tc, statement_level_messages);
-    tcase_add_test(tc, unclosed_bracket_is_one_error);
-    tcase_add_test(tc, bracket_left_open_runs_into_the_next_line);
-    tcase_add_test(tc, names_of_failed_statements_are_remembered);
-    tcase_add_test(tc, recovery_at_statement_boundaries);
-    tcase_add_test(tc, adjacent_bad_statements_are_each_reported);
-    tcase_add_test(tc, errors_stop_at_the_limit);
-    tcase_add_test(tc, deepest_tree_accepted);
-    tcase_add_test(tc, tree_over_the_limit_is_an_error);
-    tcase_add_test(tc, parser_stack_limit_is_an_error_not_a_crash);
-    suite_add_tcase(s, tc);
-    return s;
-}
-
 int main(void)
 {
-    return tu_main(parser_suite());
+    Suite *s = suite_create("parser");
+    TU_ADD_TESTS(tu_case(s, "parser", 0),
+                 power_binds_tighter_than_unary_minus,
+                 power_is_right_associative, arithmetic_is_left_associative,
+                 levels_of_precedence, logic_grouping,
+                 select_is_right_associative, calls_subscripts_and_reductions,
+                 numbers_in_expressions, statements_of_every_kind,
+                 statement_and_expression_spans,
+                 statement_continues_over_lines, missing_operand_messages,
+                 missing_operator_and_stray_token_messages,
+                 statement_level_messages, unclosed_bracket_is_one_error,
+                 bracket_left_open_runs_into_the_next_line,
+                 names_of_failed_statements_are_remembered,
+                 recovery_at_statement_boundaries,
+                 adjacent_bad_statements_are_each_reported,
+                 errors_stop_at_the_limit, deepest_tree_accepted,
+                 tree_over_the_limit_is_an_error,
+                 parser_stack_limit_is_an_error_not_a_crash);
+    return tu_main(s);
 }

@@ -25,14 +25,13 @@ static Resolved *resolve_named(const char *path, const char *text,
     r->src.path = path;
     r->src.text = text;
     r->src.len = strlen(text);
-    size_t n = 0;
-    FILE *out = open_memstream(&r->diag, &n);
+    TuCapture cap;
     Diag diag;
-    diag_init(&diag, &r->src, out);
+    diag_init(&diag, &r->src, tu_capture_open(&cap));
     AstModel *m = parse_model(&r->arena, &diag, &r->src);
     const char *stem = dv_stem(&r->arena, path);
     r->ir = resolve_model(&r->arena, &diag, &r->src, m, name, stem);
-    fclose(out);
+    r->diag = tu_capture_close(&cap);
     r->errors = diag.errors;
     r->warnings = diag.warnings;
     return r;
@@ -50,28 +49,30 @@ static void resolved_free(Resolved *r)
     free(r);
 }
 
-static char *ir_text(const Ir *ir)
+/* Assert the forward statements of IR: EXPECTED is ir_print's text
+ * without its "forward:" line. */
+static void check_ir(const Ir *ir, const char *expected)
 {
-    char *text = NULL;
-    size_t n = 0;
-    FILE *f = open_memstream(&text, &n);
-    ir_print(ir, f);
-    fclose(f);
-    return text;
-}
-
-/* Assert that TEXT resolves without diagnostics to the forward statements
- * EXPECTED (ir_print's form, without its "forward:" line). */
-static void check_forward(const char *text, const char *expected)
-{
-    Resolved *r = resolve(text);
-    ck_assert_msg(r->errors == 0 && r->warnings == 0, "%s", r->diag);
-    char *got = ir_text(r->ir);
-    char *want = tu_format("forward:\n%s", expected);
+    char *got = tu_ir_text(ir), *want = tu_format("forward:\n%s", expected);
     ck_assert_str_eq(got, want);
     free(want);
     free(got);
-    resolved_free(r);
+}
+
+/* Resolve TEXT and assert that it gives no diagnostics and the forward
+ * statements EXPECTED, as check_ir takes them; the caller frees the result. */
+static Resolved *resolve_forward(const char *text, const char *expected)
+{
+    Resolved *r = resolve(text);
+    ck_assert_msg(r->errors == 0 && r->warnings == 0 && r->diag[0] == '\0',
+                  "%s", r->diag);
+    check_ir(r->ir, expected);
+    return r;
+}
+
+static void check_forward(const char *text, const char *expected)
+{
+    resolved_free(resolve_forward(text, expected));
 }
 
 /* Assert the diagnostics of TEXT and its numbers of errors and warnings. */
@@ -83,15 +84,6 @@ static void check_diag(const char *text, int errors, int warnings,
     ck_assert_int_eq(r->errors, errors);
     ck_assert_int_eq(r->warnings, warnings);
     resolved_free(r);
-}
-
-static int32_t array_named(const Ir *ir, const char *name)
-{
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (strcmp(ir->arrays.items[i].name, name) == 0)
-            return i;
-    ck_abort_msg("no array %s", name);
-    return -1;
 }
 
 static int extent_of(const Ir *ir, const char *var)
@@ -107,22 +99,19 @@ static int extent_of(const Ir *ir, const char *var)
 
 START_TEST(reduction_becomes_init_and_accumulate)
 {
-    Resolved *r = resolve("input s[3]\n"
-                          "param W[2,3], b[2]\n"
-                          "z[j] = sum(i: W[j,i] * s[i]) + b[j]\n"
-                          "y = sum(j: z[j])\n"
-                          "output y\n");
-    ck_assert_str_eq(r->diag, "");
-    char *got = ir_text(r->ir);
-    ck_assert_str_eq(got, "forward:\n"
-                          "  dvs_z_sum[j] = 0\n"
-                          "  dvs_z_sum[j] += (W[j,i] * s[i])  over [j,i]\n"
-                          "  z[j] = (dvs_z_sum[j] + b[j])\n"
-                          "  y = 0\n"
-                          "  y += z[j]  over [j]\n");
-    free(got);
+    Resolved *r = resolve_forward("input s[3]\n"
+                                  "param W[2,3], b[2]\n"
+                                  "z[j] = sum(i: W[j,i] * s[i]) + b[j]\n"
+                                  "y = sum(j: z[j])\n"
+                                  "output y\n",
+                                  "  dvs_z_sum[j] = 0\n"
+                                  "  dvs_z_sum[j] += (W[j,i] * s[i])  "
+                                  "over [j,i]\n"
+                                  "  z[j] = (dvs_z_sum[j] + b[j])\n"
+                                  "  y = 0\n"
+                                  "  y += z[j]  over [j]\n");
     /* the accumulator is a temporary with the enclosing index's extent */
-    const IrArray *acc = &r->ir->arrays.items[array_named(r->ir, "dvs_z_sum")];
+    const IrArray *acc = tu_array(r->ir, "dvs_z_sum", TU_ANY_ROLE);
     ck_assert_int_eq(acc->role, ROLE_TEMP);
     ck_assert_int_eq(acc->rank, 1);
     ck_assert_int_eq(acc->dim[0], 2);
@@ -182,34 +171,42 @@ END_TEST
 
 START_TEST(max_min_and_logsumexp_reductions)
 {
-    Resolved *r = resolve("param x[4], c\n"
-                          "m = max(i: x[i])\n"
-                          "n = min(i: x[i] * c)\n"
-                          "l = logsumexp(i: x[i])\n"
-                          "y = m + n + l\n"
-                          "output y\n");
-    ck_assert_str_eq(r->diag, "");
-    char *got = ir_text(r->ir);
-    /* max starts at -inf and min at +inf; each keeps its winner's place */
-    ck_assert_str_eq(got, "forward:\n"
-                          "  m = -inf\n"
-                          "  dvs_m_at = 0\n"
-                          "  m max= x[i]  over [i]\n"
-                          "  n = inf\n"
-                          "  dvs_n_at = 0\n"
-                          "  n min= (x[i] * c)  over [i]\n"
-                          "  l = -inf\n"
-                          "  l lse= x[i]  over [i]\n"
-                          "  y = ((m + n) + l)\n");
-    free(got);
+    /* max starts at -inf and min at +inf; each keeps its winner's place.
+     * logsumexp is shift + log(sum(exp(x - shift))), the shift the largest
+     * term (0 when that is infinite), so no exp overflows */
+    Resolved *r = resolve_forward("param x[4], c\n"
+                                  "m = max(i: x[i])\n"
+                                  "n = min(i: x[i] * c)\n"
+                                  "l = logsumexp(i: x[i])\n"
+                                  "y = m + n + l\n"
+                                  "output y\n",
+                                  "  m = -inf\n"
+                                  "  dvs_m_at = 0\n"
+                                  "  m max= x[i]  over [i]\n"
+                                  "  n = inf\n"
+                                  "  dvs_n_at = 0\n"
+                                  "  n min= (x[i] * c)  over [i]\n"
+                                  "  dvs_l_shift = -inf\n"
+                                  "  dvs_l_shift max= x[i]  over [i]\n"
+                                  "  dvs_l_shift = ((fabs(dvs_l_shift) < inf) ? "
+                                  "dvs_l_shift : 0)\n"
+                                  "  dvs_l_expsum = 0\n"
+                                  "  dvs_l_expsum += exp((x[i] - dvs_l_shift))"
+                                  "  over [i]\n"
+                                  "  l = (dvs_l_shift + log(dvs_l_expsum))\n"
+                                  "  y = ((m + n) + l)\n");
     const IrStmt *mx = &r->ir->forward.items[2];
     ck_assert_int_eq(mx->kind, SK_MAX);
-    ck_assert_int_eq(mx->argpos, array_named(r->ir, "dvs_m_at"));
+    ck_assert_int_eq(mx->argpos, tu_array(r->ir, "dvs_m_at", TU_ANY_ROLE) -
+                                     r->ir->arrays.items);
     ck_assert_int_eq(r->ir->arrays.items[mx->argpos].role, ROLE_ARGPOS);
     ck_assert_int_eq(ir_tuple_len(r->ir, mx->reduced), 1);
     ck_assert_int_eq(r->ir->forward.items[5].kind, SK_MIN);
-    ck_assert_int_eq(r->ir->forward.items[7].kind, SK_LSE);
+    /* the shift gets no adjoint and its max keeps no winner */
+    ck_assert_int_eq(r->ir->forward.items[7].kind, SK_MAX);
     ck_assert_int_eq(r->ir->forward.items[7].argpos, -1);
+    ck_assert(tu_array(r->ir, "dvs_l_shift", TU_ANY_ROLE)->no_adjoint);
+    ck_assert(!tu_array(r->ir, "dvs_l_expsum", TU_ANY_ROLE)->no_adjoint);
     resolved_free(r);
 }
 END_TEST
@@ -232,25 +229,20 @@ END_TEST
 
 START_TEST(whole_array_form_gets_implicit_indices)
 {
-    Resolved *r = resolve("param A[2,3], B[2,3], c, z[4]\n"
-                          "H = A * B + c\n"
-                          "h = tanh(z)\n"
-                          "y = sum(i, j: H[i,j]) + sum(k: h[k])\n"
-                          "output y\n");
-    ck_assert_str_eq(r->diag, "");
-    char *got = ir_text(r->ir);
-    ck_assert_str_eq(got,
-                     "forward:\n"
-                     "  H[dvs_i0,dvs_i1] = ((A[dvs_i0,dvs_i1] * "
-                     "B[dvs_i0,dvs_i1]) + c)\n"
-                     "  h[dvs_i0] = tanh(z[dvs_i0])\n"
-                     "  dvs_y_sum = 0\n"
-                     "  dvs_y_sum += H[i,j]  over [i,j]\n"
-                     "  dvs_y_sum2 = 0\n"
-                     "  dvs_y_sum2 += h[k]  over [k]\n"
-                     "  y = (dvs_y_sum + dvs_y_sum2)\n");
-    free(got);
-    const IrArray *h = &r->ir->arrays.items[array_named(r->ir, "H")];
+    Resolved *r = resolve_forward("param A[2,3], B[2,3], c, z[4]\n"
+                                  "H = A * B + c\n"
+                                  "h = tanh(z)\n"
+                                  "y = sum(i, j: H[i,j]) + sum(k: h[k])\n"
+                                  "output y\n",
+                                  "  H[dvs_i0,dvs_i1] = ((A[dvs_i0,dvs_i1] * "
+                                  "B[dvs_i0,dvs_i1]) + c)\n"
+                                  "  h[dvs_i0] = tanh(z[dvs_i0])\n"
+                                  "  dvs_y_sum = 0\n"
+                                  "  dvs_y_sum += H[i,j]  over [i,j]\n"
+                                  "  dvs_y_sum2 = 0\n"
+                                  "  dvs_y_sum2 += h[k]  over [k]\n"
+                                  "  y = (dvs_y_sum + dvs_y_sum2)\n");
+    const IrArray *h = tu_array(r->ir, "H", TU_ANY_ROLE);
     ck_assert_int_eq(h->role, ROLE_VALUE);
     ck_assert_int_eq(h->rank, 2);
     ck_assert_int_eq(h->dim[0], 2);
@@ -295,23 +287,19 @@ START_TEST(constants_are_folded)
 {
     /* N + 1 = 7, 2 * 3 = 6, H = 6/4 + sqrt(16) = 5.5, -(2) = -2; the
      * power 2^3 is left to the C library like every builtin */
-    Resolved *r = resolve("param a\n"
-                          "const N = 2 * 3\n"
-                          "const H = N / 4 + sqrt(16)\n"
-                          "param W[N]\n"
-                          "y = a * (N + 1) - 2 * 3 + H + 2^3 + -(2) + "
-                          "sum(i: W[i])\n"
-                          "output y\n");
-    ck_assert_str_eq(r->diag, "");
-    char *got = ir_text(r->ir);
-    ck_assert_str_eq(got, "forward:\n"
-                          "  dvs_y_sum = 0\n"
-                          "  dvs_y_sum += W[i]  over [i]\n"
-                          "  y = ((((((a * 7) - 6) + 5.5) + pow(2, 3)) + -2) "
-                          "+ dvs_y_sum)\n");
-    free(got);
+    Resolved *r = resolve_forward("param a\n"
+                                  "const N = 2 * 3\n"
+                                  "const H = N / 4 + sqrt(16)\n"
+                                  "param W[N]\n"
+                                  "y = a * (N + 1) - 2 * 3 + H + 2^3 + -(2) + "
+                                  "sum(i: W[i])\n"
+                                  "output y\n",
+                                  "  dvs_y_sum = 0\n"
+                                  "  dvs_y_sum += W[i]  over [i]\n"
+                                  "  y = ((((((a * 7) - 6) + 5.5) + "
+                                  "pow(2, 3)) + -2) + dvs_y_sum)\n");
     /* an integer const works as an array size */
-    const IrArray *w = &r->ir->arrays.items[array_named(r->ir, "W")];
+    const IrArray *w = tu_array(r->ir, "W", TU_ANY_ROLE);
     ck_assert_int_eq(w->rank, 1);
     ck_assert_int_eq(w->dim[0], 6);
     resolved_free(r);
@@ -429,9 +417,7 @@ START_TEST(dead_definitions_are_pruned_with_a_warning)
                      "output; its gradient is always zero\n"
                      "    param a, b\n"
                      "             ^\n");
-    char *got = ir_text(r->ir);
-    ck_assert_str_eq(got, "forward:\n  y = (a * a)\n");
-    free(got);
+    check_ir(r->ir, "  y = (a * a)\n");
     resolved_free(r);
 }
 END_TEST
@@ -464,7 +450,7 @@ START_TEST(index_ranges_come_from_subscripts)
     ck_assert_int_eq(extent_of(r->ir, "j"), 2);
     ck_assert_int_eq(extent_of(r->ir, "i"), 5);
     ck_assert_int_eq(extent_of(r->ir, "k"), 2);
-    const IrArray *z = &r->ir->arrays.items[array_named(r->ir, "z")];
+    const IrArray *z = tu_array(r->ir, "z", TU_ANY_ROLE);
     ck_assert_int_eq(z->rank, 1);
     ck_assert_int_eq(z->dim[0], 2);
     resolved_free(r);
@@ -714,38 +700,27 @@ START_TEST(model_name_sources)
 }
 END_TEST
 
-static Suite *resolve_suite(void)
-{
-    Suite *s = suite_create("resolve");
-    TCase *tc = tcase_create("resolve");
-    tcase_add_test(tc, reduction_becomes_init_and_accumulate);
-    tcase_add_test(tc, whole_right_side_reduction_accumulates_into_the_target);
-    tcase_add_test(tc, reduction_without_outer_index_is_a_scalar);
-    tcase_add_test(tc, max_min_and_logsumexp_reductions);
-    tcase_add_test(tc, max_over_an_inner_index_keeps_the_outer_one);
-    tcase_add_test(tc, whole_array_form_gets_implicit_indices);
-    tcase_add_test(tc, whole_array_form_with_a_reduction_inside);
-    tcase_add_test(tc, mixed_shapes_are_an_error);
-    tcase_add_test(tc, constants_are_folded);
-    tcase_add_test(tc, constant_and_dimension_errors);
-    tcase_add_test(tc, same_subexpression_is_one_node);
-    tcase_add_test(tc, constructors_return_existing_nodes);
-    tcase_add_test(tc, dead_definitions_are_pruned_with_a_warning);
-    tcase_add_test(tc, output_without_params_is_a_warning);
-    tcase_add_test(tc, index_ranges_come_from_subscripts);
-    tcase_add_test(tc, disagreeing_ranges_show_both_positions);
-    tcase_add_test(tc, unbound_and_rangeless_indices);
-    tcase_add_test(tc, subscript_count_must_match_rank);
-    tcase_add_test(tc, reserved_and_repeated_names);
-    tcase_add_test(tc, names_used_wrongly);
-    tcase_add_test(tc, conditions_and_numbers_are_kept_apart);
-    tcase_add_test(tc, model_level_errors);
-    tcase_add_test(tc, model_name_sources);
-    suite_add_tcase(s, tc);
-    return s;
-}
-
 int main(void)
 {
-    return tu_main(resolve_suite());
+    Suite *s = suite_create("resolve");
+    TU_ADD_TESTS(tu_case(s, "resolve", 0),
+                 reduction_becomes_init_and_accumulate,
+                 whole_right_side_reduction_accumulates_into_the_target,
+                 reduction_without_outer_index_is_a_scalar,
+                 max_min_and_logsumexp_reductions,
+                 max_over_an_inner_index_keeps_the_outer_one,
+                 whole_array_form_gets_implicit_indices,
+                 whole_array_form_with_a_reduction_inside,
+                 mixed_shapes_are_an_error, constants_are_folded,
+                 constant_and_dimension_errors, same_subexpression_is_one_node,
+                 constructors_return_existing_nodes,
+                 dead_definitions_are_pruned_with_a_warning,
+                 output_without_params_is_a_warning,
+                 index_ranges_come_from_subscripts,
+                 disagreeing_ranges_show_both_positions,
+                 unbound_and_rangeless_indices,
+                 subscript_count_must_match_rank, reserved_and_repeated_names,
+                 names_used_wrongly, conditions_and_numbers_are_kept_apart,
+                 model_level_errors, model_name_sources);
+    return tu_main(s);
 }

@@ -9,10 +9,7 @@
 static DvCompilation *compile(const char *text)
 {
     DvCompilation *c = calloc(1, sizeof *c);
-    DvOptions opt = {NULL, NULL};
-    int rc = dv_compile(c, "t.dvs", text, strlen(text), &opt);
-    ck_assert_msg(rc == 0 && c->diag.errors == 0, "model has errors:\n%s",
-                  text);
+    tu_compile(c, "t.dvs", text);
     return c;
 }
 
@@ -25,35 +22,27 @@ static void compilation_free(DvCompilation *c)
 /* The reverse statements as ir_print shows them (after "reverse:"). */
 static char *reverse_text(const Ir *ir)
 {
-    char *text = NULL;
-    size_t n = 0;
-    FILE *f = open_memstream(&text, &n);
-    ir_print(ir, f);
-    fclose(f);
+    char *text = tu_ir_text(ir);
     char *rev = strstr(text, "reverse:\n");
     char *out = tu_format("%s", rev ? rev + strlen("reverse:\n") : "");
     free(text);
     return out;
 }
 
+/* Assert the reverse statements of a compilation. */
+static void check_sweep(const DvCompilation *c, const char *expected)
+{
+    char *got = reverse_text(c->ir);
+    ck_assert_msg(strcmp(got, expected) == 0, "%s\n got:\n%s\nwant:\n%s",
+                  c->src.text, got, expected);
+    free(got);
+}
+
 static void check_reverse(const char *model, const char *expected)
 {
     DvCompilation *c = compile(model);
-    char *got = reverse_text(c->ir);
-    ck_assert_msg(strcmp(got, expected) == 0, "%s\n got:\n%s\nwant:\n%s",
-                  model, got, expected);
-    free(got);
+    check_sweep(c, expected);
     compilation_free(c);
-}
-
-static const IrArray *array_named(const Ir *ir, const char *name, IrRole role)
-{
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (strcmp(ir->arrays.items[i].name, name) == 0 &&
-            ir->arrays.items[i].role == role)
-            return &ir->arrays.items[i];
-    ck_abort_msg("no array %s with role %d", name, (int)role);
-    return NULL;
 }
 
 /* ----------------------------------------------------------- activity */
@@ -69,10 +58,10 @@ START_TEST(only_active_arrays_get_adjoints)
                                "y = a * t + u\n"
                                "output y\n");
     const Ir *ir = c->ir;
-    const IrArray *t = array_named(ir, "t", ROLE_VALUE);
-    const IrArray *s = array_named(ir, "s", ROLE_INPUT);
-    const IrArray *u = array_named(ir, "u", ROLE_VALUE);
-    const IrArray *y = array_named(ir, "y", ROLE_VALUE);
+    const IrArray *t = tu_array(ir, "t", ROLE_VALUE);
+    const IrArray *s = tu_array(ir, "s", ROLE_INPUT);
+    const IrArray *u = tu_array(ir, "u", ROLE_VALUE);
+    const IrArray *y = tu_array(ir, "y", ROLE_VALUE);
     ck_assert(!t->varied && t->useful);
     ck_assert(!s->varied && s->useful);
     ck_assert(u->varied && u->useful);
@@ -85,15 +74,13 @@ START_TEST(only_active_arrays_get_adjoints)
     ck_assert_int_eq(adj_u->role, ROLE_ADJOINT);
     ck_assert_int_eq(adj_u->primal, (int)(u - ir->arrays.items));
     /* a param's adjoint keeps the param's name: it is a member of *grad */
-    const IrArray *w = array_named(ir, "w", ROLE_PARAM);
+    const IrArray *w = tu_array(ir, "w", ROLE_PARAM);
     ck_assert_str_eq(ir->arrays.items[w->adjoint].name, "w");
-    char *got = reverse_text(ir);
     /* d y/d a = t, d y/d u = 1, d u/d w[i] = s[i] */
-    ck_assert_str_eq(got, "  dvs_adj_y = 1\n"
-                          "  a = (dvs_adj_y * t)\n"
-                          "  dvs_adj_u = dvs_adj_y\n"
-                          "  w[i] = (dvs_adj_u * s[i])\n");
-    free(got);
+    check_sweep(c, "  dvs_adj_y = 1\n"
+                   "  a = (dvs_adj_y * t)\n"
+                   "  dvs_adj_u = dvs_adj_y\n"
+                   "  w[i] = (dvs_adj_u * s[i])\n");
     compilation_free(c);
 }
 END_TEST
@@ -114,13 +101,11 @@ START_TEST(sweep_runs_last_statement_first)
                                "b2 = cos(b1)\n"
                                "b3 = exp(b2)\n"
                                "output b3\n");
-    char *got = reverse_text(c->ir);
     /* exp' = exp (the stored b3), cos' = -sin, sin' = cos */
-    ck_assert_str_eq(got, "  dvs_adj_b3 = 1\n"
-                          "  dvs_adj_b2 = (dvs_adj_b3 * b3)\n"
-                          "  dvs_adj_b1 = (dvs_adj_b2 * (-sin(b1)))\n"
-                          "  a = (dvs_adj_b1 * cos(a))\n");
-    free(got);
+    check_sweep(c, "  dvs_adj_b3 = 1\n"
+                   "  dvs_adj_b2 = (dvs_adj_b3 * b3)\n"
+                   "  dvs_adj_b1 = (dvs_adj_b2 * (-sin(b1)))\n"
+                   "  a = (dvs_adj_b1 * cos(a))\n");
     /* each adjoint statement points back at its model line, last first;
      * the seed quotes the output statement */
     static const unsigned origin[] = {46, 33, 20, 8};
@@ -159,20 +144,18 @@ START_TEST(first_write_sets_when_each_element_is_covered_once)
                                "sum(i: x[i])\n"
                                "z = sum(j: y[j])\n"
                                "output z\n");
-    char *got = reverse_text(c->ir);
     /* x is first written by a statement over [i] alone: a plain set; the
      * second contribution, over [j,i], accumulates */
-    ck_assert_str_eq(got, "  dvs_adj_z = 1\n"
-                          "  dvs_adj_y[j] = dvs_adj_z\n"
-                          "  dvs_adj_y_sum[j] = dvs_adj_y[j]\n"
-                          "  dvs_adj_y_sum2 = 0\n"
-                          "  dvs_adj_y_sum2 += dvs_adj_y[j]  over [j]\n"
-                          "  x[i] = dvs_adj_y_sum2\n"
-                          "  W[j,i] = (dvs_adj_y_sum[j] * x[i])\n"
-                          "  x[i] += (dvs_adj_y_sum[j] * W[j,i])  over [j,i]\n");
-    free(got);
+    check_sweep(c, "  dvs_adj_z = 1\n"
+                   "  dvs_adj_y[j] = dvs_adj_z\n"
+                   "  dvs_adj_y_sum[j] = dvs_adj_y[j]\n"
+                   "  dvs_adj_y_sum2 = 0\n"
+                   "  dvs_adj_y_sum2 += dvs_adj_y[j]  over [j]\n"
+                   "  x[i] = dvs_adj_y_sum2\n"
+                   "  W[j,i] = (dvs_adj_y_sum[j] * x[i])\n"
+                   "  x[i] += (dvs_adj_y_sum[j] * W[j,i])  over [j,i]\n");
     /* the adjoint of a temporary is named after it without the prefix */
-    array_named(c->ir, "dvs_adj_y_sum", ROLE_ADJOINT);
+    tu_array(c->ir, "dvs_adj_y_sum", ROLE_ADJOINT);
     const IrStmt *st = c->ir->reverse.items;
     ck_assert_int_eq(st[3].kind, SK_SET);
     ck_assert_int_eq(st[4].kind, SK_ADD);
@@ -188,11 +171,9 @@ START_TEST(diagonal_write_zeroes_first)
      * gradient, then accumulate the diagonal */
     DvCompilation *c = compile("param W[3,3]\ny = sum(i: W[i,i])\n"
                                "output y\n");
-    char *got = reverse_text(c->ir);
-    ck_assert_str_eq(got, "  dvs_adj_y = 1\n"
-                          "  W[dvs_i0,dvs_i1] = 0\n"
-                          "  W[i,i] += dvs_adj_y\n");
-    free(got);
+    check_sweep(c, "  dvs_adj_y = 1\n"
+                   "  W[dvs_i0,dvs_i1] = 0\n"
+                   "  W[i,i] += dvs_adj_y\n");
     const IrStmt *zero = &c->ir->reverse.items[1];
     ck_assert_int_eq(zero->kind, SK_SET);
     ck_assert_int_eq(ir_tuple_len(c->ir, zero->domain), 2);
@@ -225,7 +206,8 @@ END_TEST
 START_TEST(max_and_logsumexp_adjoints)
 {
     /* max sends the adjoint to its first winner only; logsumexp's adjoint
-     * is the softmax weight exp(x[i] - l) */
+     * is the softmax weight exp(x[i] - shift) / expsum, and its shift gets
+     * no adjoint (the result does not depend on it) */
     check_reverse("param x[4], c\n"
                   "m = max(i: x[i] * c)\n"
                   "l = logsumexp(i: x[i])\n"
@@ -234,7 +216,8 @@ START_TEST(max_and_logsumexp_adjoints)
                   "  dvs_adj_y = 1\n"
                   "  dvs_adj_m = dvs_adj_y\n"
                   "  dvs_adj_l = dvs_adj_y\n"
-                  "  x[i] = (dvs_adj_l * exp((x[i] - l)))\n"
+                  "  dvs_adj_l_expsum = (dvs_adj_l * (1 / dvs_l_expsum))\n"
+                  "  x[i] = (dvs_adj_l_expsum * exp((x[i] - dvs_l_shift)))\n"
                   "  x[i] += ((#i == dvs_m_at) ? (dvs_adj_m * c) : 0)\n"
                   "  c = 0\n"
                   "  c += ((#i == dvs_m_at) ? (dvs_adj_m * x[i]) : 0)  "
@@ -247,12 +230,10 @@ END_TEST
 START_TEST(unaffected_params_are_zeroed)
 {
     DvCompilation *c = compile("param a, b, c[2]\ny = a * a\noutput y\n");
-    char *got = reverse_text(c->ir);
-    ck_assert_str_eq(got, "  dvs_adj_y = 1\n"
-                          "  a = (dvs_adj_y * (a + a))\n"
-                          "  b = 0\n"
-                          "  c[dvs_i0] = 0\n");
-    free(got);
+    check_sweep(c, "  dvs_adj_y = 1\n"
+                   "  a = (dvs_adj_y * (a + a))\n"
+                   "  b = 0\n"
+                   "  c[dvs_i0] = 0\n");
     /* the zeroing statements say why in the emitted comment */
     ck_assert_ptr_null(c->ir->reverse.items[1].note);
     ck_assert_str_eq(c->ir->reverse.items[2].note,
@@ -272,11 +253,9 @@ START_TEST(unread_adjoints_are_dropped)
                                "r = floor(q)\n"
                                "y = r * a\n"
                                "output y\n");
-    char *got = reverse_text(c->ir);
-    ck_assert_str_eq(got, "  dvs_adj_y = 1\n"
-                          "  a = (dvs_adj_y * r)\n"
-                          "  b = 0\n");
-    free(got);
+    check_sweep(c, "  dvs_adj_y = 1\n"
+                   "  a = (dvs_adj_y * r)\n"
+                   "  b = 0\n");
     for (int i = 0; i < c->ir->reverse.len; i++) {
         const IrArray *t = &c->ir->arrays.items[c->ir->reverse.items[i].target];
         ck_assert_str_ne(t->name, "dvs_adj_r");
@@ -313,27 +292,19 @@ START_TEST(pass_can_run_twice_in_one_process)
 }
 END_TEST
 
-static Suite *reverse_suite(void)
-{
-    Suite *s = suite_create("reverse");
-    TCase *tc = tcase_create("reverse");
-    tcase_add_test(tc, only_active_arrays_get_adjoints);
-    tcase_add_test(tc, output_without_params_seeds_nothing);
-    tcase_add_test(tc, sweep_runs_last_statement_first);
-    tcase_add_test(tc, matrix_product_gives_outer_and_transposed_products);
-    tcase_add_test(tc, first_write_sets_when_each_element_is_covered_once);
-    tcase_add_test(tc, diagonal_write_zeroes_first);
-    tcase_add_test(tc, broadcast_scalar_accumulates);
-    tcase_add_test(tc, max_and_logsumexp_adjoints);
-    tcase_add_test(tc, unaffected_params_are_zeroed);
-    tcase_add_test(tc, unread_adjoints_are_dropped);
-    tcase_add_test(tc, select_sends_the_adjoint_to_the_branch_taken);
-    tcase_add_test(tc, pass_can_run_twice_in_one_process);
-    suite_add_tcase(s, tc);
-    return s;
-}
-
 int main(void)
 {
-    return tu_main(reverse_suite());
+    Suite *s = suite_create("reverse");
+    TU_ADD_TESTS(tu_case(s, "reverse", 0),
+                 only_active_arrays_get_adjoints,
+                 output_without_params_seeds_nothing,
+                 sweep_runs_last_statement_first,
+                 matrix_product_gives_outer_and_transposed_products,
+                 first_write_sets_when_each_element_is_covered_once,
+                 diagonal_write_zeroes_first, broadcast_scalar_accumulates,
+                 max_and_logsumexp_adjoints, unaffected_params_are_zeroed,
+                 unread_adjoints_are_dropped,
+                 select_sends_the_adjoint_to_the_branch_taken,
+                 pass_can_run_twice_in_one_process);
+    return tu_main(s);
 }

@@ -1,7 +1,7 @@
-/* testutil.h - shared helpers for the Check test programs: temporary
- * directories, files, running the dervish binary and C compilers, and
- * building emitted code with a driver.  Header-only (static functions) so
- * each test program stays one file. */
+/* testutil.h - shared helpers for the Check test programs: strings,
+ * temporary files, running the dervish binary and C compilers, the compiler
+ * as a library (compiling, capturing printed text, finding arrays) and the
+ * suite boilerplate.  Header-only (static inline): each test is one file. */
 #ifndef DERVISH_TESTUTIL_H
 #define DERVISH_TESTUTIL_H
 
@@ -14,6 +14,8 @@
 #include <sys/wait.h>
 #include <unistd.h>
 
+#include "dervish.h"
+
 /* The dervish binary under test: $DERVISH, else build/dervish. */
 static inline const char *tu_dervish(void)
 {
@@ -21,17 +23,25 @@ static inline const char *tu_dervish(void)
     return d && *d ? d : "build/dervish";
 }
 
+/* vprintf into a malloc'd string. */
+static inline char *tu_vformat(const char *fmt, va_list ap)
+{
+    va_list again;
+    va_copy(again, ap);
+    int n = vsnprintf(NULL, 0, fmt, again);
+    va_end(again);
+    char *s = malloc((size_t)n + 1);
+    ck_assert_ptr_nonnull(s);
+    vsnprintf(s, (size_t)n + 1, fmt, ap);
+    return s;
+}
+
 /* printf into a malloc'd string. */
 static inline char *tu_format(const char *fmt, ...)
 {
     va_list ap;
     va_start(ap, fmt);
-    int n = vsnprintf(NULL, 0, fmt, ap);
-    va_end(ap);
-    char *s = malloc((size_t)n + 1);
-    ck_assert_ptr_nonnull(s);
-    va_start(ap, fmt);
-    vsnprintf(s, (size_t)n + 1, fmt, ap);
+    char *s = tu_vformat(fmt, ap);
     va_end(ap);
     return s;
 }
@@ -62,6 +72,15 @@ static inline void tu_write(const char *path, const char *text)
     fclose(f);
 }
 
+/* Write TEXT to the file NAME in directory DIR. */
+static inline void tu_write_in(const char *dir, const char *name,
+                               const char *text)
+{
+    char *path = tu_format("%s/%s", dir, name);
+    tu_write(path, text);
+    free(path);
+}
+
 /* The whole file, or NULL if it does not exist. */
 static inline char *tu_read(const char *path)
 {
@@ -79,6 +98,15 @@ static inline char *tu_read(const char *path)
     s[n] = '\0';
     fclose(f);
     return s;
+}
+
+/* The file NAME in directory DIR, as tu_read gives it. */
+static inline char *tu_read_in(const char *dir, const char *name)
+{
+    char *path = tu_format("%s/%s", dir, name);
+    char *text = tu_read(path);
+    free(path);
+    return text;
 }
 
 static inline int tu_exists(const char *path)
@@ -152,18 +180,32 @@ static inline const char *tu_abs_dervish(void)
     return path;
 }
 
+/* Run dervish with the arguments printf would make of FMT, in directory
+ * DIR (NULL: the current one), capturing as tu_run does. */
+static inline int tu_run_dervish(const char *dir, char **out, char **err,
+                                 const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    char *args = tu_vformat(fmt, ap);
+    va_end(ap);
+    char *cmd = tu_format("cd '%s' && '%s' %s", dir ? dir : ".",
+                          tu_abs_dervish(), args);
+    int rc = tu_run(cmd, out, err);
+    free(cmd);
+    free(args);
+    return rc;
+}
+
 /* Write MODEL to DIR/NAME.dvs and run dervish build on it there.  Returns
  * dervish's exit status; stderr goes to *err if err is not NULL. */
 static inline int tu_build_model(const char *dir, const char *name,
                                  const char *model, char **err)
 {
-    char *path = tu_format("%s/%s.dvs", dir, name);
-    tu_write(path, model);
-    char *cmd = tu_format("cd '%s' && '%s' build %s.dvs", dir,
-                          tu_abs_dervish(), name);
-    int rc = tu_run(cmd, NULL, err);
-    free(path);
-    free(cmd);
+    char *file = tu_format("%s.dvs", name);
+    tu_write_in(dir, file, model);
+    int rc = tu_run_dervish(dir, NULL, err, "build %s", file);
+    free(file);
     return rc;
 }
 
@@ -188,6 +230,93 @@ static inline char *tu_compile_and_run(const char *dir, const char *name,
     free(cmd);
     return out;
 }
+
+/* ------------------------------------------- the compiler as a library */
+
+/* Text printed to a FILE, collected in memory: tu_capture_open gives the
+ * FILE, tu_capture_close closes it and returns the text (malloc'd). */
+typedef struct TuCapture {
+    char *text;
+    size_t len;
+    FILE *f;
+} TuCapture;
+
+static inline FILE *tu_capture_open(TuCapture *cap)
+{
+    cap->text = NULL;
+    cap->len = 0;
+    cap->f = open_memstream(&cap->text, &cap->len);
+    ck_assert_ptr_nonnull(cap->f);
+    return cap->f;
+}
+
+static inline char *tu_capture_close(TuCapture *cap)
+{
+    fclose(cap->f);
+    return cap->text;
+}
+
+/* Compile model TEXT, read as the file PATH, into *c (release it with
+ * dv_free).  Fails the test, quoting the diagnostics, on a model error. */
+static inline void tu_compile(DvCompilation *c, const char *path,
+                              const char *text)
+{
+    TuCapture cap;
+    DvOptions opt = {NULL, tu_capture_open(&cap)};
+    int rc = dv_compile(c, path, text, strlen(text), &opt);
+    char *diag = tu_capture_close(&cap);
+    c->diag.out = NULL;     /* the capture is closed: say nothing more */
+    ck_assert_msg(rc == 0 && c->diag.errors == 0, "model has errors:\n%s\n%s",
+                  text, diag);
+    free(diag);
+}
+
+/* The IR as ir_print writes it (malloc'd). */
+static inline char *tu_ir_text(const Ir *ir)
+{
+    TuCapture cap;
+    ir_print(ir, tu_capture_open(&cap));
+    return tu_capture_close(&cap);
+}
+
+/* The array named NAME with role ROLE (TU_ANY_ROLE: the first of any role);
+ * fails the test when there is none. */
+#define TU_ANY_ROLE (-1)
+
+static inline const IrArray *tu_array(const Ir *ir, const char *name, int role)
+{
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (strcmp(a->name, name) == 0 && (role < 0 || (int)a->role == role))
+            return a;
+    }
+    ck_abort_msg("no array %s with role %d (%d: any)", name, role,
+                 TU_ANY_ROLE);
+    return NULL;
+}
+
+/* ------------------------------------------------------ suite boilerplate */
+
+/* A new test case NAME in suite S, with a timeout in seconds (0 keeps
+ * Check's default). */
+static inline TCase *tu_case(Suite *s, const char *name, double timeout)
+{
+    TCase *tc = tcase_create(name);
+    if (timeout > 0)
+        tcase_set_timeout(tc, timeout);
+    suite_add_tcase(s, tc);
+    return tc;
+}
+
+/* Add the tests listed (START_TEST names) to test case TC, in order. */
+#define TU_ADD_TESTS(tc, ...)                                                  \
+    do {                                                                       \
+        TCase *tu_tc_ = (tc);                                                  \
+        const TTest *const tu_tests_[] = {__VA_ARGS__};                        \
+        for (size_t tu_k_ = 0;                                                 \
+             tu_k_ < sizeof tu_tests_ / sizeof tu_tests_[0]; tu_k_++)          \
+            tcase_add_test(tu_tc_, tu_tests_[tu_k_]);                          \
+    } while (0)
 
 /* Run every test of suite s; the exit status is non-zero on a failure. */
 static inline int tu_main(Suite *s)
