@@ -77,6 +77,7 @@ double apply_op(IrOp op, const double *v)
     case IR_CONST:
     case IR_READ:
     case IR_INDEX:
+    case IR_SIZE:
     case IR_OP_COUNT:
         break;
     }

@@ -50,6 +50,7 @@ typedef enum AstStmtKind {
     STMT_CONST,     /* const NAME = EXPR */
     STMT_INPUT,     /* input decls */
     STMT_PARAM,     /* param decls */
+    STMT_SIZE,      /* size NAME, ... */
     STMT_DEFINE,    /* NAME = EXPR or NAME[i, ...] = EXPR */
     STMT_OUTPUT     /* output NAME, ... */
 } AstStmtKind;
@@ -72,7 +73,7 @@ typedef struct AstStmt {
     int nindex;         /* 0 for the scalar and whole-array forms */
     AstDecl *decls;     /* INPUT, PARAM */
     int ndecls;
-    AstExpr **names;    /* OUTPUT: the names listed (NAMEs) */
+    AstExpr **names;    /* OUTPUT, SIZE: the names listed (NAMEs) */
     int nnames;
 } AstStmt;
 

@@ -38,6 +38,7 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->src.text = copy;
     c->src.len = len;
     diag_init(&c->diag, &c->src, opt->diag_out);
+    c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
 
     c->ast = parse_model(&c->arena, &c->diag, &c->src);
     Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, c->ast, opt->name,
@@ -59,6 +60,7 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.header_name = header_name;
     o.source_name = source_name;
     o.version = DERVISH_VERSION;
+    o.stack_limit = c->stack_limit;
     emit_c(c->ir, &o, c_out, h_out);
 }
 

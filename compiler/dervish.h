@@ -9,9 +9,14 @@
 #include "diag.h"
 #include "ir.h"
 
+/* Default of DvOptions.stack_limit: local arrays of the emitted code hold
+ * at most this many doubles (32 KiB); larger ones live in work. */
+#define DV_STACK_LIMIT 4096
+
 typedef struct DvOptions {
     const char *name;       /* --name: symbol prefix, or NULL */
     FILE *diag_out;         /* where diagnostics go; NULL: nowhere */
+    long stack_limit;       /* --stack-limit; 0 means DV_STACK_LIMIT */
 } DvOptions;
 
 typedef struct DvCompilation {
@@ -20,6 +25,7 @@ typedef struct DvCompilation {
     Diag diag;
     AstModel *ast;
     Ir *ir;                 /* after the reverse pass; NULL on errors */
+    long stack_limit;       /* for the emitter */
 } DvCompilation;
 
 /* Compile model text (len bytes; a copy is taken) read from PATH.

@@ -7,6 +7,7 @@
  * names, under a comment quoting the model line it comes from.  Locals are
  * declared where first written. */
 #include "emit_c.h"
+#include "emit_layout.h"
 #include "names.h"
 #include "runtime_text.h"
 
@@ -26,6 +27,13 @@ typedef struct Emitter {
     char *argpos_read;  /* per array: a reverse statement reads it */
     int uses_p, uses_in;
     uint32_t last_origin;
+    Storage storage;    /* which arrays live in work */
+    /* shared subexpressions of the statement being emitted */
+    int *seen;          /* per node: the statement count when last seen */
+    int *uses;          /* per node: parent edges within the statement */
+    int *temp;          /* per node: its temporary's number, or 0 */
+    int stamp;          /* statements emitted so far */
+    int ntemps;         /* temporaries named so far in the function */
 } Emitter;
 
 /* ------------------------------------------------------------ helpers */
@@ -146,14 +154,33 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     buf_put(e->out, a->name);
     int n = ir_tuple_len(e->ir, tuple);
     const int32_t *v = ir_tuple_vars(e->ir, tuple);
-    for (int k = 0; k < n; k++)
-        buf_printf(e->out, "[%s]", e->ir->vars.items[v[k]].name);
+    if (ir_array_fixed(a) && e->storage.slot[array] < 0) {
+        for (int k = 0; k < n; k++)
+            buf_printf(e->out, "[%s]", e->ir->vars.items[v[k]].name);
+        return;
+    }
+    /* a flat array (sized input, or kept in work): row-major position in
+     * Horner form, [(i * D1 + j) * D2 + k] */
+    buf_put(e->out, "[");
+    for (int k = 2; k < n; k++)
+        buf_put(e->out, "(");
+    for (int k = 0; k < n; k++) {
+        if (k)
+            buf_printf(e->out, "%s * %s + ", k > 1 ? ")" : "",
+                       layout_extent(e->ir, a->dim[k]));
+        buf_put(e->out, e->ir->vars.items[v[k]].name);
+    }
+    buf_put(e->out, "]");
 }
 
 static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
 {
     const Ir *ir = e->ir;
     const IrNode *n = ir_at(ir, id);
+    if (e->seen[id] == e->stamp && e->temp[id] > 0) {
+        buf_printf(e->out, DV_PREFIX "t%d", e->temp[id]);
+        return;
+    }
     const IrOpInfo *info = &ir_ops[n->op];
     int p = precedence(ir, id);
     /* && inside || gets parentheses, as readers (and -Wparentheses) like */
@@ -168,6 +195,10 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             buf_put(e->out, s);
         } else if (n->op == IR_READ) {
             emit_access(e, n->array, n->tuple);
+        } else if (n->op == IR_SIZE) {
+            buf_printf(e->out, "(double)" DV_PREFIX "in->%s",
+                       ir->sizes.items[n->var].name);
+            e->uses_in = 1;
         } else {
             buf_put(e->out, ir->vars.items[n->var].name);
         }
@@ -217,6 +248,60 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
 
 /* --------------------------------------------------------- statements */
 
+/* Count, for the statement being emitted, how many parent edges reach
+ * each node of its expression. */
+static void count_uses(Emitter *e, NodeId id)
+{
+    if (e->seen[id] == e->stamp) {
+        e->uses[id]++;
+        return;
+    }
+    e->seen[id] = e->stamp;
+    e->uses[id] = 1;
+    e->temp[id] = 0;
+    const IrNode *n = ir_at(e->ir, id);
+    for (int i = 0; i < n->nargs; i++)
+        count_uses(e, n->arg[i]);
+}
+
+/* A subexpression used more than once in a statement is computed once,
+ * into a temporary declared before the statement (operands first), so the
+ * emitted text stays linear in the size of the expression DAG.  Returns
+ * how many were written; *done marks the nodes already visited. */
+static int hoist(Emitter *e, NodeId id, char *done, int depth)
+{
+    if (done[id])
+        return 0;
+    done[id] = 1;
+    const IrNode *n = ir_at(e->ir, id);
+    int written = 0;
+    for (int i = 0; i < n->nargs; i++)
+        written += hoist(e, n->arg[i], done, depth);
+    if (e->uses[id] < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
+        return written;
+    indent(e, depth);
+    buf_printf(e->out, "double " DV_PREFIX "t%d = ", e->ntemps + 1);
+    emit_expr(e, id, 0, -1);
+    buf_put(e->out, ";\n");
+    e->temp[id] = ++e->ntemps;
+    return written + 1;
+}
+
+/* Whether the statement has a subexpression worth a temporary. */
+static int has_shared(const Emitter *e, NodeId id, char *done)
+{
+    if (done[id])
+        return 0;
+    done[id] = 1;
+    const IrNode *n = ir_at(e->ir, id);
+    if (e->uses[id] >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
+        return 1;
+    for (int i = 0; i < n->nargs; i++)
+        if (has_shared(e, n->arg[i], done))
+            return 1;
+    return 0;
+}
+
 static int is_external(const IrArray *a, const Ir *ir)
 {
     if (a->role == ROLE_PARAM || a->role == ROLE_INPUT)
@@ -261,6 +346,10 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         e->declared[s->target] = 1;
         if (t->rank == 0 && s->kind == SK_SET) {
             scalar_init = 1;
+        } else if (e->storage.slot[s->target] >= 0) {
+            buf_printf(e->out, "    double *%s = " DV_PREFIX "work + "
+                       DV_PREFIX "at[%d];\n", t->name,
+                       e->storage.slot[s->target]);
         } else {
             buf_printf(e->out, "    %s %s", c_type(t), t->name);
             for (int k = 0; k < t->rank; k++)
@@ -269,18 +358,35 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         }
     }
 
-    /* max and min need a block for the comparison; their loops get
-     * braces so the block reads as the loop body */
-    int block = s->kind == SK_MAX || s->kind == SK_MIN;
-    int depth = 1;
+    /* max and min need a block for the comparison, and shared
+     * subexpressions one for their temporaries; the loops then get braces
+     * so the block reads as the loop body */
+    e->stamp++;
+    count_uses(e, s->expr);
+    char *done = calloc((size_t)ir->nodes.len + 1, 1);
+    if (!done)
+        exit(3);
+    int shared = has_shared(e, s->expr, done);
     int n = ir_tuple_len(ir, s->domain);
+    /* outside loops the temporaries simply precede the statement (their
+     * names are unique in the function) */
+    int block = s->kind == SK_MAX || s->kind == SK_MIN || (shared && n > 0);
+    int depth = 1;
     const int32_t *v = ir_tuple_vars(ir, s->domain);
     for (int k = 0; k < n; k++, depth++) {
         const IrIndexVar *iv = &ir->vars.items[v[k]];
         indent(e, depth);
-        buf_printf(e->out, "for (int %s = 0; %s < %d; %s++)%s\n", iv->name,
-                   iv->name, iv->extent, iv->name, block ? " {" : "");
+        int sized = IR_EXTENT_IS_SIZE(iv->extent);
+        buf_printf(e->out, "for (%s %s = 0; %s < %s; %s++)%s\n",
+                   sized ? "long" : "int", iv->name, iv->name,
+                   layout_extent(ir, iv->extent), iv->name, block ? " {" : "");
+        e->uses_in |= sized;
     }
+    if (shared) {
+        memset(done, 0, (size_t)ir->nodes.len + 1);
+        hoist(e, s->expr, done, depth);
+    }
+    free(done);
     indent(e, depth);
     const IrNode *x = ir_at(ir, s->expr);
     switch (s->kind) {
@@ -332,28 +438,31 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
                 buf_put(e->out, "(long)");
             for (int k = 0; k < nr; k++) {
                 if (k)
-                    buf_printf(e->out, "%s * %d + ", k > 1 ? ")" : "",
-                               ir->vars.items[rv[k]].extent);
+                    buf_printf(e->out, "%s * %s + ", k > 1 ? ")" : "",
+                               layout_extent(ir, ir->vars.items[rv[k]].extent));
                 buf_put(e->out, ir->vars.items[rv[k]].name);
             }
             buf_put(e->out, ";\n");
         }
         indent(e, depth);
         buf_put(e->out, "}\n");
-        while (--depth > 0) {
-            indent(e, depth);
-            buf_put(e->out, "}\n");
-        }
-        return;
+        break;
     }
     }
-    buf_put(e->out, ";\n");
+    if (s->kind != SK_MAX && s->kind != SK_MIN)
+        buf_put(e->out, ";\n");
+    while (block && --depth > 0) {
+        indent(e, depth);
+        buf_put(e->out, "}\n");
+    }
 }
 
 /* ------------------------------------------------------------- files */
 
 static int has_inputs(const Ir *ir)
 {
+    if (ir->sizes.len > 0)
+        return 1;
     for (int i = 0; i < ir->arrays.len; i++)
         if (ir->arrays.items[i].role == ROLE_INPUT)
             return 1;
@@ -369,18 +478,43 @@ static long param_count(const Ir *ir)
     return n;
 }
 
+/* One struct member: a fixed array, a pointer to a sized input (row-major,
+ * the caller's), or a size. */
+static void emit_member(Buf *h, const Ir *ir, const IrArray *a)
+{
+    if (!ir_array_fixed(a)) {
+        buf_printf(h, "    const double *%s;   /* [", a->name);
+        for (int k = 0; k < a->rank; k++)
+            buf_printf(h, "%s%s", k ? "][" : "",
+                       IR_EXTENT_IS_SIZE(a->dim[k])
+                           ? ir->sizes.items[IR_EXTENT_SIZE(a->dim[k])].name
+                           : arena_printf(ir->arena, "%d", a->dim[k]));
+        buf_put(h, "], row-major */\n");
+        return;
+    }
+    buf_printf(h, "    double %s", a->name);
+    for (int k = 0; k < a->rank; k++)
+        buf_printf(h, "[%d]", a->dim[k]);
+    buf_put(h, ";\n");
+}
+
+/* The members of ROLE in declaration order; for inputs the sizes too, in
+ * the order the model declares them among the inputs. */
 static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
                         const char *what)
 {
     buf_printf(h, "/* %s */\ntypedef struct %s {\n", what, type);
-    for (int i = 0; i < ir->arrays.len; i++) {
-        const IrArray *a = &ir->arrays.items[i];
-        if (a->role != role)
+    int next_size = 0;
+    for (int i = 0; i <= ir->arrays.len; i++) {
+        const IrArray *a = i < ir->arrays.len ? &ir->arrays.items[i] : NULL;
+        if (a && a->role != role)
             continue;
-        buf_printf(h, "    double %s", a->name);
-        for (int k = 0; k < a->rank; k++)
-            buf_printf(h, "[%d]", a->dim[k]);
-        buf_put(h, ";\n");
+        while (role == ROLE_INPUT && next_size < ir->sizes.len &&
+               (!a || ir->sizes.items[next_size].span.off < a->span.off))
+            buf_printf(h, "    long %s;   /* a size */\n",
+                       ir->sizes.items[next_size++].name);
+        if (a)
+            emit_member(h, ir, a);
     }
     buf_printf(h, "} %s;\n\n", type);
 }
@@ -388,7 +522,8 @@ static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
 /* Prototypes, shared by the header and the definitions.  The header names
  * the arguments plainly; definitions use the reserved prefix so that model
  * names such as p or in cannot collide with them. */
-static void signature(Buf *b, const Ir *ir, Function fn, const char *prefix)
+static void signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
+                      const char *prefix)
 {
     const char *m = ir->model;
     buf_printf(b, "double %s_%s(const %s_param *%sp", m,
@@ -397,10 +532,13 @@ static void signature(Buf *b, const Ir *ir, Function fn, const char *prefix)
         buf_printf(b, ", const %s_input *%sin", m, prefix);
     if (fn == FN_GRADIENT)
         buf_printf(b, ", %s_param *%sgrad", m, prefix);
+    if (st->uses_work)
+        buf_printf(b, ", double *%swork", prefix);
     buf_put(b, ")");
 }
 
-static void emit_header(const Ir *ir, const EmitOptions *opt, Buf *h)
+static void emit_header(const Ir *ir, const EmitOptions *opt,
+                        const Storage *st, Buf *h)
 {
     const char *m = ir->model;
     char *M = upper(m);
@@ -408,9 +546,10 @@ static void emit_header(const Ir *ir, const EmitOptions *opt, Buf *h)
     buf_printf(h,
                "/* %s - value and gradient of the model %s (%s).\n"
                " * Generated by dervish %s; edit the model, not this file. */\n"
-               "#ifndef DVS_%s_H\n#define DVS_%s_H\n\n"
+               "#ifndef DVS_%s_H\n#define DVS_%s_H\n\n%s"
                "#ifdef __cplusplus\nextern \"C\" {\n#endif\n\n",
-               opt->header_name, m, opt->model_file, opt->version, M, M);
+               opt->header_name, m, opt->model_file, opt->version, M, M,
+               st->uses_work ? "#include <stddef.h>\n\n" : "");
     buf_printf(h, "#define %s_PARAM_COUNT %ld   /* doubles in %s_param */\n\n",
                M, param_count(ir), m);
     emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
@@ -425,33 +564,51 @@ static void emit_header(const Ir *ir, const EmitOptions *opt, Buf *h)
     if (has_inputs(ir))
         emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
                     "The inputs: data, not differentiated.");
-    buf_printf(h, "/* Returns the model's output, %s. */\n", out);
-    signature(h, ir, FN_VALUE, "");
+    if (st->uses_work) {
+        buf_printf(h,
+                   "/* The doubles the work argument of %s_value and %s_gradient "
+                   "must\n * hold (0 allowed: then work may be NULL); 0 also "
+                   "when a size is\n * negative or the count overflows. */\n",
+                   m, m);
+        layout_prototype(h, ir, st, "");
+        buf_put(h, ";\n\n");
+    }
+    buf_printf(h, "/* Returns the model's output, %s%s. */\n", out,
+               st->uses_work ? " (NaN when a size is negative or too large)"
+                             : "");
+    signature(h, ir, st, FN_VALUE, "");
     buf_put(h, ";\n\n");
     buf_printf(h,
                "/* Returns %s as %s_value does and overwrites every member of\n"
-               " * *grad with the derivative of %s with respect to that param. */\n",
-               out, m, out);
-    signature(h, ir, FN_GRADIENT, "");
+               " * *grad with the derivative of %s with respect to that param%s. */\n",
+               out, m, out,
+               st->uses_work ? "\n * (leaving *grad unchanged when it returns NaN "
+                               "for invalid sizes)" : "");
+    signature(h, ir, st, FN_GRADIENT, "");
     buf_put(h, ";\n\n#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
     free(M);
 }
 
 /* The runtime helpers the statements call, in the runtime table's order. */
-static void emit_helpers(const Ir *ir, const char *reached, Buf *c)
+static void emit_helpers(const Ir *ir, const char *reached,
+                         const Storage *st, Buf *c)
 {
     char used[IR_OP_COUNT] = {0};
     for (int i = 0; i < ir->nodes.len; i++)
         if (reached[i])
             used[ir->nodes.items[i].op] = 1;
-    for (int t = 0; t < runtime_text_count; t++)
-        for (int op = 0; op < IR_OP_COUNT; op++)
-            if (used[op] && ir_ops[op].kind == OPK_HELPER &&
-                strcmp(ir_ops[op].c_spelling, runtime_texts[t].name) == 0) {
-                buf_put(c, "\n");
-                buf_put(c, runtime_texts[t].text);
-                break;
-            }
+    for (int t = 0; t < runtime_text_count; t++) {
+        const char *name = runtime_texts[t].name;
+        int wanted = (st->nslots > 0 && strcmp(name, "count_sum") == 0) ||
+                     (st->uses_product && strcmp(name, "count_product") == 0);
+        for (int op = 0; op < IR_OP_COUNT && !wanted; op++)
+            wanted = used[op] && ir_ops[op].kind == OPK_HELPER &&
+                     strcmp(ir_ops[op].c_spelling, runtime_texts[t].name) == 0;
+        if (wanted) {
+            buf_put(c, "\n");
+            buf_put(c, runtime_texts[t].text);
+        }
+    }
 }
 
 static void emit_function(Emitter *e, Function fn, Buf *c)
@@ -461,6 +618,7 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     e->out = &body;
     e->fn = fn;
     e->uses_p = e->uses_in = 0;
+    e->ntemps = 0;
     e->last_origin = UINT32_MAX;
     memset(e->declared, 0, (size_t)ir->arrays.len);
     for (int i = 0; i < ir->forward.len; i++)
@@ -479,12 +637,21 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     buf_put(&body, ";\n}\n");
 
     buf_put(c, "\n");
-    signature(c, ir, fn, DV_PREFIX);
+    signature(c, ir, &e->storage, fn, DV_PREFIX);
     buf_put(c, "\n{\n");
     if (!e->uses_p)
         buf_put(c, "    (void)" DV_PREFIX "p;\n");
-    if (has_inputs(ir) && !e->uses_in)
+    if (e->storage.uses_work) {
+        /* sizes are checked before anything is computed or written */
+        int work_read = 0;
+        for (int i = 0; i < ir->arrays.len; i++)
+            work_read |= e->declared[i] && e->storage.slot[i] >= 0;
+        if (!work_read)
+            buf_put(c, "    (void)" DV_PREFIX "work;\n");
+        layout_emit_pointers(c, ir, &e->storage);
+    } else if (has_inputs(ir) && !e->uses_in) {
         buf_put(c, "    (void)" DV_PREFIX "in;\n");
+    }
     buf_putn(c, body.data, body.len);
     buf_free(&body);
 }
@@ -493,16 +660,21 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
 {
     const char *m = ir->model;
     char *M = upper(m);
-    emit_header(ir, opt, h);
-
     Emitter e;
     memset(&e, 0, sizeof e);
     e.ir = ir;
     e.opt = opt;
+    e.storage = layout_plan(ir, opt->stack_limit);
+    emit_header(ir, opt, &e.storage, h);
+
     e.declared = calloc((size_t)ir->arrays.len + 1, 1);
     e.argpos_read = calloc((size_t)ir->arrays.len + 1, 1);
     char *reached = calloc((size_t)ir->nodes.len + 1, 1);
-    if (!e.declared || !e.argpos_read || !reached)
+    e.seen = calloc((size_t)ir->nodes.len + 1, sizeof *e.seen);
+    e.uses = calloc((size_t)ir->nodes.len + 1, sizeof *e.uses);
+    e.temp = calloc((size_t)ir->nodes.len + 1, sizeof *e.temp);
+    if (!e.declared || !e.argpos_read || !reached || !e.seen || !e.uses ||
+        !e.temp)
         exit(3);
     ir_mark_reached(ir, &ir->reverse, reached);
     for (int i = 0; i < ir->nodes.len; i++) {
@@ -524,11 +696,17 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
                "%s_PARAM_COUNT * sizeof(double) ? 1 : -1];\n",
                opt->source_name, m, opt->model_file, opt->version,
                opt->header_name, m, M, m, M);
-    emit_helpers(ir, reached, c);
+    emit_helpers(ir, reached, &e.storage, c);
+    if (e.storage.uses_work)
+        layout_emit(c, ir, &e.storage);
     emit_function(&e, FN_VALUE, c);
     emit_function(&e, FN_GRADIENT, c);
     free(e.declared);
     free(e.argpos_read);
     free(reached);
+    free(e.seen);
+    free(e.uses);
+    free(e.temp);
+    layout_free(&e.storage);
     free(M);
 }

@@ -11,6 +11,8 @@ typedef struct EmitOptions {
     const char *header_name;    /* what the source #includes */
     const char *source_name;    /* the C file's own name, for its banner */
     const char *version;        /* dervish's version, for the banner */
+    long stack_limit;           /* most doubles in one local array; larger
+                                   arrays go to the caller's work buffer */
 } EmitOptions;
 
 /* Append the source to c and the header to h. */

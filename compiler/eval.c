@@ -6,7 +6,10 @@
  * are evaluated in ascending id order: operands always have smaller ids
  * than their users (ir_verify checks it), so each node is computed once
  * from values already in place.  Real operations go through apply_op, the
- * same code constant folding uses, so the results match the emitted C. */
+ * same code constant folding uses, so the results match the emitted C.
+ * Runtime sizes are fixed when the evaluation is made: every extent is
+ * resolved to a count then, and a domain with an extent of 0 has no
+ * points, so its statement does nothing (an empty sum stays 0). */
 #include "eval.h"
 #include "apply.h"
 
@@ -26,6 +29,10 @@ typedef struct Plan {
 
 struct Evaluation {
     const Ir *ir;
+    long *sizes;        /* per runtime size: its value */
+    long *count;        /* per array: its number of elements */
+    long *dim;          /* per array: IR_MAX_RANK extents, resolved */
+    long *extent;       /* per index var: its extent, resolved */
     double **data;      /* per array: its elements, row-major */
     Cplx **cdata;       /* per array: complex elements; forward arrays only,
                            allocated by the first complex step */
@@ -40,13 +47,17 @@ struct Evaluation {
                            saw a perturbed operand, or -1 */
 };
 
+static void out_of_memory(void)
+{
+    fputs("dervish: out of memory\n", stderr);
+    exit(3);
+}
+
 static void *xcalloc(size_t n, size_t size)
 {
     void *p = calloc(n ? n : 1, size);
-    if (!p) {
-        fputs("dervish: out of memory\n", stderr);
-        exit(3);
-    }
+    if (!p)
+        out_of_memory();
     return p;
 }
 
@@ -95,24 +106,66 @@ static Plan *make_plans(const Ir *ir, const IrStmtList *list, int *stamp,
     return plans;
 }
 
+long eval_extent(int extent, const long *sizes)
+{
+    return IR_EXTENT_IS_SIZE(extent) ? sizes[IR_EXTENT_SIZE(extent)] : extent;
+}
+
+long eval_elements(const IrArray *a, const long *sizes)
+{
+    long n = 1;
+    int over = 0;       /* past the limit, unless a later extent is 0 */
+    for (int k = 0; k < a->rank; k++) {
+        long d = eval_extent(a->dim[k], sizes);
+        if (d == 0)
+            return 0;
+        if (over || n > EVAL_MAX_ELEMENTS / d)
+            over = 1;
+        else
+            n *= d;
+    }
+    return over ? -1 : n;
+}
+
 Evaluation *eval_new(const Ir *ir)
+{
+    if (ir->sizes.len > 0)
+        DV_UNREACHABLE();   /* a model with sizes needs their values */
+    return eval_new_sized(ir, NULL);
+}
+
+Evaluation *eval_new_sized(const Ir *ir, const long *sizes)
 {
     Evaluation *ev = xcalloc(1, sizeof *ev);
     ev->ir = ir;
     int narrays = ir->arrays.len, nnodes = ir->nodes.len;
+    ev->sizes = xcalloc((size_t)ir->sizes.len, sizeof *ev->sizes);
+    if (ir->sizes.len > 0)
+        memcpy(ev->sizes, sizes, (size_t)ir->sizes.len * sizeof *sizes);
+    ev->count = xcalloc((size_t)narrays, sizeof *ev->count);
+    ev->dim = xcalloc((size_t)narrays * IR_MAX_RANK, sizeof *ev->dim);
+    ev->extent = xcalloc((size_t)ir->vars.len, sizeof *ev->extent);
+    for (int v = 0; v < ir->vars.len; v++)
+        ev->extent[v] = eval_extent(ir->vars.items[v].extent, ev->sizes);
     ev->data = xcalloc((size_t)narrays, sizeof *ev->data);
     ev->cdata = xcalloc((size_t)narrays, sizeof *ev->cdata);
     for (int i = 0; i < narrays; i++) {
         const IrArray *a = &ir->arrays.items[i];
-        ev->data[i] = xcalloc((size_t)ir_array_size(a), sizeof(double));
+        long *dim = &ev->dim[i * IR_MAX_RANK];
+        for (int k = 0; k < a->rank; k++)
+            dim[k] = eval_extent(a->dim[k], ev->sizes);
+        ev->count[i] = eval_elements(a, ev->sizes);
+        if (ev->count[i] < 0)
+            out_of_memory();
+        ev->data[i] = xcalloc((size_t)ev->count[i], sizeof(double));
         if (a->role == ROLE_PARAM)
-            ev->nparams += ir_array_size(a);
+            ev->nparams += ev->count[i];
     }
     ev->param = xcalloc((size_t)ev->nparams, sizeof *ev->param);
     long k = 0;
     for (int i = 0; i < narrays; i++)
         if (ir->arrays.items[i].role == ROLE_PARAM)
-            for (long e = 0; e < ir_array_size(&ir->arrays.items[i]); e++)
+            for (long e = 0; e < ev->count[i]; e++)
                 ev->param[k++] = &ev->data[i][e];
     ev->val = xcalloc((size_t)nnodes, sizeof *ev->val);
     ev->cval = xcalloc((size_t)nnodes, sizeof *ev->cval);
@@ -145,6 +198,10 @@ void eval_free(Evaluation *ev)
     }
     free(ev->data);
     free(ev->cdata);
+    free(ev->sizes);
+    free(ev->count);
+    free(ev->dim);
+    free(ev->extent);
     free(ev->val);
     free(ev->cval);
     free(ev->idx);
@@ -180,11 +237,11 @@ double *eval_param(Evaluation *ev, long k)
 /* Row-major offset of array[tuple] at the current point. */
 static long offset(const Evaluation *ev, int32_t array, int32_t tuple)
 {
-    const IrArray *a = &ev->ir->arrays.items[array];
+    const long *dim = &ev->dim[array * IR_MAX_RANK];
     const int32_t *v = ir_tuple_vars(ev->ir, tuple);
     long off = 0;
-    for (int k = 0; k < a->rank; k++)
-        off = off * a->dim[k] + ev->idx[v[k]];
+    for (int k = 0; k < ev->ir->arrays.items[array].rank; k++)
+        off = off * dim[k] + ev->idx[v[k]];
     return off;
 }
 
@@ -195,15 +252,20 @@ static double flat_point(const Evaluation *ev, int32_t reduced)
     const int32_t *v = ir_tuple_vars(ev->ir, reduced);
     long pos = 0;
     for (int k = 0; k < ir_tuple_len(ev->ir, reduced); k++)
-        pos = pos * ev->ir->vars.items[v[k]].extent + ev->idx[v[k]];
+        pos = pos * ev->extent[v[k]] + ev->idx[v[k]];
     return (double)pos;
 }
 
-static void first_point(Evaluation *ev, int32_t domain)
+/* Start at the domain's first point; 0 when it has none (an extent 0). */
+static int first_point(Evaluation *ev, int32_t domain)
 {
     const int32_t *v = ir_tuple_vars(ev->ir, domain);
-    for (int k = 0; k < ir_tuple_len(ev->ir, domain); k++)
+    int any = 1;
+    for (int k = 0; k < ir_tuple_len(ev->ir, domain); k++) {
         ev->idx[v[k]] = 0;
+        any &= ev->extent[v[k]] > 0;
+    }
+    return any;
 }
 
 /* Step to the next point, innermost var fastest; 0 after the last. */
@@ -211,7 +273,7 @@ static int next_point(Evaluation *ev, int32_t domain)
 {
     const int32_t *v = ir_tuple_vars(ev->ir, domain);
     for (int k = ir_tuple_len(ev->ir, domain) - 1; k >= 0; k--) {
-        if (++ev->idx[v[k]] < ev->ir->vars.items[v[k]].extent)
+        if (++ev->idx[v[k]] < ev->extent[v[k]])
             return 1;
         ev->idx[v[k]] = 0;
     }
@@ -236,6 +298,9 @@ static void eval_nodes(Evaluation *ev, const Plan *p)
         case IR_INDEX:
             ev->val[id] = (double)ev->idx[n->var];
             break;
+        case IR_SIZE:
+            ev->val[id] = (double)ev->sizes[n->var];
+            break;
         default:
             for (int k = 0; k < n->nargs; k++)
                 v[k] = ev->val[n->arg[k]];
@@ -247,7 +312,8 @@ static void eval_nodes(Evaluation *ev, const Plan *p)
 
 static void run_stmt(Evaluation *ev, const IrStmt *s, const Plan *p)
 {
-    first_point(ev, s->domain);
+    if (!first_point(ev, s->domain))
+        return;
     do {
         eval_nodes(ev, p);
         double e = ev->val[s->expr];
@@ -294,7 +360,7 @@ double eval_gradient(Evaluation *ev, double *grad)
         const IrArray *a = &ir->arrays.items[i];
         if (a->role != ROLE_PARAM)
             continue;
-        for (long e = 0; e < ir_array_size(a); e++)
+        for (long e = 0; e < ev->count[i]; e++)
             grad[k++] = a->adjoint >= 0 ? ev->data[a->adjoint][e] : 0.0;
     }
     return y;
@@ -436,7 +502,8 @@ static Cplx capply(Evaluation *ev, IrOp op, const Cplx *z)
         return real_part_op(ev, op, z, 0);
     case IR_ATAN2: case IR_ERF: case IR_ERFC: case IR_LGAMMA: case IR_DIGAMMA:
         return real_part_op(ev, op, z, 1);
-    case IR_CONST: case IR_READ: case IR_INDEX: case IR_OP_COUNT:
+    case IR_CONST: case IR_READ: case IR_INDEX: case IR_SIZE:
+    case IR_OP_COUNT:
         break;
     }
     DV_UNREACHABLE();
@@ -459,6 +526,9 @@ static void ceval_nodes(Evaluation *ev, const Plan *p)
         case IR_INDEX:
             ev->cval[id] = cmake((double)ev->idx[n->var], 0);
             break;
+        case IR_SIZE:
+            ev->cval[id] = cmake((double)ev->sizes[n->var], 0);
+            break;
         default:
             for (int k = 0; k < n->nargs; k++)
                 z[k] = ev->cval[n->arg[k]];
@@ -470,7 +540,8 @@ static void ceval_nodes(Evaluation *ev, const Plan *p)
 
 static void crun_stmt(Evaluation *ev, const IrStmt *s, const Plan *p)
 {
-    first_point(ev, s->domain);
+    if (!first_point(ev, s->domain))
+        return;
     do {
         ceval_nodes(ev, p);
         Cplx e = ev->cval[s->expr];
@@ -501,7 +572,7 @@ EvalStep eval_complex_step(Evaluation *ev, long k, double h)
     const Ir *ir = ev->ir;
     for (int i = 0; i < ir->arrays.len; i++) {
         const IrArray *a = &ir->arrays.items[i];
-        long n = ir_array_size(a);
+        long n = ev->count[i];
         if (a->role == ROLE_ADJOINT)
             continue;
         if (!ev->cdata[i])

@@ -11,17 +11,34 @@
 
 typedef struct Evaluation Evaluation;
 
+/* The most elements one array may have in an evaluation: the limit the
+ * resolver sets for fixed extents (INT_MAX). */
+#define EVAL_MAX_ELEMENTS 2147483647L
+
+/* The count an extent (IrArray.dim, IrIndexVar.extent) stands for when
+ * the runtime sizes take the values SIZES. */
+long eval_extent(int extent, const long *sizes);
+
+/* The number of elements of array A when the model's runtime sizes take
+ * the values SIZES (one per ir->sizes entry, each >= 0; may be NULL when A
+ * has fixed extents only); -1 when that exceeds EVAL_MAX_ELEMENTS. */
+long eval_elements(const IrArray *a, const long *sizes);
+
 /* Storage for every array of IR (which must outlive the evaluation), all
- * zero.  Exits with status 3 when memory runs out. */
+ * zero, with the runtime sizes at SIZES (copied; as for eval_elements, and
+ * no array may exceed EVAL_MAX_ELEMENTS).  eval_new is the same for a
+ * model without sizes.  Exits with status 3 when memory runs out. */
+Evaluation *eval_new_sized(const Ir *ir, const long *sizes);
 Evaluation *eval_new(const Ir *ir);
 void eval_free(Evaluation *ev);
 
-/* The values of the param or input called NAME: ir_array_size() doubles,
+/* The values of the param or input called NAME: eval_elements() doubles,
  * row-major, to read or set.  NULL when no param or input has that name. */
 double *eval_slot(Evaluation *ev, const char *name);
 
 /* The params as one flat vector: params in declaration order, row-major
- * within each (the order of the emitted <model>_param struct). */
+ * within each (the order of the emitted <model>_param struct).  Params have
+ * fixed extents, so the sizes do not change it. */
 long eval_param_count(const Evaluation *ev);
 double *eval_param(Evaluation *ev, long k);    /* entry k, 0 <= k < count */
 

@@ -1,5 +1,8 @@
 /* fileio.c - see fileio.h.  POSIX calls (open, rename, stat) give the
  * atomic replacement that C's stdio alone cannot. */
+/* realpath() is an X/Open function */
+#define _XOPEN_SOURCE 700
+
 #include "fileio.h"
 
 #include <errno.h>
@@ -162,28 +165,50 @@ static int write_special(const OutputFile *f)
     return failed ? -1 : 0;
 }
 
+/* Where the bytes for path really go: through a symbolic link (so the link
+ * stays a link, and /dev/stdout reaches the file or pipe behind it), else
+ * path itself.  malloc'd. */
+static char *resolve_target(const char *path)
+{
+    struct stat st;
+    char *real = NULL;
+    if (lstat(path, &st) == 0 && S_ISLNK(st.st_mode))
+        real = realpath(path, NULL);
+    if (!real)
+        real = strdup(path);
+    if (!real) {
+        fputs("dervish: out of memory\n", stderr);
+        exit(3);
+    }
+    return real;
+}
+
 int fileio_write_all(const OutputFile *files, int n)
 {
     char **temp = calloc((size_t)n + 1, sizeof *temp);
-    int failed = !temp;
+    char **target = calloc((size_t)n + 1, sizeof *target);
+    int failed = !temp || !target;
     for (int i = 0; i < n && !failed; i++) {
         struct stat st;
-        if (stat(files[i].path, &st) == 0 && S_ISDIR(st.st_mode)) {
+        target[i] = resolve_target(files[i].path);
+        OutputFile f = {target[i], files[i].data, files[i].len};
+        if (stat(f.path, &st) == 0 && S_ISDIR(st.st_mode)) {
             fprintf(stderr, "dervish: cannot write %s: it is a directory\n",
                     files[i].path);
             failed = 1;
-        } else if (stat(files[i].path, &st) == 0 && !S_ISREG(st.st_mode)) {
+        } else if (stat(f.path, &st) == 0 && !S_ISREG(st.st_mode)) {
             temp[i] = NULL;     /* special: written in place below */
-        } else if (!(temp[i] = write_temp(i, files[i].path, files[i].data,
-                                          files[i].len))) {
+        } else if (!(temp[i] = write_temp(i, f.path, f.data, f.len))) {
             failed = 1;
         }
     }
-    for (int i = 0; i < n && !failed; i++)
-        if (!temp[i] && write_special(&files[i]) != 0)
+    for (int i = 0; i < n && !failed; i++) {
+        OutputFile f = {target[i], files[i].data, files[i].len};
+        if (!temp[i] && write_special(&f) != 0)
             failed = 1;
+    }
     for (int i = 0; i < n && !failed; i++)
-        if (temp[i] && rename(temp[i], files[i].path) != 0) {
+        if (temp[i] && rename(temp[i], target[i]) != 0) {
             fprintf(stderr, "dervish: cannot write %s: %s\n", files[i].path,
                     strerror(errno));
             failed = 1;
@@ -192,20 +217,49 @@ int fileio_write_all(const OutputFile *files, int n)
             free(temp[i]);
             temp[i] = NULL;
         }
-    for (int i = 0; temp && i < n; i++)
-        if (temp[i]) {
+    for (int i = 0; i < n; i++) {
+        if (temp && temp[i]) {
             remove(temp[i]);
             track_temp(i, NULL);
             free(temp[i]);
         }
+        if (target)
+            free(target[i]);
+    }
     free(temp);
+    free(target);
     return failed ? -1 : 0;
+}
+
+/* The absolute, link-free form of path, also when it does not exist yet
+ * (then its directory's); malloc'd, or NULL when even that is unknown. */
+static char *canonical(const char *path)
+{
+    char *real = realpath(path, NULL);
+    if (real)
+        return real;
+    const char *slash = strrchr(path, '/');
+    char *dir = slash ? strndup(path, (size_t)(slash - path + 1)) : strdup(".");
+    char *rdir = dir ? realpath(dir, NULL) : NULL;
+    free(dir);
+    if (!rdir)
+        return NULL;
+    const char *base = slash ? slash + 1 : path;
+    char *full = malloc(strlen(rdir) + strlen(base) + 2);
+    if (full)
+        sprintf(full, "%s/%s", rdir, base);
+    free(rdir);
+    return full;
 }
 
 int fileio_same_file(const char *a, const char *b)
 {
     struct stat sa, sb;
-    if (stat(a, &sa) != 0 || stat(b, &sb) != 0)
-        return 0;
-    return sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino;
+    if (stat(a, &sa) == 0 && stat(b, &sb) == 0)
+        return sa.st_dev == sb.st_dev && sa.st_ino == sb.st_ino;
+    char *ca = canonical(a), *cb = canonical(b);
+    int same = ca && cb && strcmp(ca, cb) == 0;
+    free(ca);
+    free(cb);
+    return same;
 }

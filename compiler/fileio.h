@@ -25,7 +25,7 @@ typedef struct OutputFile {
  * Returns 0, or -1 after printing why. */
 int fileio_write_all(const OutputFile *files, int n);
 
-/* True when a and b name the same existing file. */
+/* True when a and b name the same file (existing or not). */
 int fileio_same_file(const char *a, const char *b);
 
 #endif

@@ -13,6 +13,8 @@ typedef struct CheckOptions {
     unsigned long seed;     /* --seed N: for random values (default 1) */
     double tolerance;       /* --tolerance X: largest accepted error (default 1e-6) */
     FILE *out;              /* where the report goes (stdout) */
+    const char *const *sizes;   /* --size NAME=N, each as given */
+    int nsizes;
 } CheckOptions;
 
 /* Returns the exit status: 0 when every derivative agrees, 1 when some do

@@ -128,6 +128,13 @@ NodeId ir_index(Ir *ir, int32_t var)
     return intern(ir, &n);
 }
 
+NodeId ir_size(Ir *ir, int32_t size)
+{
+    IrNode n = blank(IR_SIZE);
+    n.var = size;
+    return intern(ir, &n);
+}
+
 NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c)
 {
     IrNode n = blank(op);
@@ -241,6 +248,14 @@ IrStmt ir_stmt(Ir *ir, IrStmtKind kind, int32_t target, int32_t tuple,
     s.expr = expr;
     s.origin = origin;
     return s;
+}
+
+int ir_array_fixed(const IrArray *a)
+{
+    for (int k = 0; k < a->rank; k++)
+        if (IR_EXTENT_IS_SIZE(a->dim[k]))
+            return 0;
+    return 1;
 }
 
 long ir_array_size(const IrArray *a)
@@ -363,6 +378,9 @@ static void print_expr(const Ir *ir, NodeId id, FILE *out)
         return;
     case IR_INDEX:
         fprintf(out, "#%s", ir->vars.items[n->var].name);
+        return;
+    case IR_SIZE:
+        fprintf(out, "%s", ir->sizes.items[n->var].name);
         return;
     default:
         break;

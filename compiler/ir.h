@@ -54,13 +54,25 @@ typedef int32_t NodeId;
 
 typedef VEC(NodeId) NodeList;
 
+/* An extent (of an array dimension or an index var) is a positive count,
+ * or a size known only when the emitted code runs, encoded as a negative
+ * number: -(size id + 1). */
+#define IR_EXTENT_OF_SIZE(id) (-(id) - 1)
+#define IR_EXTENT_IS_SIZE(e) ((e) < 0)
+#define IR_EXTENT_SIZE(e) (-(e) - 1)
+
+typedef struct IrSize {
+    const char *name;   /* the model's name; a long member of m_input */
+    Span span;
+} IrSize;
+
 typedef struct IrNode {
     uint8_t op;         /* IrOp */
     uint8_t nargs;
     NodeId arg[3];
     int32_t array;      /* READ: the array read */
     int32_t tuple;      /* READ: its subscripts, a tuple of index vars */
-    int32_t var;        /* INDEX: the index var */
+    int32_t var;        /* INDEX: the index var; SIZE: the size */
     double num;         /* CONST */
 } IrNode;
 
@@ -77,7 +89,7 @@ typedef struct IrArray {
     const char *name;   /* the C name: the model's, or with the reserved prefix */
     IrRole role;
     int rank;
-    int dim[IR_MAX_RANK];
+    int dim[IR_MAX_RANK];   /* extents, see IR_EXTENT_OF_SIZE */
     Span span;          /* where it was declared or defined */
     int32_t adjoint;    /* its adjoint array, or -1 */
     int32_t primal;     /* ROLE_ADJOINT: the array it is the adjoint of */
@@ -90,7 +102,7 @@ typedef struct IrArray {
 
 typedef struct IrIndexVar {
     const char *name;   /* the model's index name, or a reserved one */
-    int extent;
+    int extent;         /* see IR_EXTENT_OF_SIZE */
 } IrIndexVar;
 
 typedef enum IrStmtKind {
@@ -122,6 +134,7 @@ typedef struct Ir {
     VEC(IrNode) nodes;
     VEC(IrArray) arrays;
     VEC(IrIndexVar) vars;
+    VEC(IrSize) sizes;
     VEC(int32_t) tuple_data;    /* tuples: [len, v0, v1, ...] at tuple id */
     IrStmtList forward;         /* the model's statements in order */
     IrStmtList reverse;         /* adjoint statements, in sweep order */
@@ -142,6 +155,7 @@ Ir *ir_new(Arena *arena, const Source *src);
 NodeId ir_const(Ir *ir, double num);
 NodeId ir_read(Ir *ir, int32_t array, int32_t tuple);
 NodeId ir_index(Ir *ir, int32_t var);
+NodeId ir_size(Ir *ir, int32_t size);
 NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c);
 
 int32_t ir_tuple(Ir *ir, const int32_t *vars, int n);
@@ -163,8 +177,12 @@ static inline const IrNode *ir_at(const Ir *ir, NodeId id)
     return &ir->nodes.items[id];
 }
 
-/* Number of elements of an array (product of its dims; 1 for a scalar). */
+/* Number of elements of an array whose extents are all fixed (product of
+ * its dims; 1 for a scalar). */
 long ir_array_size(const IrArray *a);
+
+/* True when no extent of the array is a runtime size. */
+int ir_array_fixed(const IrArray *a);
 
 /* True when the node is a condition (a comparison or logic op). */
 int ir_is_condition(const Ir *ir, NodeId id);

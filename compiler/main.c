@@ -23,11 +23,14 @@ static const char usage[] =
     "         --header FILE    header path (default: the C path with .h)\n"
     "         --name NAME      symbol prefix (overrides the model statement)\n"
     "         --fail-on-warning  treat warnings as errors (exit 1, write nothing)\n"
+    "         --stack-limit N  most doubles in one local array (default 4096);\n"
+    "                          larger arrays live in the caller's work buffer\n"
     "       dervish check [options] MODEL.dvs    compare the gradient with\n"
     "                                            numerical derivatives\n"
     "         --at FILE        values of params and inputs (name = numbers...)\n"
     "         --seed N         seed for random values when --at is not given\n"
     "         --tolerance X    largest accepted relative error (default 1e-6)\n"
+    "         --size NAME=N    a runtime size (else taken from the values given)\n"
     "         --name NAME      symbol prefix\n"
     "         --fail-on-warning  treat warnings as errors\n"
     "       dervish --help | --version\n"
@@ -51,6 +54,9 @@ typedef struct Args {
     const char *seed;
     const char *tolerance;
     int fail_on_warning;
+    const char *stack_limit;
+    const char *sizes[16];  /* --size NAME=N */
+    int nsizes;
 } Args;
 
 /* Parse the options after the command word; returns 0 or an exit status. */
@@ -66,6 +72,8 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->c_path;
         else if (is_build && strcmp(opt, "--header") == 0)
             slot = &a->h_path;
+        else if (is_build && strcmp(opt, "--stack-limit") == 0)
+            slot = &a->stack_limit;
         else if (!is_build && strcmp(opt, "--at") == 0)
             slot = &a->at;
         else if (!is_build && strcmp(opt, "--seed") == 0)
@@ -74,6 +82,14 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->tolerance;
         if (strcmp(opt, "--fail-on-warning") == 0) {
             a->fail_on_warning = 1;
+            continue;
+        }
+        if (!is_build && strcmp(opt, "--size") == 0) {
+            if (i + 1 >= argc)
+                return usage_error("option %s needs a value", opt);
+            if (a->nsizes == 16)
+                return usage_error("%s", "at most 16 --size options");
+            a->sizes[a->nsizes++] = argv[++i];
             continue;
         }
         if (slot) {
@@ -90,6 +106,13 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
     }
     if (!a->model)
         return usage_error("%s", "no model file given");
+    if (a->stack_limit) {
+        char *end;
+        long n = strtol(a->stack_limit, &end, 10);
+        if (*end || !*a->stack_limit || n < 1)
+            return usage_error("--stack-limit takes a whole number of "
+                               "doubles, at least 1, not '%s'", a->stack_limit);
+    }
     if (a->name && !names_is_identifier(a->name))
         return usage_error("--name '%s' is not a C identifier", a->name);
     if (a->name && names_reserved(a->name, NULL)) {
@@ -109,7 +132,8 @@ static int compile_file(const Args *a, DvCompilation *c,
     char *text = fileio_read(a->model, &len);
     if (!text)
         return EXIT_IO;
-    DvOptions o = {a->name, stderr};
+    DvOptions o = {a->name, stderr,
+                   a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0};
     int failed = dv_compile(c, a->model, text, len, &o);
     free(text);
     if (failed) {
@@ -181,7 +205,7 @@ static int build(const Args *a)
 
 static int check(const Args *a)
 {
-    CheckOptions o = {a->at, 1, 1e-6, stdout};
+    CheckOptions o = {a->at, 1, 1e-6, stdout, a->sizes, a->nsizes};
     if (a->seed) {
         char *end;
         o.seed = strtoul(a->seed, &end, 10);

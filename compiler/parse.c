@@ -149,8 +149,14 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
     }
     const char *found = describe(ps, code, tok);
     int prev = ps->prev.code;
-    if ((code == TOK_SIZE || code == TOK_DEF || code == TOK_USE) &&
-        prev != TOK_NEWLINE && prev != TOK_SEMI) {
+    if (code == TOK_SIZE && prev != TOK_NEWLINE && prev != TOK_SEMI) {
+        diag_error(ps->diag, tok.span,
+                   "'size' is a keyword (it declares runtime sizes) and "
+                   "cannot be used as a name");
+        return;
+    }
+    if ((code == TOK_DEF || code == TOK_USE) && prev != TOK_NEWLINE &&
+        prev != TOK_SEMI) {
         diag_error(ps->diag, tok.span,
                    "%s is a word reserved for a later version of dervish "
                    "and cannot be used as a name", found);
@@ -252,14 +258,19 @@ AstStmt *parse_stmt(ParseState *ps, AstStmtKind kind, Span first, Span last)
     return s;
 }
 
-AstStmt *parse_output(ParseState *ps, Token keyword, ExprList names)
+AstStmt *parse_names(ParseState *ps, AstStmtKind kind, Token keyword,
+                     ExprList names)
 {
-    AstStmt *s = parse_stmt(ps, STMT_OUTPUT, keyword.span, names.last);
+    AstStmt *s = parse_stmt(ps, kind, keyword.span, names.last);
     for (int i = 0; i < names.len; i++)
         if (names.items[i]->kind != AST_NAME) {
-            diag_error(ps->diag, names.items[i]->span,
-                       "'output' takes names of values; define the "
-                       "expression first ('y = ...') and output 'y'");
+            if (kind == STMT_OUTPUT)
+                diag_error(ps->diag, names.items[i]->span,
+                           "'output' takes names of values; define the "
+                           "expression first ('y = ...') and output 'y'");
+            else
+                diag_error(ps->diag, names.items[i]->span,
+                           "'size' takes names, as in 'size n, m'");
             return NULL;
         }
     s->names = names.items;

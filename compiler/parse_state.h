@@ -37,7 +37,9 @@ void parse_add_stmt(ParseState *ps, AstStmt *s);
 
 const char *parse_name(ParseState *ps, Token name);
 AstStmt *parse_stmt(ParseState *ps, AstStmtKind kind, Span first, Span last);
-AstStmt *parse_output(ParseState *ps, Token keyword, ExprList names);
+/* output NAME, ... and size NAME, ...: every item must be a name. */
+AstStmt *parse_names(ParseState *ps, AstStmtKind kind, Token keyword,
+                     ExprList names);
 AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
                               AstExpr *e);
 AstStmt *parse_later(ParseState *ps, Token keyword, const char *what);

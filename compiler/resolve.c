@@ -20,13 +20,14 @@
 
 /* ------------------------------------------------------------ symbols */
 
-typedef enum SymKind { SYM_CONST, SYM_ARRAY } SymKind;
+typedef enum SymKind { SYM_CONST, SYM_ARRAY, SYM_SIZE } SymKind;
 
 typedef struct Symbol {
     const char *name;
     SymKind kind;
     double value;       /* SYM_CONST */
     int32_t array;      /* SYM_ARRAY */
+    int32_t size;       /* SYM_SIZE: its id in ir->sizes */
     Span span;          /* where it was defined */
     int failed;         /* its definition had errors: uses stay quiet */
 } Symbol;
@@ -36,7 +37,7 @@ typedef struct Symbol {
 typedef struct Binder {
     const char *name;
     Span span;          /* where it was bound */
-    int extent;         /* -1 until a subscript gives it a range */
+    int extent;         /* EXTENT_UNKNOWN until a subscript gives it one */
     Span range_from;    /* the subscript that gave the range */
     int32_t var;        /* its IR index var, made once the range is known */
 } Binder;
@@ -187,6 +188,12 @@ static int const_eval(Resolver *r, const AstExpr *e, double *out)
         }
         if (s->failed)
             return 0;
+        if (s->kind == SYM_SIZE) {
+            diag_error(r->diag, e->span,
+                       "'%s' is a size, known only when the emitted code "
+                       "runs: it cannot be used in a constant", e->name);
+            return 0;
+        }
         if (s->kind != SYM_CONST) {
             diag_error(r->diag, e->span,
                        "'%s' is not a constant: constants may use only "
@@ -259,37 +266,54 @@ static void resolve_const(Resolver *r, const AstStmt *s)
 /* ------------------------------------------------------- declarations */
 
 /* The extent a dimension expression gives, or -1 after reporting. */
-static int dimension(Resolver *r, const AstExpr *e, const char *array)
+/* The extent a dimension expression gives (a count, or a size encoded as
+ * IR_EXTENT_OF_SIZE), or 0 after reporting. */
+static int dimension(Resolver *r, const AstExpr *e, const char *array,
+                     IrRole role)
 {
     double v;
     if (e->kind != AST_NUM && e->kind != AST_NAME) {
         diag_error(r->diag, e->span,
                    "a dimension is a whole number or the name of a "
-                   "constant, as in '%s[3]' or '%s[N]'", array, array);
-        return -1;
+                   "constant or size, as in '%s[3]', '%s[N]' or '%s[n]'",
+                   array, array, array);
+        return 0;
+    }
+    Symbol *sym = e->kind == AST_NAME ? lookup(r, e->name) : NULL;
+    if (sym && sym->kind == SYM_SIZE) {
+        if (role == ROLE_PARAM) {
+            diag_error(r->diag, e->span,
+                       "param '%s' cannot have the runtime size '%s': params "
+                       "have fixed extents (a size may shape inputs and "
+                       "values)", array, e->name);
+            return 0;
+        }
+        return IR_EXTENT_OF_SIZE(sym->size);
     }
     if (!const_eval(r, e, &v))
-        return -1;
+        return 0;
     if (!(v >= 1 && v <= INT_MAX && v == floor(v))) {
         diag_error(r->diag, e->span,
                    "a dimension must be a whole number from 1 to %d, "
                    "not %.17g", INT_MAX, v);
-        return -1;
+        return 0;
     }
     return (int)v;
 }
 
 /* Whether an array of these dims is small enough to declare; reports the
- * error when it is not. */
+ * error when it is not.  Runtime sizes are checked when the code runs. */
 static int fits(Resolver *r, int rank, const int *dim, Span at,
                 const char *what)
 {
     long count = 1;
     for (int k = 0; k < rank; k++) {
+        if (IR_EXTENT_IS_SIZE(dim[k]))
+            continue;
         count *= dim[k];
         if (count > MAX_ELEMENTS) {
             diag_error(r->diag, at,
-                       "'%s' would have more than %ld elements, too many "
+                       "%s would have more than %ld elements, too many "
                        "for one array", what, MAX_ELEMENTS);
             return 0;
         }
@@ -311,11 +335,12 @@ static void resolve_decls(Resolver *r, const AstStmt *s)
             ok = 0;
         }
         for (int k = 0; k < d->ndims && k < LANG_MAX_RANK; k++) {
-            dim[k] = dimension(r, d->dims[k], d->name);
-            if (dim[k] < 0)
+            dim[k] = dimension(r, d->dims[k], d->name, role);
+            if (dim[k] == 0)
                 ok = 0;
         }
-        if (ok && !fits(r, d->ndims, dim, d->span, d->name))
+        if (ok && !fits(r, d->ndims, dim, d->span,
+                        arena_printf(r->arena, "'%s'", d->name)))
             ok = 0;
         if (!lookup(r, d->name)) {
             Symbol *sym = insert(r, d->name, d->span);
@@ -332,7 +357,32 @@ static void resolve_decls(Resolver *r, const AstStmt *s)
     }
 }
 
+static void resolve_sizes(Resolver *r, const AstStmt *s)
+{
+    for (int i = 0; i < s->nnames; i++) {
+        const AstExpr *n = s->names[i];
+        if (!definable(r, n->name, n->span)) {
+            insert_failed(r, n->name, n->span);
+            continue;
+        }
+        Symbol *sym = insert(r, n->name, n->span);
+        sym->kind = SYM_SIZE;
+        IrSize size = {n->name, n->span};
+        VEC_PUSH(r->arena, r->ir->sizes, size);
+        sym->size = r->ir->sizes.len - 1;
+    }
+}
+
 /* ------------------------------------------------------------- infer */
+
+/* An extent as a message shows it: "3", or a size's name. */
+static const char *extent_text(Resolver *r, int extent)
+{
+    if (IR_EXTENT_IS_SIZE(extent))
+        return arena_printf(r->arena, "%s",
+                            r->ir->sizes.items[IR_EXTENT_SIZE(extent)].name);
+    return arena_printf(r->arena, "%d", extent);
+}
 
 static int find_binder(const Resolver *r, const char *name)
 {
@@ -359,9 +409,11 @@ static int push_binder(Resolver *r, const char *name, Span span, int extent)
     return r->binders.len - 1;
 }
 
-/* A binder standing for an index whose binding was refused: subscripts
- * with it are accepted quietly, so the refusal is reported once. */
-#define EXTENT_FAILED (-2)
+/* A binder's extent before any subscript gave it one, and for an index
+ * whose binding was refused (subscripts with it are then accepted quietly,
+ * so the refusal is reported once).  Real extents are counts or sizes. */
+#define EXTENT_UNKNOWN INT_MIN
+#define EXTENT_FAILED (INT_MIN + 1)
 
 /* Bind a new index called NAME at SPAN; returns its id.  When the name is
  * refused the error is reported and the binder is marked failed. */
@@ -387,7 +439,7 @@ static int bind(Resolver *r, const char *name, Span span)
         diag_note(r->diag, r->binders.items[outer].span,
                   "'%s' is first bound here", name);
     } else {
-        return push_binder(r, name, span, -1);
+        return push_binder(r, name, span, EXTENT_UNKNOWN);
     }
     fail(r);
     return push_binder(r, name, span, EXTENT_FAILED);
@@ -427,10 +479,8 @@ static void infer_name(Resolver *r, const AstExpr *e)
         return;
     }
     Symbol *s = resolve_use(r, e->name, e->span);
-    if (!s)
-        return;
-    if (s->kind != SYM_ARRAY)
-        return;
+    if (!s || s->kind != SYM_ARRAY)
+        return;     /* constants and sizes are numbers */
     const IrArray *a = &r->ir->arrays.items[s->array];
     if (a->rank == 0)
         return;
@@ -464,8 +514,8 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
     if (!s)
         return;
     if (s->kind != SYM_ARRAY) {
-        diag_error(r->diag, e->span,
-                   "'%s' is a constant and cannot be subscripted", e->name);
+        diag_error(r->diag, e->span, "'%s' is a %s and cannot be subscripted",
+                   e->name, s->kind == SYM_SIZE ? "size" : "constant");
         fail(r);
         return;
     }
@@ -511,16 +561,17 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
         Binder *bd = &r->binders.items[b];
         if (bd->extent == EXTENT_FAILED)
             continue;
-        if (bd->extent < 0) {
+        if (bd->extent == EXTENT_UNKNOWN) {
             bd->extent = a->dim[k];
             bd->range_from = ix->span;
         } else if (bd->extent != a->dim[k]) {
             diag_error(r->diag, ix->span,
-                       "index '%s' ranges over %d here (dimension %d of "
-                       "'%s') but over %d where it was first used",
-                       ix->name, a->dim[k], k + 1, e->name, bd->extent);
-            diag_note(r->diag, bd->range_from,
-                      "'%s' got the range %d here", ix->name, bd->extent);
+                       "index '%s' ranges over %s here (dimension %d of "
+                       "'%s') but over %s where it was first used",
+                       ix->name, extent_text(r, a->dim[k]), k + 1, e->name,
+                       extent_text(r, bd->extent));
+            diag_note(r->diag, bd->range_from, "'%s' got the range %s here",
+                      ix->name, extent_text(r, bd->extent));
             fail(r);
         }
     }
@@ -598,7 +649,7 @@ static void infer_reduce(Resolver *r, AstExpr *e)
     e->binder = first;
     infer(r, e->body);
     for (int b = first; b < r->binders.len && b < first + pushed; b++)
-        if (r->binders.items[b].extent == -1 && !r->failed) {
+        if (r->binders.items[b].extent == EXTENT_UNKNOWN && !r->failed) {
             diag_error(r->diag, r->binders.items[b].span,
                        "cannot tell the range of index '%s': use it as a "
                        "subscript of an array inside the reduction",
@@ -910,6 +961,8 @@ static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
         Symbol *s = lookup(r, e->name);
         if (s->kind == SYM_CONST)
             return ir_const(r->ir, s->value);
+        if (s->kind == SYM_SIZE)
+            return ir_size(r->ir, s->size);
         const IrArray *a = &r->ir->arrays.items[s->array];
         if (a->rank == 0)
             return ir_read(r->ir, s->array, ir_tuple(r->ir, NULL, 0));
@@ -984,7 +1037,7 @@ static void resolve_define(Resolver *r, const AstStmt *s)
     infer(r, s->expr);
     for (int i = 0; i < r->scope.len; i++) {
         Binder *b = &r->binders.items[r->scope.items[i]];
-        if (b->extent == -1 && !r->failed) {
+        if (b->extent == EXTENT_UNKNOWN && !r->failed) {
             diag_error(r->diag, b->span,
                        "cannot tell the range of index '%s': use it as a "
                        "subscript of an array on the right side", b->name);
@@ -1023,7 +1076,8 @@ static void resolve_define(Resolver *r, const AstStmt *s)
             VEC_PUSH(r->arena, r->scope, r->binders.len - 1);
         }
     }
-    if (!fits(r, rank, dim, s->name_span, s->name)) {
+    if (!fits(r, rank, dim, s->name_span,
+              arena_printf(r->arena, "'%s'", s->name))) {
         sym->failed = 1;
         return;
     }
@@ -1239,6 +1293,10 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
             if (!table_find(&r.all_names, s->decls[k].name))
                 table_insert(arena, &r.all_names, s->decls[k].name,
                              s->decls[k].span);
+        for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
+            if (!table_find(&r.all_names, s->names[k]->name))
+                table_insert(arena, &r.all_names, s->names[k]->name,
+                             s->names[k]->span);
     }
 
     /* names whose statements failed to parse: their uses stay quiet */
@@ -1262,6 +1320,9 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
         case STMT_INPUT:
         case STMT_PARAM:
             resolve_decls(&r, s);
+            break;
+        case STMT_SIZE:
+            resolve_sizes(&r, s);
             break;
         case STMT_DEFINE:
             resolve_define(&r, s);

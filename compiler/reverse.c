@@ -158,12 +158,14 @@ static NodeId flat_point(Ir *ir, int32_t reduced)
     int n = ir_tuple_len(ir, reduced);
     const int32_t *v = ir_tuple_vars(ir, reduced);
     NodeId pos = ir_index(ir, v[0]);
-    for (int k = 1; k < n; k++)
-        pos = ir_node(ir, IR_ADD,
-                      ir_node(ir, IR_MUL, pos,
-                              ir_const(ir, ir->vars.items[v[k]].extent),
-                              NO_NODE),
+    for (int k = 1; k < n; k++) {
+        int extent = ir->vars.items[v[k]].extent;
+        NodeId e = IR_EXTENT_IS_SIZE(extent)
+                       ? ir_size(ir, IR_EXTENT_SIZE(extent))
+                       : ir_const(ir, extent);
+        pos = ir_node(ir, IR_ADD, ir_node(ir, IR_MUL, pos, e, NO_NODE),
                       ir_index(ir, v[k]), NO_NODE);
+    }
     return pos;
 }
 

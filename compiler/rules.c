@@ -247,7 +247,8 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
     case IR_HYPOTSLOPE:
     case IR_LT: case IR_LE: case IR_GT: case IR_GE: case IR_EQ: case IR_NE:
     case IR_AND: case IR_OR: case IR_NOT:
-    case IR_CONST: case IR_READ: case IR_INDEX: case IR_OP_COUNT:
+    case IR_CONST: case IR_READ: case IR_INDEX: case IR_SIZE:
+    case IR_OP_COUNT:
         break;
     }
     DV_UNREACHABLE();

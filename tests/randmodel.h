@@ -566,10 +566,12 @@ static inline int rm_call(RmModel *m, const RmCtx *c, int depth, int a)
         return rm_call2(m, f, a, o, fmax(b, rm_bnd(m, o)));
     }
     case RF_CLAMP: {
-        /* hi = lo + positive: with lo > hi the reverse pass sends the
-         * derivative to both ends (tests/random/clamp_lo_above_hi.dvs) */
-        int l = rm_expr(m, c, depth - 1);
-        int h = rm_arith(m, '+', l, rm_pos(m, rm_expr(m, c, depth - 1)));
+        /* mostly hi = lo + positive; lo > hi is allowed and gives lo */
+        int l = rm_expr(m, c, depth - 1), h;
+        if (rm_chance(&m->rng, 0.7))
+            h = rm_arith(m, '+', l, rm_pos(m, rm_expr(m, c, depth - 1)));
+        else
+            h = rm_expr(m, c, depth - 1);
         int id = rm_node(m, RK_CALL, f, fmax(b, fmax(rm_bnd(m, l),
                                                      rm_bnd(m, h))));
         m->node[id].narg = 3;
@@ -1129,7 +1131,7 @@ static inline void rm_draw_point(RmModel *m)
 }
 
 /* The model for SEED (free it with rm_free).  Same seed, same model. */
-static RmModel *rm_generate(uint64_t seed)
+static inline RmModel *rm_generate(uint64_t seed)
 {
     RmModel *m = calloc(1, sizeof *m);
     m->text = malloc(RM_MAX_TEXT);
@@ -1460,10 +1462,10 @@ static inline double complex rm_eval(RmModel *m, long k, double complex delta)
  * the decisions the point takes, as the reverse sweep does, so the two
  * agree at any point that is not itself a tie.  Central differences do
  * straddle kinks: each difference step is checked against the generator's
- * evaluator, which hashes every decision it takes; if an evaluation at
- * x +- h decided anything differently from x, the step shrinks tenfold (to
- * 1e-6 relative at most) and past that the entry is skipped and counted
- * (n_skipped).  Regression files have no tree: their models are written to
+ * evaluator, which hashes every decision it takes; a step h at which an
+ * evaluation at x +- h decided anything differently from x is not used,
+ * and an entry left without two successive clean steps (down to 1e-7
+ * relative) is skipped and counted (n_skipped).  Regression files have no tree: their models are written to
  * stay away from kinks at every point in [-2, 2]. */
 
 #define RM_STEP 1e-100      /* complex step: far below every value */
@@ -1669,51 +1671,67 @@ static inline void rm_read_output(RmCase *cs, int n, const char *text)
     }
 }
 
-/* Central differences of the IR evaluator's value in param entry k,
- * steps h and h/2, combined by Richardson extrapolation.  With a tree,
- * a step whose evaluations took other decisions than the point itself
- * (a kink or jump within h) is shrunk tenfold, up to three times; then
- * the entry is skipped (returns 0). */
-static inline int rm_differences(RmCase *c, Evaluation *ev, long k, double *deriv,
-                          double *tol)
+/* Richardson's extrapolation of central differences of the IR evaluator's
+ * value in param entry k (stored at *x, value x0), steps h and h/2: the
+ * h^2 error term cancels.  Returns 0 when, with a tree, an evaluation at
+ * one of the four points took another decision than the point itself (a
+ * kink or jump within h). */
+static inline int rm_richardson(RmCase *c, Evaluation *ev, long k, double *x,
+                                double x0, double h, uint64_t sig0, double *r)
 {
-    double *x = eval_param(ev, k), x0 = *x;
-    double f0 = eval_value(ev);
+    double d[2];
+    int kinked = 0;
+    for (int s = 0; s < 2; s++) {
+        double step = s ? h / 2 : h, f[2];
+        for (int side = 0; side < 2; side++) {
+            *x = x0 + (side ? -step : step);
+            f[side] = eval_value(ev);
+            if (c->tree) {
+                rm_eval(c->tree, k, side ? -step : step);
+                kinked |= c->tree->sig != sig0;
+            }
+        }
+        d[s] = (f[0] - f[1]) / (2 * step);
+    }
+    *x = x0;
+    *r = d[1] + (d[1] - d[0]) / 3;
+    return !kinked;
+}
+
+/* The derivative in param entry k by Richardson differences at the steps
+ * 1e-2 .. 1e-7 (relative to max(1, |x|)), and its tolerance: the closest
+ * agreement of two successive steps (how far the extrapolation still
+ * moves), plus 1e-7 relative, plus the rounding of f over h (a few units of
+ * 1e-16 |f|).  Steps that straddle a kink are left out; returns 0 when no
+ * two successive steps were clean. */
+static inline int rm_differences(RmCase *c, Evaluation *ev, long k,
+                                 double *deriv, double *tol)
+{
+    double *x = eval_param(ev, k), x0 = *x, f0 = eval_value(ev);
+    double scale = fmax(1, fabs(x0)), prev = NAN;
     uint64_t sig0 = 0;
+    int found = 0;
     if (c->tree) {
         rm_eval(c->tree, -1, 0);
         sig0 = c->tree->sig;
     }
-    for (double h = 1e-3 * fmax(1, fabs(x0)); h > 1e-7 * fmax(1, fabs(x0));
-         h /= 10) {
-        double d[2], hs[2] = {h, h / 2};
-        int kinked = 0;
-        for (int s = 0; s < 2; s++) {
-            double f[2];
-            for (int side = 0; side < 2; side++) {
-                double step = side ? -hs[s] : hs[s];
-                *x = x0 + step;
-                f[side] = eval_value(ev);
-                if (c->tree) {
-                    rm_eval(c->tree, k, step);
-                    kinked |= c->tree->sig != sig0;
-                }
-            }
-            d[s] = (f[0] - f[1]) / (2 * hs[s]);
-        }
-        *x = x0;
-        if (kinked)
+    for (double h = 1e-2 * scale; h > 1e-8 * scale; h /= 10) {
+        double r;
+        if (!rm_richardson(c, ev, k, x, x0, h, sig0, &r)) {
+            prev = NAN;
             continue;
-        /* the h^2 error term is removed; |d1 - d0| is its size, a bound on
-         * what remains while f is smooth on the scale h; the last term is
-         * rounding in f, a few units of 1e-16 |f| over h */
-        *deriv = d[1] + (d[1] - d[0]) / 3;
-        *tol = 1e-7 * fmax(1, fabs(*deriv)) + fabs(d[1] - d[0]) +
-               1e-13 * fmax(1, fabs(f0)) / h;
-        return 1;
+        }
+        if (!isnan(prev)) {
+            double t = fabs(r - prev) + 1e-7 * fmax(1, fabs(r)) +
+                       1e-13 * fmax(1, fabs(f0)) / h;
+            if (!found || t < *tol)
+                *deriv = r, *tol = t, found = 1;
+            if (fabs(r - prev) <= 1e-9 * fmax(1, fabs(r)))
+                break;      /* converged: smaller steps only add rounding */
+        }
+        prev = r;
     }
-    *x = x0;
-    return 0;
+    return found;
 }
 
 /* Judge one case whose driver ran. */
@@ -1809,7 +1827,7 @@ static inline int rm_check_batch(RmCase *cs, int n, const char *dir)
             rm_fail(c, "dervish build failed (status %s):\n%s",
                     rc ? rc : "?", err ? err : "");
         else {
-            DvOptions o = {NULL, NULL};
+            DvOptions o = {NULL, NULL, 0};
             c->have_comp = 1;
             if (dv_compile(&c->comp, c->label, c->text, strlen(c->text), &o))
                 rm_fail(c, "the dervish library rejects what the binary built");

@@ -1,6 +1,7 @@
 /* test_check_cmd.c - `dervish check`: it passes on correct models, reads
  * the --at file and reports its errors in the editor format, draws the same
- * random point for the same seed, and fails, naming the entry first, where
+ * random point for the same seed, takes runtime sizes from --size, the file
+ * or the counts of its numbers, and fails, naming the entry first, where
  * the reverse-mode derivative and the numerical ones truly disagree. */
 #include "testutil.h"
 
@@ -307,6 +308,320 @@ START_TEST(printed_values_reproduce_the_point)
 }
 END_TEST
 
+/* ------------------------------------------------------ runtime sizes */
+
+/* A line through n points; the sum of squares (not the mean) stays finite
+ * with no points at all. */
+static const char *const line_fit =
+    "size n\ninput x[n], y[n]\nparam a, b\n"
+    "pred[k] = a * x[k] + b\n"
+    "loss = sum(k: (pred[k] - y[k])^2)\noutput loss\n";
+
+/* The count of numbers on the line of out that starts with PREFIX. */
+static int numbers_on(const char *out, const char *prefix)
+{
+    const char *l = strstr(out, prefix);
+    ck_assert_msg(l != NULL, "no line '%s' in:\n%s", prefix, out);
+    int n = 0;
+    for (const char *p = l + strlen(prefix); *p && *p != '\n'; p++)
+        n += *p == '.';
+    return n;
+}
+
+/* Line 1 of a passing run of line_fit, and the start of line 3 (the first
+ * value printed back). */
+static void assert_size_lines(const char *out, const char *size_line,
+                              const char *first_value)
+{
+    char *l1 = line_of(out, 1), *l3 = line_of(out, 3), *last = last_line(out);
+    ck_assert_str_eq(l1, size_line);
+    ck_assert_msg(strncmp(l3, first_value, strlen(first_value)) == 0,
+                  "line 3: %s", l3);
+    ck_assert_str_eq(last, "check: 2 of 2 derivatives agree within "
+                           "tolerance 1e-06");
+    free(l1);
+    free(l3);
+    free(last);
+}
+
+START_TEST(a_size_given_nowhere_is_defaulted)
+{
+    char *out = NULL, *err = NULL;
+    ck_assert_int_eq(run_check(line_fit, NULL, "", &out, &err), 0);
+    ck_assert_str_eq(err, "");
+    assert_size_lines(out, "size n = 3 by default (set it with --size n=N or "
+                           "in the --at file)", "n = 3");
+    ck_assert_int_eq(numbers_on(out, "\nx ="), 3);
+    ck_assert_int_eq(numbers_on(out, "\ny ="), 3);
+    free(out);
+    free(err);
+}
+END_TEST
+
+START_TEST(a_size_from_the_command_line)
+{
+    char *out = NULL;
+    ck_assert_int_eq(run_check(line_fit, NULL, "--size n=5", &out, NULL), 0);
+    assert_size_lines(out, "size n = 5 from --size n=5", "n = 5");
+    ck_assert_int_eq(numbers_on(out, "\nx ="), 5);
+    free(out);
+    /* the command line wins over the file */
+    ck_assert_int_eq(run_check(line_fit, "n = 4\n", "--size n=2 --at p.at",
+                               &out, NULL), 0);
+    assert_size_lines(out, "size n = 2 from --size n=2", "n = 2");
+    ck_assert_int_eq(numbers_on(out, "\nx ="), 2);
+    free(out);
+}
+END_TEST
+
+START_TEST(a_size_from_the_at_file)
+{
+    char *out = NULL;
+    ck_assert_int_eq(run_check(line_fit, "# four points\nn = 4\n", "--at p.at",
+                               &out, NULL), 0);
+    /* the file sets n, so the values printed back leave it out */
+    assert_size_lines(out, "size n = 4 from line 2 of p.at", "x = ");
+    ck_assert_int_eq(numbers_on(out, "\nx ="), 4);
+    ck_assert_ptr_null(strstr(out, "\nn = "));
+    free(out);
+}
+END_TEST
+
+/* 12 numbers for X[n,3] give n = 4, and y agrees.  With w = (1, 2, -1),
+ * b = 0.5 and the integer data below, the residuals X w + b - y are
+ * (0.5, 1.5, -0.5, 2.5) (by hand), so loss = 0.25 + 2.25 + 0.25 + 6.25 =
+ * 9, dloss/dw = 2 X^T r = (6, 8, 4) and dloss/db = 2 sum r = 8. */
+START_TEST(a_size_from_the_count_of_numbers)
+{
+    static const char *const model =
+        "size n\ninput X[n, 3], y[n]\nparam w[3], b\n"
+        "r[k] = sum(j: X[k, j] * w[j]) + b - y[k]\n"
+        "loss = sum(k: r[k]^2)\noutput loss\n";
+    char *out = NULL, *err = NULL;
+    ck_assert_int_eq(run_check(model,
+                               "X = 1 0 0\n    0 1 0\n    0 0 1\n    1 1 1\n"
+                               "y = 1 1 0 0\nw = 1 2 -1\nb = 0.5\n",
+                               "--at p.at", &out, &err), 0);
+    ck_assert_str_eq(err, "");
+    char *l0 = line_of(out, 0), *l1 = line_of(out, 1), *l3 = line_of(out, 3);
+    ck_assert_str_eq(l0, "check: model m (m.dvs) at the values in p.at");
+    ck_assert_str_eq(l1, "size n = 4 from the 12 numbers of 'X' on line 1 "
+                         "of p.at");
+    ck_assert_str_eq(l3, "value: loss = 9");
+    /* every entry is exact, so the table keeps flat order */
+    static const char *const want[4][2] = {
+        {"w[0]", "6"}, {"w[1]", "8"}, {"w[2]", "4"}, {"b", "8"}};
+    for (int k = 0; k < 4; k++) {
+        char *row = line_of(strstr(out, "\nentry ") + 1, 1 + k);
+        char *name = field(row, 0), *rev = field(row, 1), *num = field(row, 2);
+        ck_assert_str_eq(name, want[k][0]);
+        ck_assert_str_eq(rev, want[k][1]);
+        ck_assert_str_eq(num, want[k][1]);
+        free(name);
+        free(rev);
+        free(num);
+        free(row);
+    }
+    free(l0);
+    free(l1);
+    free(l3);
+    free(out);
+    free(err);
+    /* a square X[n,n]: 9 numbers give n = 3 */
+    ck_assert_int_eq(run_check("size n\ninput X[n, n]\nparam c\n"
+                               "y = c * sum(i, j: X[i, j])\noutput y\n",
+                               "X = 1 2 3 4 5 6 7 8 9\nc = 2\n", "--at p.at",
+                               &out, NULL), 0);
+    l1 = line_of(out, 1);
+    l3 = line_of(out, 3);
+    ck_assert_str_eq(l1, "size n = 3 from the 9 numbers of 'X' on line 1 of "
+                         "p.at");
+    ck_assert_str_eq(l3, "value: y = 90");
+    free(l1);
+    free(l3);
+    free(out);
+}
+END_TEST
+
+/* No data: the sum of squares over no points is 0 and so is its gradient
+ * (an empty sum), and the check still runs. */
+START_TEST(a_size_of_zero)
+{
+    static const struct {
+        const char *at, *args, *size_line;
+    } cases[] = {
+        {NULL, "--size n=0", "size n = 0 from --size n=0"},
+        {"x =\ny =\n", "--at p.at", "size n = 0 from the 0 numbers of 'x' "
+                                    "on line 1 of p.at"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char *out = NULL;
+        ck_assert_int_eq(run_check(line_fit, cases[i].at, cases[i].args, &out,
+                                   NULL), 0);
+        char *l1 = line_of(out, 1), *last = last_line(out);
+        ck_assert_str_eq(l1, cases[i].size_line);
+        ck_assert_ptr_nonnull(strstr(out, "\nvalue: loss = 0\n"));
+        ck_assert_str_eq(last, "check: 2 of 2 derivatives agree within "
+                               "tolerance 1e-06");
+        for (int k = 0; k < 2; k++) {
+            char *row = line_of(strstr(out, "\nentry ") + 1, 1 + k);
+            char *rev = field(row, 1), *num = field(row, 2);
+            ck_assert_str_eq(rev, "0");
+            ck_assert_str_eq(num, "0");
+            free(rev);
+            free(num);
+            free(row);
+        }
+        free(l1);
+        free(last);
+        free(out);
+    }
+    /* printed back, an empty input is its name alone */
+    char *out = NULL;
+    ck_assert_int_eq(run_check(line_fit, NULL, "--size n=0", &out, NULL), 0);
+    ck_assert_ptr_nonnull(strstr(out, "\nn = 0\nx =\ny =\na = "));
+    free(out);
+}
+END_TEST
+
+/* The printed values, sizes included, give back the same point. */
+START_TEST(printed_sizes_reproduce_the_point)
+{
+    char *out = NULL, *again = NULL;
+    ck_assert_int_eq(run_check(line_fit, NULL, "--seed 3 --size n=6", &out,
+                               NULL), 0);
+    const char *values = strstr(out, "\nn = 6\n") + 1;
+    const char *table = strstr(out, "\nvalue: ");
+    ck_assert_ptr_nonnull(table);
+    char *at = tu_format("%.*s", (int)(table - values), values);
+    ck_assert_int_eq(run_check(line_fit, at, "--at p.at", &again, NULL), 0);
+    char *l1 = line_of(again, 1);
+    ck_assert_str_eq(l1, "size n = 6 from line 1 of p.at");
+    ck_assert_str_eq(strstr(again, "\nvalue: "), table);
+    free(l1);
+    free(at);
+    free(out);
+    free(again);
+}
+END_TEST
+
+/* Every error that --size can give: status 2, one line. */
+START_TEST(bad_size_options)
+{
+    static const struct {
+        const char *model, *args, *err;
+    } cases[] = {
+        {NULL, "--size n", "dervish: --size n: expected NAME=N, as in --size "
+                           "n=100\n"},
+        {NULL, "--size =4", "dervish: --size =4: expected NAME=N, as in "
+                            "--size n=100\n"},
+        {NULL, "--size n=-1", "dervish: --size n=-1: N must be a whole number "
+                              "from 0 to 2147483647\n"},
+        {NULL, "--size n=2.5", "dervish: --size n=2.5: N must be a whole "
+                               "number from 0 to 2147483647\n"},
+        {NULL, "--size n=", "dervish: --size n=: N must be a whole number "
+                            "from 0 to 2147483647\n"},
+        {NULL, "--size n=2147483648", "dervish: --size n=2147483648: N must "
+                                      "be a whole number from 0 to "
+                                      "2147483647\n"},
+        {NULL, "--size N=4", "dervish: --size N=4: the model has no size "
+                             "called 'N' (its size is n)\n"},
+        {"size n, m\ninput x[n], y[m]\nparam a\n"
+         "z = a * sum(i: x[i]) * sum(j: y[j])\noutput z\n",
+         "--size k=1", "dervish: --size k=1: the model has no size called 'k' "
+                       "(its sizes are n and m)\n"},
+        {"param a\ny = a * a\noutput y\n", "--size n=1",
+         "dervish: --size n=1: the model has no size called 'n' (it declares "
+         "none)\n"},
+        {NULL, "--size n=4 --size n=5", "dervish: --size n=5: n is already "
+                                        "set by --size n=4\n"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char *out = NULL, *err = NULL;
+        const char *model = cases[i].model ? cases[i].model : line_fit;
+        ck_assert_int_eq(run_check(model, NULL, cases[i].args, &out, &err), 2);
+        ck_assert_str_eq(out, "");
+        ck_assert_str_eq(err, cases[i].err);
+        free(out);
+        free(err);
+    }
+}
+END_TEST
+
+/* Sizes in the --at file and counts that disagree with them, reported in
+ * place; each case is a file of its own, as counts are checked only when
+ * the rest of the file is clean. */
+START_TEST(size_errors_in_the_at_file)
+{
+    static const char *const two_sizes =
+        "size n, m\ninput A[n, m], y[n]\nparam c\n"
+        "z = c * sum(i, j: A[i, j] * y[i])\noutput z\n";
+    static const struct {
+        const char *model, *at, *args, *err;
+    } cases[] = {
+        {NULL, "x = 1 2 3 4\ny = 1 2 3\n", "",
+         "p.at:2:1: error: 'y' has 3 numbers, but y[n] needs 4 with n = 4 "
+         "(from the 4 numbers of 'x' on line 1)\n"
+         "    y = 1 2 3\n"
+         "    ^\n"},
+        {NULL, "y = 1 2\n", "--size n=3",
+         "p.at:1:1: error: 'y' has 2 numbers, but y[n] needs 3 with n = 3 "
+         "(from --size n=3)\n"
+         "    y = 1 2\n"
+         "    ^\n"},
+        {NULL, "x = 1\nn = 2\n", "",
+         "p.at:1:1: error: 'x' has 1 number, but x[n] needs 2 with n = 2 "
+         "(from line 2)\n"
+         "    x = 1\n"
+         "    ^\n"},
+        {NULL, "n = 2.5\nx = 1 2\nn = 2\nn =\n", "",
+         "p.at:1:5: error: the size 'n' must be a whole number from 0 to "
+         "2147483647, not 2.5\n"
+         "    n = 2.5\n"
+         "        ^~~\n"
+         "p.at:3:1: error: 'n' is given twice (first on line 1)\n"
+         "    n = 2\n"
+         "    ^\n"
+         "p.at:4:1: error: 'n' is given twice (first on line 1)\n"
+         "    n =\n"
+         "    ^\n"},
+        {NULL, "n = 1 2\nm = 3\n", "",
+         "p.at:1:7: error: too many numbers for 'n': a size takes one\n"
+         "    n = 1 2\n"
+         "          ^\n"
+         "p.at:2:1: error: unknown name 'm': the model has no param, input or "
+         "size called that\n"
+         "    m = 3\n"
+         "    ^\n"},
+        {NULL, "n =\nx = 1\n", "",
+         "p.at:1:1: error: 'n' is a size and needs a whole number\n"
+         "    n =\n"
+         "    ^\n"},
+        {two_sizes, "A = 1 2 3 4 5 6\n", "",
+         "p.at:1:1: error: cannot tell n and m from the 6 numbers of 'A': "
+         "give all but one of them with --size or in this file\n"
+         "    A = 1 2 3 4 5 6\n"
+         "    ^\n"},
+        {two_sizes, "y = 1 2\nA = 1 2 3 4 5\n", "",
+         "p.at:2:1: error: 'A' has 5 numbers, but no whole m gives A[n,m] "
+         "that many with n = 2 (from the 2 numbers of 'y' on line 1)\n"
+         "    A = 1 2 3 4 5\n"
+         "    ^\n"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char *out = NULL, *err = NULL;
+        const char *model = cases[i].model ? cases[i].model : line_fit;
+        char *args = tu_format("%s --at p.at", cases[i].args);
+        ck_assert_int_eq(run_check(model, cases[i].at, args, &out, &err), 1);
+        ck_assert_str_eq(out, "");
+        ck_assert_str_eq(err, cases[i].err);
+        free(args);
+        free(out);
+        free(err);
+    }
+}
+END_TEST
+
 /* --------------------------------------------------------- mismatches */
 
 /* floor(a) jumps at 2 and sign(b) at 0; the rules say 0 there, central
@@ -394,7 +709,7 @@ START_TEST(a_wrong_gradient_is_named_first)
     }
     ck_assert(changed);
     TuCapture report;
-    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report)};
+    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
     ck_assert_int_eq(check_run(&c, &opt), 1);
     char *out = tu_capture_close(&report);
     char *row = first_row(out), *last = last_line(out);
@@ -456,5 +771,11 @@ int main(void)
                  tolerance_is_honoured, a_wrong_gradient_is_named_first,
                  a_value_that_is_not_finite_is_reported,
                  an_entry_without_numerical_derivative_is_unchecked);
+    TU_ADD_TESTS(tu_case(s, "sizes", 60),
+                 a_size_given_nowhere_is_defaulted,
+                 a_size_from_the_command_line, a_size_from_the_at_file,
+                 a_size_from_the_count_of_numbers, a_size_of_zero,
+                 printed_sizes_reproduce_the_point, bad_size_options,
+                 size_errors_in_the_at_file);
     return tu_main(s);
 }

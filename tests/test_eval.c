@@ -1,6 +1,7 @@
 /* test_eval.c - the IR evaluator (compiler/eval.c): values and gradients of
  * small models against closed-form derivatives, the complex step op by op,
- * and agreement with the emitted C built by gcc and clang.
+ * models with runtime sizes (0 included), and agreement with the emitted C
+ * built by gcc and clang.
  *
  * Derivative formulas are the elementary ones tabulated in Abramowitz and
  * Stegun (1964), chapter 4 (elementary functions), 6.3 (psi) and 7.1 (erf);
@@ -19,13 +20,20 @@ typedef struct Model {
     Evaluation *ev;
 } Model;
 
-static Model *model_new(const char *text)
+/* A model whose runtime sizes take the values SIZES (one per `size`
+ * name), or, with SIZES NULL, a model without sizes. */
+static Model *model_sized(const char *text, const long *sizes)
 {
     Model *m = calloc(1, sizeof *m);
     ck_assert_ptr_nonnull(m);
     tu_compile(&m->c, "t.dvs", text);
-    m->ev = eval_new(m->c.ir);
+    m->ev = sizes ? eval_new_sized(m->c.ir, sizes) : eval_new(m->c.ir);
     return m;
+}
+
+static Model *model_new(const char *text)
+{
+    return model_sized(text, NULL);
 }
 
 static void model_free(Model *m)
@@ -439,6 +447,248 @@ START_TEST(slots_and_flat_params)
 }
 END_TEST
 
+/* ------------------------------------------------------ runtime sizes */
+
+/* Invented data for the sized models (only the closed forms computed from
+ * it are checked). */
+static double data_value(long k, double shift)
+{
+    return sin(0.37 * (double)k + shift) + 0.001 * (double)k;
+}
+
+/* Fill the input NAME with n data values. */
+static double *set_data(Model *m, const char *name, long n, double shift)
+{
+    double *slot = eval_slot(m->ev, name);
+    ck_assert_msg(slot != NULL, "no input '%s'", name);
+    for (long k = 0; k < n; k++)
+        slot[k] = data_value(k, shift);
+    return slot;
+}
+
+static const char *const least_squares =
+    "size n\ninput x[n], y[n]\nparam a, b\n"
+    "pred[k] = a * x[k] + b\n"
+    "loss = sum(k: (pred[k] - y[k])^2) / n\noutput loss\n";
+
+/* Least squares over n points: L = (1/n) sum r_k^2 with r_k = a x_k + b -
+ * y_k, so dL/da = (2/n) sum r_k x_k and dL/db = (2/n) sum r_k (the chain
+ * rule, standard calculus).  The reverse sweep and the complex step must
+ * both give them. */
+START_TEST(least_squares_over_n_points)
+{
+    static const long ns[] = {1, 2, 300};
+    long n = ns[_i];
+    Model *m = model_sized(least_squares, &n);
+    const double *x = set_data(m, "x", n, 0.0);
+    const double *y = set_data(m, "y", n, 1.3);
+    SET(m, "a", 0.8);
+    SET(m, "b", -0.25);
+    double sse = 0, ga = 0, gb = 0;
+    for (long k = 0; k < n; k++) {
+        double r = 0.8 * x[k] - 0.25 - y[k];
+        sse += r * r;
+        ga += r * x[k];
+        gb += r;
+    }
+    double want[3] = {sse / n, 2 * ga / n, 2 * gb / n};
+    double value, *g = gradient(m, &value);
+    assert_near(value, want[0], 1e-13, "L");
+    assert_near(g[0], want[1], 1e-13, "dL/da");
+    assert_near(g[1], want[2], 1e-13, "dL/db");
+    for (long k = 0; k < 2; k++) {
+        EvalStep cs = eval_complex_step(m->ev, k, 1e-200);
+        ck_assert_int_eq(cs.blocked, -1);
+        assert_near(cs.value, want[0], 1e-13, "complex L");
+        assert_near(cs.slope, want[1 + k], 1e-13, "complex slope");
+    }
+    /* a second sweep starts from fresh adjoints */
+    double again, *g2 = gradient(m, &again);
+    ck_assert_double_eq(again, value);
+    ck_assert_double_eq(g2[0], g[0]);
+    ck_assert_double_eq(g2[1], g[1]);
+    free(g2);
+    free(g);
+    model_free(m);
+}
+END_TEST
+
+/* No data at all: an empty sum is 0, so the sum of squares and its
+ * gradient are exactly 0, and the mean is 0/0, NaN by IEEE 754. */
+START_TEST(least_squares_without_data)
+{
+    long n = 0;
+    Model *m = model_sized(least_squares, &n);
+    ck_assert_ptr_nonnull(eval_slot(m->ev, "x"));
+    SET(m, "a", 0.8);
+    SET(m, "b", -0.25);
+    ck_assert(isnan(eval_value(m->ev)));
+    model_free(m);
+
+    m = model_sized("size n\ninput x[n], y[n]\nparam a, b\n"
+                    "pred[k] = a * x[k] + b\n"
+                    "loss = sum(k: (pred[k] - y[k])^2)\noutput loss\n", &n);
+    SET(m, "a", 0.8);
+    SET(m, "b", -0.25);
+    double value, *g = gradient(m, &value);
+    ck_assert_double_eq(value, 0);
+    ck_assert_double_eq(g[0], 0);
+    ck_assert_double_eq(g[1], 0);
+    EvalStep cs = eval_complex_step(m->ev, 1, 1e-200);
+    ck_assert_double_eq(cs.value, 0);
+    ck_assert_double_eq(cs.slope, 0);
+    free(g);
+    model_free(m);
+}
+END_TEST
+
+/* A size as a real number: the negative log-likelihood of n normal
+ * samples (constant dropped), L = sum (x_k - mu)^2 / (2 s^2) + n log s,
+ * so dL/dmu = -sum (x_k - mu) / s^2 and dL/ds = -sum (x_k - mu)^2 / s^3
+ * + n / s (standard calculus).  At n = 0 all three are 0. */
+START_TEST(size_as_a_number)
+{
+    static const long ns[] = {0, 1, 7};
+    long n = ns[_i];
+    Model *m = model_sized("size n\ninput x[n]\nparam mu, s\n"
+                           "nll = sum(k: ((x[k] - mu) / s)^2) / 2 + "
+                           "n * log(s)\noutput nll\n", &n);
+    const double *x = set_data(m, "x", n, 0.4);
+    double mu = 0.2, s = 1.7;
+    SET(m, "mu", 0.2);
+    SET(m, "s", 1.7);
+    double sq = 0, lin = 0;
+    for (long k = 0; k < n; k++) {
+        sq += (x[k] - mu) * (x[k] - mu);
+        lin += x[k] - mu;
+    }
+    double value, *g = gradient(m, &value);
+    assert_near(value, sq / (2 * s * s) + (double)n * log(s), 1e-14, "L");
+    assert_near(g[0], -lin / (s * s), 1e-14, "dL/dmu");
+    assert_near(g[1], -sq / (s * s * s) + (double)n / s, 1e-14, "dL/ds");
+    EvalStep cs = eval_complex_step(m->ev, 1, 1e-200);
+    assert_near(cs.slope, -sq / (s * s * s) + (double)n / s, 1e-14,
+                "complex dL/ds");
+    free(g);
+    model_free(m);
+}
+END_TEST
+
+/* Reductions over no points keep their starting values: sum 0, max -inf,
+ * min +inf, and logsumexp log(0) = -inf; with no point to send an adjoint
+ * to, the gradient is 0. */
+START_TEST(empty_reductions)
+{
+    static const struct {
+        const char *reduction;
+        double value;
+    } cases[] = {
+        {"sum", 0}, {"max", -HUGE_VAL}, {"min", HUGE_VAL},
+        {"logsumexp", -HUGE_VAL},
+    };
+    long n = 0;
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char *text = tu_format("size n\ninput x[n]\nparam w\n"
+                               "y = %s(k: w * x[k])\noutput y\n",
+                               cases[i].reduction);
+        Model *m = model_sized(text, &n);
+        SET(m, "w", 0.5);
+        double value, *g = gradient(m, &value);
+        ck_assert_msg(value == cases[i].value, "%s: %g", cases[i].reduction,
+                      value);
+        ck_assert_double_eq(g[0], 0);
+        EvalStep cs = eval_complex_step(m->ev, 0, 1e-200);
+        ck_assert(cs.value == cases[i].value);
+        free(g);
+        free(text);
+        model_free(m);
+    }
+}
+END_TEST
+
+/* Rows of a sized matrix: r = X w - y, L = sum r_k^2, so dL/dw = 2 X^T r
+ * (standard calculus).  X[k, j] is row-major with k over n rows. */
+START_TEST(sized_rows_of_a_matrix)
+{
+    long n = 7;
+    Model *m = model_sized("size n\ninput X[n, 3], y[n]\nparam w[3]\n"
+                           "pred[k] = sum(j: X[k, j] * w[j])\n"
+                           "r = pred - y\n"
+                           "loss = sum(k: r[k]^2)\noutput loss\n", &n);
+    const double *X = set_data(m, "X", 3 * n, 0.0);
+    const double *y = set_data(m, "y", n, 2.0);
+    static const double w[3] = {0.3, -1.1, 0.6};
+    set(m, "w", w, 3);
+    double want = 0, want_g[3] = {0, 0, 0};
+    for (long k = 0; k < n; k++) {
+        double r = -y[k];
+        for (int j = 0; j < 3; j++)
+            r += X[3 * k + j] * w[j];
+        want += r * r;
+        for (int j = 0; j < 3; j++)
+            want_g[j] += 2 * r * X[3 * k + j];
+    }
+    double value, *g = gradient(m, &value);
+    assert_near(value, want, 1e-14, "L");
+    for (int j = 0; j < 3; j++)
+        assert_near(g[j], want_g[j], 1e-14, "dL/dw");
+    free(g);
+    model_free(m);
+}
+END_TEST
+
+/* Two sizes, and a max over both: the winner's flat position i m + j uses
+ * the size m, so the adjoint must land on the right element.  With
+ * y = max_ij c A_ij + c^2 sum_ij A_ij / (n m) and c > 0, dy/dc = max A +
+ * 2 c mean(A). */
+START_TEST(max_over_two_sizes)
+{
+    long sizes[2] = {3, 4};
+    Model *m = model_sized("size n, m\ninput A[n, m]\nparam c\n"
+                           "y = max(i, j: c * A[i, j]) + "
+                           "sum(i, j: A[i, j]) * c^2 / (n * m)\noutput y\n",
+                           sizes);
+    double *A = set_data(m, "A", 12, 0.0);
+    A[2 * 4 + 1] = 5;   /* the one winner, in the last row */
+    double top = 5, total = 0;
+    for (int k = 0; k < 12; k++)
+        total += A[k];
+    SET(m, "c", 0.5);
+    double value, *g = gradient(m, &value);
+    assert_near(value, 0.5 * top + 0.25 * total / 12, 1e-14, "y");
+    assert_near(g[0], top + 2 * 0.5 * total / 12, 1e-14, "dy/dc");
+    free(g);
+    model_free(m);
+}
+END_TEST
+
+START_TEST(extents_and_element_counts)
+{
+    long sizes[2] = {5, 0};
+    Model *m = model_sized("size n, m\ninput X[n, 2], E[n, m], s\n"
+                           "param w[2]\n"
+                           "y = sum(k, j: X[k, j] * w[j]) + s * "
+                           "sum(k, j: E[k, j])\noutput y\n",
+                           sizes);
+    const Ir *ir = m->c.ir;
+    const IrArray *X = tu_array(ir, "X", ROLE_INPUT);
+    const IrArray *E = tu_array(ir, "E", ROLE_INPUT);
+    const IrArray *s = tu_array(ir, "s", ROLE_INPUT);
+    ck_assert_int_eq(eval_extent(X->dim[0], sizes), 5);
+    ck_assert_int_eq(eval_extent(X->dim[1], sizes), 2);
+    ck_assert_int_eq(eval_elements(X, sizes), 10);
+    ck_assert_int_eq(eval_elements(E, sizes), 0);
+    ck_assert_int_eq(eval_elements(s, NULL), 1);
+    /* params keep fixed extents: the flat vector ignores the sizes */
+    ck_assert_int_eq(eval_param_count(m->ev), 2);
+    long huge[2] = {EVAL_MAX_ELEMENTS, 2};
+    ck_assert_int_eq(eval_elements(X, huge), -1);
+    huge[1] = 0;
+    ck_assert_int_eq(eval_elements(E, huge), 0);
+    model_free(m);
+}
+END_TEST
+
 /* --------------------------------------- agreement with the emitted C */
 
 /* Models with inputs, reductions over one and two indices, conditions and
@@ -572,6 +822,12 @@ int main(void)
     tcase_add_loop_test(tc, each_op_by_reverse_sweep_and_complex_step, 0,
                         (int)(sizeof op_cases / sizeof op_cases[0]));
     tcase_add_test(tc, complex_step_stops_at_erf_and_friends);
+    tc = tu_case(s, "sizes", 0);
+    tcase_add_loop_test(tc, least_squares_over_n_points, 0, 3);
+    tcase_add_loop_test(tc, size_as_a_number, 0, 3);
+    TU_ADD_TESTS(tc, least_squares_without_data, empty_reductions,
+                 sized_rows_of_a_matrix, max_over_two_sizes,
+                 extents_and_element_counts);
     tcase_add_loop_test(tu_case(s, "emitted", 60), agrees_with_the_emitted_c,
                         0, (int)(sizeof c_models / sizeof c_models[0]));
     return tu_main(s);

@@ -442,11 +442,10 @@ START_TEST(statement_level_messages)
                  "':', as in 'sum(i: x[i])'\n"
                  "    y = sum(1: a)\n"
                  "            ^\n");
-    check_errors("size N\n", 1,
-                 "t.dvs:1:1: error: 'size' declarations are not supported by "
-                 "this version of dervish\n"
-                 "    size N\n"
-                 "    ^~~~\n");
+    check_errors("size N, 2\n", 1,
+                 "t.dvs:1:9: error: 'size' takes names, as in 'size n, m'\n"
+                 "    size N, 2\n"
+                 "            ^\n");
     check_errors("def f(x) = x\n", 1,
                  "t.dvs:1:1: error: 'def' functions are not supported by "
                  "this version of dervish\n"
