@@ -2,9 +2,11 @@
  * See dervish.h. */
 #include "dervish.h"
 #include "emit_c.h"
+#include "emit_layout.h"
 #include "parse.h"
 #include "resolve.h"
 #include "reverse.h"
+#include "stream.h"
 
 #include <string.h>
 
@@ -46,6 +48,7 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     if (c->diag.errors)
         return 1;
     ir_verify(ir);
+    stream_plan(ir);
     reverse_pass(ir);
     ir_verify(ir);
     c->ir = ir;
@@ -62,6 +65,36 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.version = DERVISH_VERSION;
     o.stack_limit = c->stack_limit;
     emit_c(c->ir, &o, c_out, h_out);
+}
+
+void dv_explain(const DvCompilation *c, FILE *out)
+{
+    const Ir *ir = c->ir;
+    Storage st = layout_plan(ir, c->stack_limit);
+    fprintf(out, "%s: %s.\n", ir->model,
+            ir->row_plan ? ir->row_plan : "the model has no size");
+    int any = 0;
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (st.slot[i] < 0)
+            continue;
+        fprintf(out, "%s%s[", any ? ", " : "  in work: ", a->name);
+        for (int k = 0; k < a->rank; k++) {
+            if (IR_EXTENT_IS_SIZE(a->dim[k]))
+                fprintf(out, "%s%s", k ? "," : "",
+                        ir->sizes.items[IR_EXTENT_SIZE(a->dim[k])].name);
+            else
+                fprintf(out, "%s%d", k ? "," : "", a->dim[k]);
+        }
+        fputs("]", out);
+        any = 1;
+    }
+    if (any)
+        fputs("\n", out);
+    else
+        fprintf(out, "  no arrays in work%s.\n",
+                st.uses_work ? " (the work argument may be NULL)" : "");
+    layout_free(&st);
 }
 
 void dv_free(DvCompilation *c)

@@ -39,6 +39,10 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
 void dv_emit(const DvCompilation *c, const char *source_name,
              const char *header_name, Buf *c_out, Buf *h_out);
 
+/* Print how the emitted gradient uses memory (row by row or not, and
+ * which arrays live in the work buffer), and why. */
+void dv_explain(const DvCompilation *c, FILE *out);
+
 void dv_free(DvCompilation *c);
 
 /* The file name without directory and extension ("a/b/kiln.dvs" -> "kiln"),

@@ -34,7 +34,20 @@ typedef struct Emitter {
     int *temp;          /* per node: its temporary's number, or 0 */
     int stamp;          /* statements emitted so far */
     int ntemps;         /* temporaries named so far in the function */
+    /* row by row: inside a row block, the row var of the statement being
+     * emitted is the block's loop counter */
+    int base;           /* indentation of statements: 1, or 2 in a block */
+    int32_t row_var;    /* the current statement's row var, or -1 */
+    const char *row_name;   /* the block's loop counter */
 } Emitter;
+
+/* The C name of an index var: the row counter for the row var. */
+static const char *var_name(const Emitter *e, int32_t var)
+{
+    if (var == e->row_var && e->row_var >= 0)
+        return e->row_name;
+    return e->ir->vars.items[var].name;
+}
 
 /* ------------------------------------------------------------ helpers */
 
@@ -154,9 +167,15 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     buf_put(e->out, a->name);
     int n = ir_tuple_len(e->ir, tuple);
     const int32_t *v = ir_tuple_vars(e->ir, tuple);
+    if (a->row_local) {
+        /* only the current row exists: the row subscript goes */
+        for (int k = 1; k < n; k++)
+            buf_printf(e->out, "[%s]", var_name(e, v[k]));
+        return;
+    }
     if (ir_array_fixed(a) && e->storage.slot[array] < 0) {
         for (int k = 0; k < n; k++)
-            buf_printf(e->out, "[%s]", e->ir->vars.items[v[k]].name);
+            buf_printf(e->out, "[%s]", var_name(e, v[k]));
         return;
     }
     /* a flat array (sized input, or kept in work): row-major position in
@@ -168,7 +187,7 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
         if (k)
             buf_printf(e->out, "%s * %s + ", k > 1 ? ")" : "",
                        layout_extent(e->ir, a->dim[k]));
-        buf_put(e->out, e->ir->vars.items[v[k]].name);
+        buf_put(e->out, var_name(e, v[k]));
     }
     buf_put(e->out, "]");
 }
@@ -200,7 +219,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
                        ir->sizes.items[n->var].name);
             e->uses_in = 1;
         } else {
-            buf_put(e->out, ir->vars.items[n->var].name);
+            buf_put(e->out, var_name(e, n->var));
         }
         break;
     case OPK_PREFIX:
@@ -331,28 +350,32 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         if (e->last_origin != UINT32_MAX)
             buf_put(e->out, "\n");
         e->last_origin = s->origin.off;
+        indent(e, e->base);
         if (s->note) {
-            buf_printf(e->out, "    /* %s:%d: %s */\n", e->opt->model_file,
+            buf_printf(e->out, "/* %s:%d: %s */\n", e->opt->model_file,
                        line, s->note);
         } else {
-            buf_printf(e->out, "    /* %s%s:%d: ", origin_label,
+            buf_printf(e->out, "/* %s%s:%d: ", origin_label,
                        e->opt->model_file, line);
             put_model_text(e->out, ir->src, s->origin);
             buf_put(e->out, " */\n");
         }
     }
     int scalar_init = 0;
+    int first_dim = t->row_local;   /* a row-local array drops its row */
     if (!is_external(t, ir) && !e->declared[s->target]) {
         e->declared[s->target] = 1;
-        if (t->rank == 0 && s->kind == SK_SET) {
+        if (t->rank == first_dim && s->kind == SK_SET) {
             scalar_init = 1;
         } else if (e->storage.slot[s->target] >= 0) {
-            buf_printf(e->out, "    double *%s = " DV_PREFIX "work + "
+            indent(e, e->base);
+            buf_printf(e->out, "double *%s = " DV_PREFIX "work + "
                        DV_PREFIX "at[%d];\n", t->name,
                        e->storage.slot[s->target]);
         } else {
-            buf_printf(e->out, "    %s %s", c_type(t), t->name);
-            for (int k = 0; k < t->rank; k++)
+            indent(e, e->base);
+            buf_printf(e->out, "%s %s", c_type(t), t->name);
+            for (int k = first_dim; k < t->rank; k++)
                 buf_printf(e->out, "[%d]", t->dim[k]);
             buf_put(e->out, ";\n");
         }
@@ -370,12 +393,20 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
     int n = ir_tuple_len(ir, s->domain);
     /* outside loops the temporaries simply precede the statement (their
      * names are unique in the function) */
-    int block = s->kind == SK_MAX || s->kind == SK_MIN || (shared && n > 0);
-    int depth = 1;
+    int loops = n - (s->row_var >= 0 && e->row_var >= 0);
+    int block = s->kind == SK_MAX || s->kind == SK_MIN || (shared && loops > 0);
+    int depth = e->base;
+    if (block && loops == 0 && n > 0) {
+        /* a max over the row alone: braces keep its dvs_next local */
+        indent(e, depth++);
+        buf_put(e->out, "{\n");
+    }
     const int32_t *v = ir_tuple_vars(ir, s->domain);
-    for (int k = 0; k < n; k++, depth++) {
+    for (int k = 0; k < n; k++) {
         const IrIndexVar *iv = &ir->vars.items[v[k]];
-        indent(e, depth);
+        if (v[k] == e->row_var)
+            continue;       /* the row block's loop */
+        indent(e, depth++);
         int sized = IR_EXTENT_IS_SIZE(iv->extent);
         buf_printf(e->out, "for (%s %s = 0; %s < %s; %s++)%s\n",
                    sized ? "long" : "int", iv->name, iv->name,
@@ -440,7 +471,7 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
                 if (k)
                     buf_printf(e->out, "%s * %s + ", k > 1 ? ")" : "",
                                layout_extent(ir, ir->vars.items[rv[k]].extent));
-                buf_put(e->out, ir->vars.items[rv[k]].name);
+                buf_put(e->out, var_name(e, rv[k]));
             }
             buf_put(e->out, ";\n");
         }
@@ -451,8 +482,8 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
     }
     if (s->kind != SK_MAX && s->kind != SK_MIN)
         buf_put(e->out, ";\n");
-    while (block && --depth > 0) {
-        indent(e, depth);
+    while (block && depth > e->base) {
+        indent(e, --depth);
         buf_put(e->out, "}\n");
     }
 }
@@ -611,6 +642,122 @@ static void emit_helpers(const Ir *ir, const char *reached,
     }
 }
 
+/* The row block's loop counter: the name of the first row statement's row
+ * var, unless another var of a row statement has that name. */
+static const char *row_counter(const Ir *ir)
+{
+    const char *name = NULL;
+    for (int i = 0; i < ir->forward.len && !name; i++)
+        if (ir->forward.items[i].row_var >= 0)
+            name = ir->vars.items[ir->forward.items[i].row_var].name;
+    const IrStmtList *lists[2] = {&ir->forward, &ir->reverse};
+    for (int l = 0; l < 2; l++)
+        for (int i = 0; i < lists[l]->len; i++) {
+            const IrStmt *s = &lists[l]->items[i];
+            int n = ir_tuple_len(ir, s->domain);
+            const int32_t *v = ir_tuple_vars(ir, s->domain);
+            for (int k = 0; k < n; k++)
+                if (v[k] != s->row_var &&
+                    strcmp(ir->vars.items[v[k]].name, name) == 0)
+                    return DV_PREFIX "row";
+        }
+    return name;
+}
+
+static void mark_reads(const Ir *ir, NodeId id, char *read)
+{
+    const IrNode *n = ir_at(ir, id);
+    if (n->op == IR_READ)
+        read[n->array] = 1;
+    for (int i = 0; i < n->nargs; i++)
+        mark_reads(ir, n->arg[i], read);
+}
+
+/* Emit the row statements list[from..to) inside one loop over the rows.
+ * In the gradient's reverse sweep the block first recomputes the per-row
+ * values those statements read (only the row's own values exist), and
+ * zeroing statements of adjoints that sum over all rows go before it. */
+static void emit_row_block(Emitter *e, const IrStmtList *list, int from,
+                           int to, int recompute, const char *label)
+{
+    const Ir *ir = e->ir;
+    for (int i = from; i < to; i++)
+        if (list->items[i].row_var < 0)
+            emit_stmt(e, &list->items[i], label);
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].row_local)
+            e->declared[i] = 0;     /* a new scope */
+    buf_printf(e->out, "\n    for (long %s = 0; %s < %s; %s++) {\n",
+               e->row_name, e->row_name,
+               layout_extent(ir, IR_EXTENT_OF_SIZE(ir->row_size)), e->row_name);
+    e->uses_in = 1;
+    e->base = 2;
+    e->last_origin = UINT32_MAX;
+    if (recompute) {
+        char *need = calloc((size_t)ir->arrays.len + 1, 1);
+        char *redo = calloc((size_t)ir->forward.len + 1, 1);
+        if (!need || !redo)
+            exit(3);
+        for (int i = from; i < to; i++)
+            if (list->items[i].row_var >= 0)
+                mark_reads(ir, list->items[i].expr, need);
+        for (int i = ir->forward.len - 1; i >= 0; i--) {
+            const IrStmt *s = &ir->forward.items[i];
+            if (s->row_var >= 0 && ir->arrays.items[s->target].row_local &&
+                need[s->target]) {
+                redo[i] = 1;
+                mark_reads(ir, s->expr, need);
+            }
+        }
+        int any = 0;
+        for (int i = 0; i < ir->forward.len; i++)
+            if (redo[i]) {
+                e->row_var = ir->forward.items[i].row_var;
+                emit_stmt(e, &ir->forward.items[i], "");
+                any = 1;
+            }
+        free(need);
+        free(redo);
+        if (any)
+            buf_put(e->out, "\n");
+        e->last_origin = UINT32_MAX;
+    }
+    for (int i = from; i < to; i++)
+        if (list->items[i].row_var >= 0) {
+            e->row_var = list->items[i].row_var;
+            emit_stmt(e, &list->items[i], label);
+        }
+    e->row_var = -1;
+    e->base = 1;
+    buf_put(e->out, "    }\n");
+    e->last_origin = UINT32_MAX;
+}
+
+/* Emit a statement list; row statements go into row blocks. */
+static void emit_list(Emitter *e, const IrStmtList *list, int recompute,
+                      const char *label)
+{
+    for (int i = 0; i < list->len;) {
+        const IrStmt *s = &list->items[i];
+        if (s->row_var < 0 || e->ir->row_size < 0) {
+            emit_stmt(e, s, label);
+            i++;
+            continue;
+        }
+        /* the run of row statements, with the zeroing statements among
+         * them (which move before the block) */
+        int j = i;
+        while (j < list->len &&
+               (list->items[j].row_var >= 0 ||
+                (list->items[j].kind == SK_SET &&
+                 ir_at(e->ir, list->items[j].expr)->op == IR_CONST &&
+                 j + 1 < list->len && list->items[j + 1].row_var >= 0)))
+            j++;
+        emit_row_block(e, list, i, j, recompute, label);
+        i = j;
+    }
+}
+
 static void emit_function(Emitter *e, Function fn, Buf *c)
 {
     const Ir *ir = e->ir;
@@ -619,17 +766,18 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     e->fn = fn;
     e->uses_p = e->uses_in = 0;
     e->ntemps = 0;
+    e->base = 1;
+    e->row_var = -1;
+    e->row_name = ir->row_size >= 0 ? row_counter(ir) : NULL;
     e->last_origin = UINT32_MAX;
     memset(e->declared, 0, (size_t)ir->arrays.len);
-    for (int i = 0; i < ir->forward.len; i++)
-        emit_stmt(e, &ir->forward.items[i], "");
+    emit_list(e, &ir->forward, 0, "");
     if (fn == FN_GRADIENT) {
         buf_put(&body, ir->forward.len ? "\n" : "");
         buf_put(&body, "    /* The reverse sweep: adjoints, last statement "
                        "first. */\n");
         e->last_origin = UINT32_MAX;
-        for (int i = 0; i < ir->reverse.len; i++)
-            emit_stmt(e, &ir->reverse.items[i], "adjoint of: ");
+        emit_list(e, &ir->reverse, 1, "adjoint of: ");
     }
     buf_put(&body, "\n    return ");
     int32_t none = ir_tuple((Ir *)ir, NULL, 0);

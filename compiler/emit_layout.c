@@ -40,6 +40,14 @@ Storage layout_plan(const Ir *ir, long stack_limit)
             st.uses_product = 1;    /* its count is checked */
         if (!written[i] || !is_local(ir, a) || a->rank == 0)
             continue;
+        if (a->row_local) {
+            /* one row at a time: its other dimensions are fixed */
+            long row = 1;
+            for (int k = 1; k < a->rank; k++)
+                row *= a->dim[k];
+            if (row <= stack_limit)
+                continue;
+        }
         if (!ir_array_fixed(a) || ir_array_size(a) > stack_limit) {
             st.slot[i] = st.nslots++;
             st.uses_product |= a->rank > 1;

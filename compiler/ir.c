@@ -26,6 +26,7 @@ Ir *ir_new(Arena *arena, const Source *src)
     ir->arena = arena;
     ir->src = src;
     ir->output = -1;
+    ir->row_size = -1;
     return ir;
 }
 
@@ -247,6 +248,7 @@ IrStmt ir_stmt(Ir *ir, IrStmtKind kind, int32_t target, int32_t tuple,
     s.argpos = -1;
     s.expr = expr;
     s.origin = origin;
+    s.row_var = -1;
     return s;
 }
 

@@ -98,6 +98,8 @@ typedef struct IrArray {
     uint8_t useful;     /* an output depends on it (activity analysis) */
     uint8_t no_adjoint; /* the output does not depend on it, though it is
                            computed from params (a logsumexp shift) */
+    uint8_t row_local;  /* row by row: only the current row of it (its
+                           first dimension) exists at a time */
 } IrArray;
 
 typedef struct IrIndexVar {
@@ -123,6 +125,7 @@ typedef struct IrStmt {
     NodeId expr;
     Span origin;        /* the model statement this came from */
     const char *note;   /* a comment to show instead of the model text */
+    int32_t row_var;    /* row by row: the domain var that is the row, or -1 */
 } IrStmt;
 
 typedef VEC(IrStmt) IrStmtList;
@@ -139,6 +142,8 @@ typedef struct Ir {
     IrStmtList forward;         /* the model's statements in order */
     IrStmtList reverse;         /* adjoint statements, in sweep order */
     int32_t output;             /* the output array */
+    int32_t row_size;           /* row by row over this size, or -1 */
+    const char *row_plan;       /* why row by row was or was not chosen */
     Span output_span;           /* the output's name in its statement */
     Span output_stmt;           /* the whole output statement */
     /* hash-consing tables, open addressing, sized powers of two */

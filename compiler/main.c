@@ -25,6 +25,7 @@ static const char usage[] =
     "         --fail-on-warning  treat warnings as errors (exit 1, write nothing)\n"
     "         --stack-limit N  most doubles in one local array (default 4096);\n"
     "                          larger arrays live in the caller's work buffer\n"
+    "         --explain        say how the gradient uses memory, and why\n"
     "       dervish check [options] MODEL.dvs    compare the gradient with\n"
     "                                            numerical derivatives\n"
     "         --at FILE        values of params and inputs (name = numbers...)\n"
@@ -54,6 +55,7 @@ typedef struct Args {
     const char *seed;
     const char *tolerance;
     int fail_on_warning;
+    int explain;
     const char *stack_limit;
     const char *sizes[16];  /* --size NAME=N */
     int nsizes;
@@ -82,6 +84,10 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->tolerance;
         if (strcmp(opt, "--fail-on-warning") == 0) {
             a->fail_on_warning = 1;
+            continue;
+        }
+        if (is_build && strcmp(opt, "--explain") == 0) {
+            a->explain = 1;
             continue;
         }
         if (!is_build && strcmp(opt, "--size") == 0) {
@@ -190,6 +196,8 @@ static int build(const Args *a)
     if (!status) {
         Buf src = {0}, hdr = {0};
         dv_emit(&c, dv_basename(cp), dv_basename(hp), &src, &hdr);
+        if (a->explain)
+            dv_explain(&c, stdout);
         /* the header first: a source is never newer than its header */
         OutputFile out[2] = {{hp, hdr.data, hdr.len}, {cp, src.data, src.len}};
         if (fileio_write_all(out, 2) != 0)

@@ -14,6 +14,8 @@
 
 typedef struct Reverse {
     Ir *ir;
+    int32_t row_var;    /* row by row: the row var of the statement being
+                           reversed, or -1 */
     char *written;      /* adjoint array has received a contribution */
     NodeList reads;  /* scratch: distinct active reads of one expression */
     DeriveMemo memo;
@@ -94,6 +96,7 @@ static int32_t adjoint_of(Reverse *rv, int32_t array)
                                a->span);
     ir->arrays.items[array].adjoint = adj;
     ir->arrays.items[adj].primal = array;
+    ir->arrays.items[adj].row_local = ir->arrays.items[array].row_local;
     return adj;
 }
 
@@ -114,8 +117,13 @@ static int32_t whole_tuple(Ir *ir, int32_t array)
 static void emit_stmt(Reverse *rv, IrStmtKind kind, int32_t target,
                       int32_t tuple, int32_t domain, NodeId e, Span origin)
 {
-    ir_add_stmt(rv->ir, &rv->ir->reverse,
-                ir_stmt(rv->ir, kind, target, tuple, domain, e, origin));
+    IrStmt s = ir_stmt(rv->ir, kind, target, tuple, domain, e, origin);
+    /* a statement over the row belongs to the row's block */
+    int n = ir_tuple_len(rv->ir, domain);
+    for (int k = 0; k < n; k++)
+        if (ir_tuple_vars(rv->ir, domain)[k] == rv->row_var)
+            s.row_var = rv->row_var;
+    ir_add_stmt(rv->ir, &rv->ir->reverse, s);
 }
 
 /* True when a statement over DOMAIN writing array[tuple] writes each
@@ -134,18 +142,31 @@ static int covers_once(const Ir *ir, int32_t tuple, int32_t domain)
 }
 
 /* Add contribution e to adj[tuple] over domain: the first write to an
- * adjoint sets it when it covers every element once, else zeroes it first. */
+ * adjoint sets it when it covers every element once, else zeroes it first.
+ * Row by row, an adjoint that outlives the row (of a param, or of a value
+ * computed before the rows) sums over all the rows, so it is zeroed before
+ * them; one of a per-row value is zeroed for its own row. */
 static void accumulate(Reverse *rv, int32_t adj, int32_t tuple,
                        int32_t domain, NodeId e, Span origin)
 {
     Ir *ir = rv->ir;
+    int in_rows = rv->row_var >= 0;
+    int row_local = ir->arrays.items[adj].row_local;
     if (!rv->written[adj]) {
         rv->written[adj] = 1;
-        if (covers_once(ir, tuple, domain)) {
+        if ((!in_rows || row_local) && covers_once(ir, tuple, domain)) {
             emit_stmt(rv, SK_SET, adj, tuple, domain, e, origin);
             return;
         }
         int32_t whole = whole_tuple(ir, adj);
+        if (in_rows && row_local) {
+            /* only the current row: the row var in the first place */
+            int n = ir_tuple_len(ir, whole);
+            int32_t vars[IR_MAX_RANK];
+            memcpy(vars, ir_tuple_vars(ir, whole), (size_t)n * sizeof *vars);
+            vars[0] = rv->row_var;
+            whole = ir_tuple(ir, vars, n);
+        }
         emit_stmt(rv, SK_SET, adj, whole, whole, ir_const(ir, 0), origin);
     }
     emit_stmt(rv, SK_ADD, adj, tuple, domain, e, origin);
@@ -172,6 +193,7 @@ static NodeId flat_point(Ir *ir, int32_t reduced)
 static void reverse_stmt(Reverse *rv, const IrStmt *s)
 {
     Ir *ir = rv->ir;
+    rv->row_var = s->row_var;
     IrArray *t = &ir->arrays.items[s->target];
     if (!t->varied || !t->useful)
         return;
@@ -240,6 +262,7 @@ void reverse_pass(Ir *ir)
     Reverse rv;
     memset(&rv, 0, sizeof rv);
     rv.ir = ir;
+    rv.row_var = -1;
     activity(ir);
     /* adjoints are created on demand; size the flags for the worst case */
     rv.written = arena_alloc(ir->arena, (size_t)(2 * ir->arrays.len + 1));
@@ -252,6 +275,7 @@ void reverse_pass(Ir *ir)
     }
     for (int i = ir->forward.len - 1; i >= 0; i--)
         reverse_stmt(&rv, &ir->forward.items[i]);
+    rv.row_var = -1;
     /* every gradient member is overwritten, also where it is zero */
     int narrays = ir->arrays.len;
     for (int i = 0; i < narrays; i++) {
