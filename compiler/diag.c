@@ -47,7 +47,7 @@ static void show_line(const Diag *d, Span at)
     while (end < len && text[end] != '\n' && text[end] != '\r')
         end++;
     int cut_left = 0, cut_right = 0;
-    if (off - start > SHOW_WIDTH / 2) {
+    if (end - start > SHOW_WIDTH && off - start > SHOW_WIDTH / 2) {
         start = off - SHOW_WIDTH / 2;
         cut_left = 1;
     }
@@ -88,15 +88,16 @@ static void report(Diag *d, const char *kind, Span at, const char *fmt,
 void diag_error(Diag *d, Span at, const char *fmt, ...)
 {
     d->errors++;
-    if (d->errors > d->max_errors)
+    if (d->errors > d->max_errors) {
+        if (d->errors == d->max_errors + 1 && d->out)
+            fprintf(d->out, "%s: too many errors (limit is %d); stopping\n",
+                    d->src->path, d->max_errors);
         return;
+    }
     va_list ap;
     va_start(ap, fmt);
     report(d, "error", at, fmt, ap);
     va_end(ap);
-    if (d->errors == d->max_errors && d->out)
-        fprintf(d->out, "%s: too many errors (limit is %d); stopping\n",
-                d->src->path, d->max_errors);
 }
 
 void diag_warning(Diag *d, Span at, const char *fmt, ...)

@@ -7,6 +7,8 @@
 #include "gradcheck.h"
 #include "names.h"
 
+#include <errno.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -29,7 +31,8 @@ static const char usage[] =
     "       dervish check [options] MODEL.dvs    compare the gradient with\n"
     "                                            numerical derivatives\n"
     "         --at FILE        values of params and inputs (name = numbers...)\n"
-    "         --seed N         seed for random values when --at is not given\n"
+    "         --seed N         seed for the random values of whatever --at\n"
+    "                          does not give\n"
     "         --tolerance X    largest accepted relative error (default 1e-6)\n"
     "         --size NAME=N    a runtime size (else taken from the values given)\n"
     "         --name NAME      symbol prefix\n"
@@ -216,16 +219,21 @@ static int check(const Args *a)
     CheckOptions o = {a->at, 1, 1e-6, stdout, a->sizes, a->nsizes};
     if (a->seed) {
         char *end;
+        errno = 0;
         o.seed = strtoul(a->seed, &end, 10);
-        if (*end || !*a->seed || a->seed[0] == '-' || a->seed[0] == '+')
-            return usage_error("--seed takes a whole number, not '%s'",
+        if (*end || !*a->seed || a->seed[0] == '-' || a->seed[0] == '+' ||
+            errno == ERANGE)
+            return usage_error("--seed takes a whole number that fits an "
+                               "unsigned long, not '%s'",
                                a->seed);
     }
     if (a->tolerance) {
         char *end;
         o.tolerance = strtod(a->tolerance, &end);
-        if (*end || !*a->tolerance || !(o.tolerance > 0))
-            return usage_error("--tolerance takes a positive number, not '%s'",
+        if (*end || !*a->tolerance || !(o.tolerance > 0) ||
+            !(o.tolerance < HUGE_VAL))
+            return usage_error("--tolerance takes a positive, finite number, "
+                               "not '%s'",
                                a->tolerance);
     }
     DvCompilation c;

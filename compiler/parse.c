@@ -200,10 +200,12 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
                        "expected an expression after %s, found %s",
                        parse_token_name(prev), found);
     } else if (prev == TOK_MODEL || prev == TOK_CONST || prev == TOK_INPUT ||
-               prev == TOK_PARAM || prev == TOK_OUTPUT) {
+               prev == TOK_PARAM || prev == TOK_OUTPUT || prev == TOK_SIZE) {
         diag_error(ps->diag, tok.span, "expected a name after %s, found %s",
                    parse_token_name(prev), found);
-    } else if (first == TOK_NAME && ps->prev.span.off == ps->first.span.off) {
+    } else if ((first == TOK_NAME && ps->prev.span.off == ps->first.span.off) ||
+               (first == TOK_CONST && prev == TOK_NAME &&
+                ps->prev2.code == TOK_CONST)) {
         diag_error(ps->diag, tok.span,
                    "expected '=' after the name '%.*s' to define it, found %s",
                    (int)ps->prev.span.len, src->text + ps->prev.span.off,
@@ -474,8 +476,9 @@ AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
             DvParserInit(parser);
         }
         if (t.code == 0 || ps.too_deep || ps.lexer.too_deep ||
-            diag->errors >= diag->max_errors)
+            diag->errors > diag->max_errors)
             break;
+        ps.prev2 = ps.prev;
         ps.prev = t;
     }
     DvParserFree(parser, free);

@@ -11,6 +11,7 @@ typedef struct ParseState {
     Lexer lexer;
     VEC(AstStmt *) stmts;
     Token prev;         /* the token before the one being parsed */
+    Token prev2;        /* and the one before that */
     Token first;        /* the first token of the current statement */
     VEC(Span) stmt_names;       /* names seen in the current statement */
     VEC(const char *) failed;   /* names a failed statement may define */

@@ -1309,7 +1309,7 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     const AstStmt *last_output = NULL;
     for (int i = 0; i < m->nstmts; i++) {
         const AstStmt *s = m->stmts[i];
-        if (diag->errors >= diag->max_errors)
+        if (diag->errors > diag->max_errors)
             break;
         switch (s->kind) {
         case STMT_MODEL:

@@ -287,7 +287,11 @@ void reverse_pass(Ir *ir)
             emit_stmt(&rv, SK_SET, adj, whole, whole, ir_const(ir, 0),
                       ir->arrays.items[i].span);
             ir->reverse.items[ir->reverse.len - 1].note = arena_printf(
-                ir->arena, "%s does not affect the output", ir->arrays.items[i].name);
+                ir->arena, ir->arrays.items[i].useful
+                                ? "the derivative with respect to %s is zero "
+                                  "everywhere"
+                                : "%s does not affect the output",
+                ir->arrays.items[i].name);
             rv.written[adj] = 1;
         }
     }

@@ -220,16 +220,18 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
         return arg == 0 ? select(ir, first, one, NO_NODE)
                         : select(ir, first, NO_NODE, one);
     }
-    case IR_CLAMP:          /* x inside [lo, hi] (ends included): 1 for x */
-        if (arg == 0)
-            return select(ir, op2(ir, IR_AND, op2(ir, IR_GE, x, y),
-                                  op2(ir, IR_LE, x, z)), one, NO_NODE);
+    case IR_CLAMP: {        /* the helper's own tests, so NaN bounds agree */
+        NodeId below = op2(ir, IR_LT, x, y), above = op2(ir, IR_GT, x, z);
+        NodeId not_below = op1(ir, IR_NOT, below);
+        if (arg == 0)       /* x inside [lo, hi] (ends included) */
+            return select(ir, op2(ir, IR_AND, not_below,
+                                  op1(ir, IR_NOT, above)), one, NO_NODE);
         if (arg == 1)
-            return select(ir, op2(ir, IR_LT, x, y), one, NO_NODE);
+            return select(ir, below, one, NO_NODE);
         /* hi is the value only when x is not below lo: clamp tests lo
          * first, which matters when lo > hi */
-        return select(ir, op2(ir, IR_AND, op2(ir, IR_GE, x, y),
-                              op2(ir, IR_GT, x, z)), one, NO_NODE);
+        return select(ir, op2(ir, IR_AND, not_below, above), one, NO_NODE);
+    }
     case IR_SIGMOID:
         return rules_mul(ir, value, sub(ir, one, value));
     case IR_SOFTPLUS:
