@@ -733,6 +733,13 @@ static void emit_row_block(Emitter *e, const IrStmtList *list, int from,
     e->last_origin = UINT32_MAX;
 }
 
+/* A statement that only zeroes an array outside the rows. */
+static int is_zeroing(const Ir *ir, const IrStmt *s)
+{
+    return s->row_var < 0 && s->kind == SK_SET &&
+           ir_at(ir, s->expr)->op == IR_CONST;
+}
+
 /* Emit a statement list; row statements go into row blocks. */
 static void emit_list(Emitter *e, const IrStmtList *list, int recompute,
                       const char *label)
@@ -747,12 +754,16 @@ static void emit_list(Emitter *e, const IrStmtList *list, int recompute,
         /* the run of row statements, with the zeroing statements among
          * them (which move before the block) */
         int j = i;
-        while (j < list->len &&
-               (list->items[j].row_var >= 0 ||
-                (list->items[j].kind == SK_SET &&
-                 ir_at(e->ir, list->items[j].expr)->op == IR_CONST &&
-                 j + 1 < list->len && list->items[j + 1].row_var >= 0)))
-            j++;
+        for (;;) {
+            while (j < list->len && list->items[j].row_var >= 0)
+                j++;
+            int k = j;
+            while (k < list->len && is_zeroing(e->ir, &list->items[k]))
+                k++;
+            if (k == j || k == list->len || list->items[k].row_var < 0)
+                break;
+            j = k;
+        }
         emit_row_block(e, list, i, j, recompute, label);
         i = j;
     }
