@@ -172,8 +172,8 @@ static const PartialCase partial_cases[] = {
     /* clamp tests x < lo first, so hi is the value only when x is not below
      * lo too; written with the helper's own comparisons, so NaN bounds
      * give the same branch as the value */
-    {IR_CLAMP, {"((!(x < y) && !(x > z)) ? 1 : 0)", "((x < y) ? 1 : 0)",
-                "((!(x < y) && (x > z)) ? 1 : 0)"}},
+    {IR_CLAMP, {"(((!(x < y)) && (!(x > z))) ? 1 : 0)", "((x < y) ? 1 : 0)",
+                "(((!(x < y)) && (x > z)) ? 1 : 0)"}},
     {IR_RELU, {"((x > 0) ? 1 : 0)"}},
     /* sigmoid' = s (1 - s); softplus' = sigmoid */
     {IR_SIGMOID, {"(v * (1 - v))"}},
