@@ -71,13 +71,13 @@ stmt(S) ::= INPUT(K) decls(D).
 stmt(S) ::= PARAM(K) decls(D).
     { S = parse_stmt(ps, STMT_PARAM, K.span, D.last); S->decls = D.items; S->ndecls = D.len; }
 stmt(S) ::= OUTPUT(K) exprs(L).
-    { S = parse_output(ps, K, L); }
+    { S = parse_names(ps, STMT_OUTPUT, K, L); }
 stmt(S) ::= NAME(N) ASSIGN expr(E).
     { S = parse_stmt(ps, STMT_DEFINE, N.span, E->span); S->name = parse_name(ps, N); S->name_span = N.span; S->expr = E; }
 stmt(S) ::= NAME(N) LBRACKET exprs(L) RBRACKET ASSIGN expr(E).
     { S = parse_define_indexed(ps, N, L, E); }
-stmt(S) ::= SIZE(K) exprs.
-    { S = parse_later(ps, K, "'size' declarations are"); }
+stmt(S) ::= SIZE(K) exprs(L).
+    { S = parse_names(ps, STMT_SIZE, K, L); }
 stmt(S) ::= DEF(K) NAME LPAREN exprs RPAREN ASSIGN expr.
     { S = parse_later(ps, K, "'def' functions are"); }
 stmt(S) ::= USE(K) STRING.
