@@ -43,7 +43,7 @@ RUNTIME  := $(sort $(wildcard runtime/*.c))
 TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 
-.PHONY: all check samples demo soak fuzz clean install uninstall
+.PHONY: all check samples demo soak fuzz bench clean install uninstall
 # The copy ./dervish is made only by the default build directory.
 all: $(B)/dervish $(if $(filter build,$(B)),dervish)
 
@@ -95,6 +95,10 @@ $(B)/tests/%: tests/%.c $(wildcard tests/*.h tests/e2e/*.h) $(B)/libdervish.a Ma
 check: $(B)/dervish $(TEST_BINS)
 	@sh samples/run_samples.sh $(B)/dervish
 	@sh tests/run_all.sh $(B)
+
+# Time per row and scratch of row-by-row gradients (bench/README.md)
+bench: $(B)/dervish
+	@sh bench/run.sh $(B)/dervish
 
 # A long run of the randomized-model test: make soak SOAK_COUNT=10000
 SOAK_COUNT ?= 10000
