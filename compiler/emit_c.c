@@ -673,12 +673,14 @@ static void mark_reads(const Ir *ir, NodeId id, char *read)
         mark_reads(ir, n->arg[i], read);
 }
 
-/* Emit the row statements list[from..to) inside one loop over the rows.
- * In the gradient's reverse sweep the block first recomputes the per-row
- * values those statements read (only the row's own values exist), and
- * zeroing statements of adjoints that sum over all rows go before it. */
-static void emit_row_block(Emitter *e, const IrStmtList *list, int from,
-                           int to, int recompute, const char *label)
+/* The loop over the rows: list[from..to) (its zeroing statements go
+ * before the loop); forward[fwd_from..fwd_to) first when the forward and
+ * reverse rows share one pass; with recompute, the per-row values the
+ * reverse statements read are computed again first (only one row of them
+ * exists at a time). */
+static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
+                      int recompute, int fwd_from, int fwd_to,
+                      const char *label)
 {
     const Ir *ir = e->ir;
     for (int i = from; i < to; i++)
@@ -693,6 +695,10 @@ static void emit_row_block(Emitter *e, const IrStmtList *list, int from,
     e->uses_in = 1;
     e->base = 2;
     e->last_origin = UINT32_MAX;
+    for (int i = fwd_from; i >= 0 && i < fwd_to; i++) {
+        e->row_var = ir->forward.items[i].row_var;
+        emit_stmt(e, &ir->forward.items[i], "");
+    }
     if (recompute) {
         char *need = calloc((size_t)ir->arrays.len + 1, 1);
         char *redo = calloc((size_t)ir->forward.len + 1, 1);
@@ -740,33 +746,102 @@ static int is_zeroing(const Ir *ir, const IrStmt *s)
            ir_at(ir, s->expr)->op == IR_CONST;
 }
 
-/* Emit a statement list; row statements go into row blocks. */
-static void emit_list(Emitter *e, const IrStmtList *list, int recompute,
-                      const char *label)
+/* The end of the run of row statements starting at i, with the zeroing
+ * statements among them (which move before the block). */
+static int row_run_end(const Ir *ir, const IrStmtList *list, int i)
 {
-    for (int i = 0; i < list->len;) {
+    int j = i;
+    for (;;) {
+        while (j < list->len && list->items[j].row_var >= 0)
+            j++;
+        int k = j;
+        while (k < list->len && is_zeroing(ir, &list->items[k]))
+            k++;
+        if (k == j || k == list->len || list->items[k].row_var < 0)
+            return j;
+        j = k;
+    }
+}
+
+/* Emit list[from..to); row statements go into row blocks. */
+static void emit_list(Emitter *e, const IrStmtList *list, int from, int to,
+                      int recompute, const char *label)
+{
+    for (int i = from; i < to;) {
         const IrStmt *s = &list->items[i];
         if (s->row_var < 0 || e->ir->row_size < 0) {
             emit_stmt(e, s, label);
             i++;
             continue;
         }
-        /* the run of row statements, with the zeroing statements among
-         * them (which move before the block) */
-        int j = i;
-        for (;;) {
-            while (j < list->len && list->items[j].row_var >= 0)
-                j++;
-            int k = j;
-            while (k < list->len && is_zeroing(e->ir, &list->items[k]))
-                k++;
-            if (k == j || k == list->len || list->items[k].row_var < 0)
-                break;
-            j = k;
-        }
-        emit_row_block(e, list, i, j, recompute, label);
+        int j = row_run_end(e->ir, list, i);
+        emit_rows(e, list, i, j, recompute, -1, -1, label);
         i = j;
     }
+}
+
+/* Where the gradient can do the rows in one pass: forward[fwd_from..fwd_to)
+ * are the row statements, reverse[rev_from..rev_to) the reverse ones. */
+typedef struct OnePass {
+    int fwd_from, fwd_to, rev_from, rev_to;
+} OnePass;
+
+static int reads_marked(const Ir *ir, NodeId id, const char *marked)
+{
+    const IrNode *n = ir_at(ir, id);
+    if (n->op == IR_READ && marked[n->array])
+        return 1;
+    for (int i = 0; i < n->nargs; i++)
+        if (reads_marked(ir, n->arg[i], marked))
+            return 1;
+    return 0;
+}
+
+/* One pass suffices when no adjoint computed before or inside the rows
+ * reads anything that needs all the rows (a sum over them, or a value
+ * computed after them): then each row's adjoints are known while the row
+ * is at hand, and the rows are not read twice. */
+static int one_pass(const Ir *ir, OnePass *op)
+{
+    if (ir->row_size < 0)
+        return 0;
+    int f = 0;
+    while (f < ir->forward.len && ir->forward.items[f].row_var < 0)
+        f++;
+    int fend = f;
+    while (fend < ir->forward.len && ir->forward.items[fend].row_var >= 0)
+        fend++;
+    int r = 0;
+    while (r < ir->reverse.len && ir->reverse.items[r].row_var < 0)
+        r++;
+    if (f == ir->forward.len || r == ir->reverse.len)
+        return 0;
+    /* the zeroing statements just before the run belong to it */
+    while (r > 0 && is_zeroing(ir, &ir->reverse.items[r - 1]))
+        r--;
+    int rend = row_run_end(ir, &ir->reverse, r);
+    for (int i = rend; i < ir->reverse.len; i++)
+        if (ir->reverse.items[i].row_var >= 0)
+            return 0;       /* a second run */
+    char *late = calloc((size_t)ir->arrays.len + 1, 1);
+    if (!late)
+        exit(3);
+    for (int i = f; i < ir->forward.len; i++) {
+        const IrStmt *s = &ir->forward.items[i];
+        if (i >= fend || !ir->arrays.items[s->target].row_local)
+            late[s->target] = 1;
+        if (s->argpos >= 0)
+            late[s->argpos] = 1;
+    }
+    int ok = 1;
+    for (int i = 0; i < rend && ok; i++)
+        ok = !reads_marked(ir, ir->reverse.items[i].expr, late);
+    free(late);
+    op->fwd_from = f;
+    op->fwd_to = fend;
+    op->rev_from = r;
+    op->rev_to = rend;
+    return ok;
 }
 
 static void emit_function(Emitter *e, Function fn, Buf *c)
@@ -782,13 +857,31 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     e->row_name = ir->row_size >= 0 ? row_counter(ir) : NULL;
     e->last_origin = UINT32_MAX;
     memset(e->declared, 0, (size_t)ir->arrays.len);
-    emit_list(e, &ir->forward, 0, "");
-    if (fn == FN_GRADIENT) {
-        buf_put(&body, ir->forward.len ? "\n" : "");
-        buf_put(&body, "    /* The reverse sweep: adjoints, last statement "
-                       "first. */\n");
+    OnePass op;
+    if (fn == FN_GRADIENT && one_pass(ir, &op)) {
+        /* forward before the rows; the adjoints that need nothing from
+         * the rows; one loop doing each row's value and adjoints; the
+         * forward after the rows; the rest of the reverse sweep */
+        emit_list(e, &ir->forward, 0, op.fwd_from, 0, "");
+        buf_put(&body, "\n    /* The reverse sweep, last statement first; the "
+                       "rows' values and\n     * adjoints share one pass. */\n");
         e->last_origin = UINT32_MAX;
-        emit_list(e, &ir->reverse, 1, "adjoint of: ");
+        emit_list(e, &ir->reverse, 0, op.rev_from, 0, "adjoint of: ");
+        emit_rows(e, &ir->reverse, op.rev_from, op.rev_to, 0, op.fwd_from,
+                  op.fwd_to, "adjoint of: ");
+        emit_list(e, &ir->forward, op.fwd_to, ir->forward.len, 0, "");
+        e->last_origin = UINT32_MAX;
+        emit_list(e, &ir->reverse, op.rev_to, ir->reverse.len, 0,
+                  "adjoint of: ");
+    } else {
+        emit_list(e, &ir->forward, 0, ir->forward.len, 0, "");
+        if (fn == FN_GRADIENT) {
+            buf_put(&body, ir->forward.len ? "\n" : "");
+            buf_put(&body, "    /* The reverse sweep: adjoints, last statement "
+                           "first. */\n");
+            e->last_origin = UINT32_MAX;
+            emit_list(e, &ir->reverse, 0, ir->reverse.len, 1, "adjoint of: ");
+        }
     }
     buf_put(&body, "\n    return ");
     int32_t none = ir_tuple((Ir *)ir, NULL, 0);

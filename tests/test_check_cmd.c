@@ -622,6 +622,37 @@ START_TEST(size_errors_in_the_at_file)
 }
 END_TEST
 
+/* Sizes that make an array too large for the evaluator stop the check
+ * before anything is allocated: status 1, one line naming every size. */
+START_TEST(sizes_too_large_for_an_array)
+{
+    static const char *const grid =
+        "size n, m\ninput A[n, m]\nparam c\n"
+        "y = c * sum(i, j: A[i, j])\noutput y\n";
+    static const struct {
+        const char *at, *args, *err;
+    } cases[] = {
+        /* 100000 * 100000 = 1e10 > 2^31 - 1, the element limit */
+        {NULL, "--size n=100000 --size m=100000",
+         "dervish: with n = 100000, m = 100000, 'A' would have more than "
+         "2147483647 elements\n"},
+        /* m takes its default 3: (2^31 - 1) * 3 is past the limit */
+        {"n = 2147483647\n", "--at p.at",
+         "dervish: with n = 2147483647, m = 3, 'A' would have more than "
+         "2147483647 elements\n"},
+    };
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char *out = NULL, *err = NULL;
+        ck_assert_int_eq(run_check(grid, cases[i].at, cases[i].args, &out,
+                                   &err), 1);
+        ck_assert_str_eq(out, "");
+        ck_assert_str_eq(err, cases[i].err);
+        free(out);
+        free(err);
+    }
+}
+END_TEST
+
 /* --------------------------------------------------------- mismatches */
 
 /* floor(a) jumps at 2 and sign(b) at 0; the rules say 0 there, central
@@ -776,6 +807,6 @@ int main(void)
                  a_size_from_the_command_line, a_size_from_the_at_file,
                  a_size_from_the_count_of_numbers, a_size_of_zero,
                  printed_sizes_reproduce_the_point, bad_size_options,
-                 size_errors_in_the_at_file);
+                 size_errors_in_the_at_file, sizes_too_large_for_an_array);
     return tu_main(s);
 }

@@ -127,6 +127,11 @@ static char *reference(const char *source, const char *header,
 
 /* ------------------------------------------------ messages of the CLI */
 
+/* As many --size options as dervish check takes: 16. */
+#define SIZE_OPT "--size n=1 "
+#define SIZE_OPTS_4 SIZE_OPT SIZE_OPT SIZE_OPT SIZE_OPT
+#define SIZE_OPTS_16 SIZE_OPTS_4 SIZE_OPTS_4 SIZE_OPTS_4 SIZE_OPTS_4
+
 START_TEST(usage_errors)
 {
     static const struct { const char *args, *message; } cases[] = {
@@ -148,12 +153,39 @@ START_TEST(usage_errors)
         {"build --name 9lives m.dvs", "--name '9lives' is not a C "
                                       "identifier"},
         {"build --name a-b m.dvs", "--name 'a-b' is not a C identifier"},
-        {"check --seed 12x m.dvs", "--seed takes a whole number, not '12x'"},
-        {"check --seed -3 m.dvs", "--seed takes a whole number, not '-3'"},
-        {"check --tolerance 0 m.dvs", "--tolerance takes a positive number, "
-                                      "not '0'"},
-        {"check --tolerance nan m.dvs", "--tolerance takes a positive "
-                                        "number, not 'nan'"},
+        {"check --seed 12x m.dvs", "--seed takes a whole number that fits "
+                                   "an unsigned long, not '12x'"},
+        {"check --seed -3 m.dvs", "--seed takes a whole number that fits an "
+                                  "unsigned long, not '-3'"},
+        /* 2^64 + 1 (by hand), past every unsigned long */
+        {"check --seed 18446744073709551617 m.dvs",
+         "--seed takes a whole number that fits an unsigned long, not "
+         "'18446744073709551617'"},
+        {"check --tolerance 0 m.dvs", "--tolerance takes a positive, finite "
+                                      "number, not '0'"},
+        {"check --tolerance nan m.dvs", "--tolerance takes a positive, "
+                                        "finite number, not 'nan'"},
+        {"check --tolerance inf m.dvs", "--tolerance takes a positive, "
+                                        "finite number, not 'inf'"},
+        {"check --tolerance 1e999 m.dvs", "--tolerance takes a positive, "
+                                          "finite number, not '1e999'"},
+        {"build m.dvs --stack-limit", "option --stack-limit needs a value"},
+        {"build --stack-limit 0 m.dvs", "--stack-limit takes a whole number "
+                                        "of doubles, at least 1, not '0'"},
+        {"build --stack-limit -64 m.dvs", "--stack-limit takes a whole "
+                                          "number of doubles, at least 1, "
+                                          "not '-64'"},
+        {"build --stack-limit x m.dvs", "--stack-limit takes a whole number "
+                                        "of doubles, at least 1, not 'x'"},
+        {"build --stack-limit 2.5 m.dvs", "--stack-limit takes a whole "
+                                          "number of doubles, at least 1, "
+                                          "not '2.5'"},
+        {"build --stack-limit '' m.dvs", "--stack-limit takes a whole number "
+                                         "of doubles, at least 1, not ''"},
+        {"check --stack-limit 64 m.dvs", "unknown option '--stack-limit'"},
+        {"check m.dvs --size", "option --size needs a value"},
+        {"build --size n=4 m.dvs", "unknown option '--size'"},
+        {"check " SIZE_OPTS_16 SIZE_OPT "m.dvs", "at most 16 --size options"},
         {"build -o x.c --header x.c m.dvs", "the C source and the header "
                                             "are both 'x.c'"},
         /* the default header of m.h is m.h itself */
@@ -168,6 +200,10 @@ START_TEST(usage_errors)
         expect_run(dir, cases[i].args, 2, want);
         free(want);
     }
+    /* 16 --size options pass the command line and reach the model */
+    expect_run(dir, "check " SIZE_OPTS_16 "m.dvs", 2,
+               "dervish: --size n=1: the model has no size called 'n' (it "
+               "declares none)\n");
     expect_listing(dir, "m.dvs\n");
     tu_rmdir(dir);
     free(dir);
