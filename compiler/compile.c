@@ -78,13 +78,16 @@ void dv_explain(const DvCompilation *c, FILE *out)
         const IrArray *a = &ir->arrays.items[i];
         if (st.slot[i] < 0)
             continue;
+        /* a row-local array keeps one row: its first dimension is not
+         * listed */
         fprintf(out, "%s%s[", any ? ", " : "  in work: ", a->name);
-        for (int k = 0; k < a->rank; k++) {
+        for (int k = a->row_local; k < a->rank; k++) {
+            const char *sep = k > a->row_local ? "," : "";
             if (IR_EXTENT_IS_SIZE(a->dim[k]))
-                fprintf(out, "%s%s", k ? "," : "",
+                fprintf(out, "%s%s", sep,
                         ir->sizes.items[IR_EXTENT_SIZE(a->dim[k])].name);
             else
-                fprintf(out, "%s%d", k ? "," : "", a->dim[k]);
+                fprintf(out, "%s%d", sep, a->dim[k]);
         }
         fputs("]", out);
         any = 1;

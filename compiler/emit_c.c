@@ -167,25 +167,23 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     buf_put(e->out, a->name);
     int n = ir_tuple_len(e->ir, tuple);
     const int32_t *v = ir_tuple_vars(e->ir, tuple);
-    if (a->row_local) {
-        /* only the current row exists: the row subscript goes */
-        for (int k = 1; k < n; k++)
-            buf_printf(e->out, "[%s]", var_name(e, v[k]));
-        return;
-    }
-    if (ir_array_fixed(a) && e->storage.slot[array] < 0) {
-        for (int k = 0; k < n; k++)
+    /* a row-local array has only the current row: its row subscript goes */
+    int first = a->row_local;
+    if (e->storage.slot[array] < 0 && (a->row_local || ir_array_fixed(a))) {
+        for (int k = first; k < n; k++)
             buf_printf(e->out, "[%s]", var_name(e, v[k]));
         return;
     }
     /* a flat array (sized input, or kept in work): row-major position in
      * Horner form, [(i * D1 + j) * D2 + k] */
+    if (n == first)
+        return;     /* cannot happen: a scalar row is never in work */
     buf_put(e->out, "[");
-    for (int k = 2; k < n; k++)
+    for (int k = first + 2; k < n; k++)
         buf_put(e->out, "(");
-    for (int k = 0; k < n; k++) {
-        if (k)
-            buf_printf(e->out, "%s * %s + ", k > 1 ? ")" : "",
+    for (int k = first; k < n; k++) {
+        if (k > first)
+            buf_printf(e->out, "%s * %s + ", k > first + 1 ? ")" : "",
                        layout_extent(e->ir, a->dim[k]));
         buf_put(e->out, var_name(e, v[k]));
     }

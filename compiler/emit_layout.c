@@ -41,16 +41,22 @@ Storage layout_plan(const Ir *ir, long stack_limit)
         if (!written[i] || !is_local(ir, a) || a->rank == 0)
             continue;
         if (a->row_local) {
-            /* one row at a time: its other dimensions are fixed */
+            /* one row at a time: a local array, unless the row's own
+             * length is a size or too long for the stack (then one row of
+             * it lives in work) */
             long row = 1;
-            for (int k = 1; k < a->rank; k++)
-                row *= a->dim[k];
-            if (row <= stack_limit)
+            int sized = 0;
+            for (int k = 1; k < a->rank; k++) {
+                sized |= IR_EXTENT_IS_SIZE(a->dim[k]);
+                row *= sized ? 1 : a->dim[k];
+            }
+            if (!sized && row <= stack_limit)
                 continue;
         }
-        if (!ir_array_fixed(a) || ir_array_size(a) > stack_limit) {
+        if (a->row_local || !ir_array_fixed(a) ||
+            ir_array_size(a) > stack_limit) {
             st.slot[i] = st.nslots++;
-            st.uses_product |= a->rank > 1;
+            st.uses_product |= a->rank > 1 + a->row_local;
         }
     }
     st.has_input |= ir->sizes.len > 0;
@@ -74,13 +80,14 @@ const char *layout_extent(const Ir *ir, int extent)
 }
 
 /* "dvs_count_product(...(size_t)d0, d1)...)": the element count of an
- * array, saturating on overflow. */
+ * array (of one row of a row-local one), saturating on overflow. */
 static void put_count(Buf *c, const Ir *ir, const IrArray *a)
 {
-    for (int k = 1; k < a->rank; k++)
+    int first = a->row_local;
+    for (int k = first + 1; k < a->rank; k++)
         buf_put(c, DV_PREFIX "count_product(");
-    buf_printf(c, "(size_t)%s", layout_extent(ir, a->dim[0]));
-    for (int k = 1; k < a->rank; k++)
+    buf_printf(c, "(size_t)%s", layout_extent(ir, a->dim[first]));
+    for (int k = first + 1; k < a->rank; k++)
         buf_printf(c, ", (size_t)%s)", layout_extent(ir, a->dim[k]));
 }
 
@@ -133,6 +140,9 @@ void layout_emit(Buf *c, const Ir *ir, const Storage *st)
         put_count(c, ir, a);
         buf_put(c, ");\n");
     }
+    /* the caller allocates bytes: their count must fit too */
+    buf_put(c, "    if (" DV_PREFIX "end > (size_t)-1 / sizeof(double))\n"
+               "        return (size_t)-1;\n");
     buf_put(c, "    return " DV_PREFIX "end;\n}\n\n");
     buf_printf(c, "/* The doubles of work %s_value and %s_gradient need; 0 "
                   "when a size is\n * negative or the count overflows (then "

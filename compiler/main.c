@@ -117,8 +117,10 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
         return usage_error("%s", "no model file given");
     if (a->stack_limit) {
         char *end;
+        errno = 0;
         long n = strtol(a->stack_limit, &end, 10);
-        if (*end || !*a->stack_limit || n < 1)
+        if (*end || !*a->stack_limit || n < 1 || errno == ERANGE ||
+            !(a->stack_limit[0] >= '0' && a->stack_limit[0] <= '9'))
             return usage_error("--stack-limit takes a whole number of "
                                "doubles, at least 1, not '%s'", a->stack_limit);
     }

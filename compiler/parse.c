@@ -273,6 +273,10 @@ AstStmt *parse_names(ParseState *ps, AstStmtKind kind, Token keyword,
             else
                 diag_error(ps->diag, names.items[i]->span,
                            "'size' takes names, as in 'size n, m'");
+            /* the names it did give stay quiet when used later */
+            for (int k = 0; kind == STMT_SIZE && k < names.len; k++)
+                if (names.items[k]->kind == AST_NAME)
+                    VEC_PUSH(ps->arena, ps->failed, names.items[k]->name);
             return NULL;
         }
     s->names = names.items;

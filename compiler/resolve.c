@@ -1121,8 +1121,8 @@ static void resolve_output(Resolver *r, const AstStmt *s)
             continue;
         if (sym->kind != SYM_ARRAY) {
             diag_error(r->diag, n->span,
-                       "'%s' is a constant; an output must depend on the "
-                       "params", n->name);
+                       "'%s' is a %s; an output must depend on the params",
+                       n->name, sym->kind == SYM_SIZE ? "size" : "constant");
             continue;
         }
         if (r->noutputs > 1) {

@@ -305,7 +305,8 @@ static inline int rm_un(RmModel *m, int kind, int op, int a, double bound)
     return id;
 }
 
-static inline int rm_bin(RmModel *m, int kind, int op, int a, int b, double bound)
+static inline int rm_bin(RmModel *m, int kind, int op, int a, int b,
+                         double bound)
 {
     int id = rm_node(m, kind, op, bound);
     m->node[id].narg = 2;
@@ -379,17 +380,19 @@ static inline int rm_expr(RmModel *m, const RmCtx *c, int depth);
 static inline double complex rm_eval_node(RmModel *m, int id);
 
 /* Values too large to feed exp or a product are squashed into a bounded
- * range first: this keeps every model finite at every point. */
+ * range first: this keeps every model finite at every point.  sin and cos
+ * get arguments below RM_WAVE: beyond that they oscillate faster than any
+ * difference step can follow where the complex step is blocked. */
 #define RM_BIG 1e3
+#define RM_WAVE 50
 
 static inline int rm_squash(RmModel *m, int a)
 {
-    switch (rm_below(&m->rng, 6)) {
+    switch (rm_below(&m->rng, 5)) {
     case 0: return rm_call1(m, RF_TANH, a, 1);
     case 1: return rm_call1(m, RF_ATAN, a, 1.6);
-    case 2: return rm_call1(m, RF_SIN, a, 1);
-    case 3: return rm_call1(m, RF_ERF, a, 1);
-    case 4: return rm_call1(m, RF_SIGMOID, a, 1);
+    case 2: return rm_call1(m, RF_ERF, a, 1);
+    case 3: return rm_call1(m, RF_SIGMOID, a, 1);
     default: {    /* a / (1 + abs(a)) */
         int den = rm_arith(m, '+', rm_num(m, 1),
                            rm_call1(m, RF_ABS, a, rm_bnd(m, a)));
@@ -409,8 +412,8 @@ static inline int rm_unit_expr(RmModel *m, int a)
 {
     switch (rm_below(&m->rng, 5)) {
     case 0: return rm_call1(m, RF_TANH, a, 1);
-    case 1: return rm_call1(m, RF_SIN, a, 1);
-    case 2: return rm_call1(m, RF_COS, a, 1);
+    case 1: return rm_call1(m, RF_SIN, rm_limit(m, a, RM_WAVE), 1);
+    case 2: return rm_call1(m, RF_COS, rm_limit(m, a, RM_WAVE), 1);
     case 3: return rm_call1(m, RF_ERF, a, 1);
     default: {    /* 2 sigmoid(a) - 1 */
         int s = rm_call1(m, RF_SIGMOID, a, 1);
@@ -487,8 +490,9 @@ static inline int rm_call(RmModel *m, const RmCtx *c, int depth, int a)
         return rm_call1(m, f, a, b + 1);
     case RF_SIGN:
         return rm_call1(m, f, a, 1);
-    case RF_SIN: case RF_COS: case RF_TANH: case RF_ERF:
-    case RF_SIGMOID:
+    case RF_SIN: case RF_COS:
+        return rm_call1(m, f, rm_limit(m, a, RM_WAVE), 1);
+    case RF_TANH: case RF_ERF: case RF_SIGMOID:
         return rm_call1(m, f, a, 1);
     case RF_ATAN:
         return rm_call1(m, f, a, 1.6);
@@ -550,7 +554,8 @@ static inline int rm_call(RmModel *m, const RmCtx *c, int depth, int a)
         double bound = f == RF_ATAN2 ? 3.2 : b + hi;
         return rm_call2(m, f, first ? a : p, first ? p : a, bound);
     }
-    case RF_POW: {      /* positive base; bounded exponent, or a constant base */
+    case RF_POW: {      /* positive base and bounded exponent, or a number
+                           as the base */
         if (rm_chance(&m->rng, 0.2)) {
             a = rm_limit(m, a, 3);
             static const double bases[] = {2, 0.5, 10, 1.5};
@@ -612,7 +617,7 @@ static inline int rm_power(RmModel *m, const RmCtx *c, int depth, int a)
         int e = k < 0 ? rm_un(m, RK_NEG, 0, rm_num(m, -k), -k) : rm_num(m, k);
         return rm_bin(m, RK_BIN, '^', p, e, pow(fmax(hi, 1 / lo), fabs(k)));
     }
-    default: {      /* positive base, exponent an expression or a scalar input */
+    default: {      /* positive base; exponent an expression or an input */
         int p = rm_positive(m, a, &lo, &hi);
         int e = -1;
         if (rm_chance(&m->rng, 0.4))
@@ -631,7 +636,8 @@ static inline int rm_power(RmModel *m, const RmCtx *c, int depth, int a)
 
 /* Can value v be read here: whole-array shape, or every dimension matched
  * by an index in scope?  sub[] receives the subscripts chosen. */
-static inline int rm_readable(RmModel *m, const RmCtx *c, int v, int *sub, int *nsub)
+static inline int rm_readable(RmModel *m, const RmCtx *c, int v, int *sub,
+                              int *nsub)
 {
     const RmValue *x = &m->val[v];
     *nsub = 0;
@@ -670,8 +676,9 @@ static inline int rm_leaf(RmModel *m, const RmCtx *c)
     }
     if (rm_chance(&m->rng, 0.15)) {
         static const double nums[] = {1, 2, 3, 0.5, 0.25, 0.1, 1.5, 0.75};
-        return rm_chance(&m->rng, 0.5) ? rm_num(m, nums[rm_below(&m->rng, 8)])
-                                      : rm_num(m, rm_below(&m->rng, 300) / 100.0);
+        if (rm_chance(&m->rng, 0.5))
+            return rm_num(m, nums[rm_below(&m->rng, 8)]);
+        return rm_num(m, rm_below(&m->rng, 300) / 100.0);
     }
     for (int tries = 0; tries < 20; tries++) {
         int v = rm_below(&m->rng, m->nval), sub[3], nsub;
@@ -754,7 +761,8 @@ static inline int rm_reduce(RmModel *m, const RmCtx *c, int depth)
         for (int t = m->stmt_first_slot; t < red[k]; t++) {
             int taken = 0;
             for (int j = 0; j < c->nscope; j++)
-                taken |= strcmp(m->slot_name[c->scope[j]], m->slot_name[t]) == 0;
+                taken |= strcmp(m->slot_name[c->scope[j]],
+                                m->slot_name[t]) == 0;
             for (int j = 0; j < nred; j++)
                 taken |= j != k && strcmp(m->slot_name[red[j]],
                                           m->slot_name[t]) == 0;
@@ -1043,8 +1051,10 @@ static inline int rm_whole_def(RmModel *m, RmValue *x, int anchor, int depth)
     }
     if (!has_array || rm_chance(&m->rng, 0.3)) {
         int rd = rm_read(m, anchor, NULL, 0);
-        e = rm_chance(&m->rng, 0.5) ? rm_arith(m, '+', e, rd)
-                                    : rm_call(m, &c, 1, rm_arith(m, '*', rd, e));
+        if (rm_chance(&m->rng, 0.5))
+            e = rm_arith(m, '+', e, rd);
+        else
+            e = rm_call(m, &c, 1, rm_arith(m, '*', rd, e));
     }
     return rm_limit(m, e, RM_BIG);
 }
@@ -1248,7 +1258,8 @@ static inline double complex rm_real_only(RmModel *m, const double complex *z,
     return value;
 }
 
-static inline double complex rm_ccall(RmModel *m, RmFunc f, const double complex *z)
+static inline double complex rm_ccall(RmModel *m, RmFunc f,
+                                      const double complex *z)
 {
     double complex a = z[0];
     double x = creal(a), y = creal(z[1]);
@@ -1464,9 +1475,10 @@ static inline double complex rm_eval(RmModel *m, long k, double complex delta)
  * straddle kinks: each difference step is checked against the generator's
  * evaluator, which hashes every decision it takes; a step h at which an
  * evaluation at x +- h decided anything differently from x is not used,
- * and an entry left without two successive clean steps (down to 1e-7
- * relative) is skipped and counted (n_skipped).  Regression files have no tree: their models are written to
- * stay away from kinks at every point in [-2, 2]. */
+ * and an entry left without three successive clean steps (down to 1e-9
+ * relative) is skipped and counted (n_skipped).  Regression files have no
+ * tree: their models are written to stay away from kinks at every point
+ * in [-2, 2]. */
 
 #define RM_STEP 1e-100      /* complex step: far below every value */
 #define RM_TOL_SAME 1e-12   /* emitted C against the IR evaluator */
@@ -1548,10 +1560,12 @@ static inline int rm_slots(RmCase *c, RmSlot *out, int cap, double **store)
         for (int v = 0; c->tree && v < c->tree->nval; v++)
             if (strcmp(c->tree->val[v].name, out[k].name) == 0)
                 x = &c->tree->val[v];
+        const double *given = NULL;     /* the tree's point, if any */
+        if (x)
+            given = (x->role == RV_PARAM ? c->tree->param : c->tree->input) +
+                    x->offset;
         for (long e = 0; e < out[k].size; e++)
-            out[k].vals[e] = !x ? 4 * rm_unit(&rng) - 2
-                             : (x->role == RV_PARAM ? c->tree->param
-                                                    : c->tree->input)[x->offset + e];
+            out[k].vals[e] = given ? given[e] : 4 * rm_unit(&rng) - 2;
     }
     return n;
 }
@@ -1565,7 +1579,8 @@ static inline void rm_driver_case(FILE *f, RmCase *c, int k)
     RmSlot slot[RM_MAX_SLOTS_IO];
     double *store;
     int n = rm_slots(c, slot, RM_MAX_SLOTS_IO, &store), inputs = 0;
-    fprintf(f, "static void run_m%d(void)\n{\n    m%d_param_flat p, g;\n", k, k);
+    fprintf(f, "static void run_m%d(void)\n{\n", k);
+    fprintf(f, "    m%d_param_flat p, g;\n", k);
     for (int s = 0; s < n; s++)
         inputs |= !slot[s].param;
     if (inputs)
@@ -1699,37 +1714,37 @@ static inline int rm_richardson(RmCase *c, Evaluation *ev, long k, double *x,
 }
 
 /* The derivative in param entry k by Richardson differences at the steps
- * 1e-2 .. 1e-7 (relative to max(1, |x|)), and its tolerance: the closest
- * agreement of two successive steps (how far the extrapolation still
- * moves), plus 1e-7 relative, plus the rounding of f over h (a few units of
- * 1e-16 |f|).  Steps that straddle a kink are left out; returns 0 when no
- * two successive steps were clean. */
+ * h = 1e-2 .. 1e-9 (relative to max(1, |x|)).  Three successive clean
+ * steps must agree (two agreeing by chance is not rare for a function that
+ * oscillates on a scale below h); the tolerance is the larger of their two
+ * disagreements (how far the extrapolation still moves), plus 1e-7
+ * relative, plus the rounding of f over the smallest h of the three (a few
+ * units of 1e-16 |f|).  The triple with the smallest tolerance wins.  Steps
+ * that straddle a kink are left out; returns 0 when no three successive
+ * steps were clean. */
 static inline int rm_differences(RmCase *c, Evaluation *ev, long k,
                                  double *deriv, double *tol)
 {
     double *x = eval_param(ev, k), x0 = *x, f0 = eval_value(ev);
-    double scale = fmax(1, fabs(x0)), prev = NAN;
+    double scale = fmax(1, fabs(x0)), r[8], h = 1e-2 * scale;
     uint64_t sig0 = 0;
     int found = 0;
     if (c->tree) {
         rm_eval(c->tree, -1, 0);
         sig0 = c->tree->sig;
     }
-    for (double h = 1e-2 * scale; h > 1e-8 * scale; h /= 10) {
-        double r;
-        if (!rm_richardson(c, ev, k, x, x0, h, sig0, &r)) {
-            prev = NAN;
+    for (int s = 0; s < 8; s++, h /= 10) {
+        if (!rm_richardson(c, ev, k, x, x0, h, sig0, &r[s]))
+            r[s] = NAN;
+        if (s < 2 || isnan(r[s]) || isnan(r[s - 1]) || isnan(r[s - 2]))
             continue;
-        }
-        if (!isnan(prev)) {
-            double t = fabs(r - prev) + 1e-7 * fmax(1, fabs(r)) +
-                       1e-13 * fmax(1, fabs(f0)) / h;
-            if (!found || t < *tol)
-                *deriv = r, *tol = t, found = 1;
-            if (fabs(r - prev) <= 1e-9 * fmax(1, fabs(r)))
-                break;      /* converged: smaller steps only add rounding */
-        }
-        prev = r;
+        double moved = fmax(fabs(r[s] - r[s - 1]), fabs(r[s - 1] - r[s - 2]));
+        double t = moved + 1e-7 * fmax(1, fabs(r[s])) +
+                   1e-13 * fmax(1, fabs(f0)) / h;
+        if (!found || t < *tol)
+            *deriv = r[s], *tol = t, found = 1;
+        if (moved <= 1e-9 * fmax(1, fabs(r[s])))
+            break;      /* converged: smaller steps only add rounding */
     }
     return found;
 }
@@ -1766,7 +1781,7 @@ static inline void rm_judge(RmCase *c)
                         "%.17g", c->c_value, mine);
         }
         for (long k = 0; k < np; k++) {
-            double got = c->c_grad[k], ref, tol = RM_TOL_CS;
+            double got = c->c_grad[k], ref = 0, tol = RM_TOL_CS;
             if (rm_err(got, g[k]) > RM_TOL_SAME)
                 rm_fail(c, "gradient entry %ld: emitted C %.17g, IR "
                         "evaluator %.17g", k, got, g[k]);
@@ -1827,7 +1842,8 @@ static inline int rm_check_batch(RmCase *cs, int n, const char *dir)
             rm_fail(c, "dervish build failed (status %s):\n%s",
                     rc ? rc : "?", err ? err : "");
         else {
-            DvOptions o = {NULL, NULL, 0};
+            DvOptions o;
+            memset(&o, 0, sizeof o);    /* no name, no diagnostics */
             c->have_comp = 1;
             if (dv_compile(&c->comp, c->label, c->text, strlen(c->text), &o))
                 rm_fail(c, "the dervish library rejects what the binary built");
