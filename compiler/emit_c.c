@@ -697,6 +697,11 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
         e->row_var = ir->forward.items[i].row_var;
         emit_stmt(e, &ir->forward.items[i], "");
     }
+    if (fwd_from >= 0 && fwd_from < fwd_to) {
+        /* the row's adjoints start a new paragraph with their own labels */
+        buf_put(e->out, "\n");
+        e->last_origin = UINT32_MAX;
+    }
     if (recompute) {
         char *need = calloc((size_t)ir->arrays.len + 1, 1);
         char *redo = calloc((size_t)ir->forward.len + 1, 1);

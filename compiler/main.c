@@ -223,7 +223,7 @@ static int check(const Args *a)
         char *end;
         errno = 0;
         o.seed = strtoul(a->seed, &end, 10);
-        if (*end || !*a->seed || a->seed[0] == '-' || a->seed[0] == '+' ||
+        if (*end || !(a->seed[0] >= '0' && a->seed[0] <= '9') ||
             errno == ERANGE)
             return usage_error("--seed takes a whole number that fits an "
                                "unsigned long, not '%s'",

@@ -66,7 +66,7 @@ static int exported(const char *name, const char *model)
 {
     static const char *const suffixes[] = {
         "_value", "_gradient", "_param", "_input", "_output", "_param_flat",
-        NULL
+        "_work_count", NULL
     };
     size_t n = strlen(model);
     if (strncmp(name, model, n) == 0 && listed(suffixes, name + n))

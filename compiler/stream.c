@@ -202,9 +202,14 @@ void stream_plan(Ir *ir)
                 "and dropped, so scratch does not grow with %s",
                 ir->sizes.items[sz].name, ir->sizes.items[sz].name);
         } else if (!ir->row_plan) {
+            int rows_kept = 0;
+            for (int i = 0; i < ir->arrays.len; i++)
+                rows_kept |= ir->arrays.items[i].role != ROLE_INPUT &&
+                             !ir_array_fixed(&ir->arrays.items[i]);
             ir->row_plan = arena_printf(
-                ir->arena, "not row by row over %s: %s; the arrays of rows "
-                "are kept in work", ir->sizes.items[sz].name, p.why);
+                ir->arena, "not row by row over %s: %s%s",
+                ir->sizes.items[sz].name, p.why,
+                rows_kept ? "; the arrays of rows are kept in work" : "");
         }
         free(p.row_var);
         free(p.per_row);
