@@ -1641,6 +1641,7 @@ static inline void rm_write_driver(RmCase *cs, int n, const char *dir)
 {
     char *path = tu_format("%s/driver.c", dir);
     FILE *f = fopen(path, "w");
+    ck_assert_msg(f != NULL, "cannot write %s", path);
     fputs("/* driver.c - prints each model's value and gradient */\n"
           "#include <stdio.h>\n#include <stdlib.h>\n#include <string.h>\n",
           f);
