@@ -39,6 +39,7 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->src.path = arena_strndup(&c->arena, path, strlen(path));
     c->src.text = copy;
     c->src.len = len;
+    source_index_lines(&c->src);
     diag_init(&c->diag, &c->src, opt->diag_out);
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
 
@@ -102,5 +103,6 @@ void dv_explain(const DvCompilation *c, FILE *out)
 
 void dv_free(DvCompilation *c)
 {
+    source_free_lines(&c->src);
     arena_free(&c->arena);
 }

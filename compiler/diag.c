@@ -2,6 +2,7 @@
 #include "diag.h"
 
 #include <stdarg.h>
+#include <stdio.h>
 #include <stdlib.h>
 
 void diag_init(Diag *d, const Source *src, FILE *out)
@@ -13,8 +14,49 @@ void diag_init(Diag *d, const Source *src, FILE *out)
     d->max_errors = 20;
 }
 
+void source_index_lines(Source *src)
+{
+    int n = 1;
+    for (size_t i = 0; i < src->len; i++)
+        n += src->text[i] == '\n';
+    uint32_t *starts = malloc((size_t)n * sizeof *starts);
+    if (!starts) {
+        fputs("dervish: out of memory\n", stderr);
+        exit(3);
+    }
+    int k = 0;
+    starts[k++] = 0;
+    for (size_t i = 0; i < src->len; i++)
+        if (src->text[i] == '\n')
+            starts[k++] = (uint32_t)i + 1;
+    src->line_start = starts;
+    src->nlines = n;
+}
+
+void source_free_lines(Source *src)
+{
+    free((void *)src->line_start);
+    src->line_start = NULL;
+    src->nlines = 0;
+}
+
 void source_line_col(const Source *src, uint32_t off, int *line, int *col)
 {
+    if (off > src->len)
+        off = (uint32_t)src->len;
+    if (src->line_start) {
+        int lo = 0, hi = src->nlines - 1;   /* last start <= off */
+        while (lo < hi) {
+            int mid = (lo + hi + 1) / 2;
+            if (src->line_start[mid] <= off)
+                lo = mid;
+            else
+                hi = mid - 1;
+        }
+        *line = lo + 1;
+        *col = (int)(off - src->line_start[lo]) + 1;
+        return;
+    }
     int l = 1;
     uint32_t start = 0;
     if (off > src->len)
@@ -28,8 +70,6 @@ void source_line_col(const Source *src, uint32_t off, int *line, int *col)
     *col = (int)(off - start) + 1;
 }
 
-/* Print the line holding `at` with a caret under its first byte and tildes
- * under the rest of the span (clipped to the line). */
 /* Widest part of a source line shown; longer lines are cut around the
  * cause, with "..." where text is left out. */
 #define SHOW_WIDTH 120

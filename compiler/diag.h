@@ -14,6 +14,8 @@ typedef struct Source {
     const char *path;   /* as given on the command line */
     const char *text;   /* NUL-terminated copy of the file */
     size_t len;         /* bytes in text, not counting the NUL */
+    const uint32_t *line_start; /* offsets where lines start, or NULL */
+    int nlines;
 } Source;
 
 /* A byte range [off, off+len) of the source. */
@@ -47,6 +49,12 @@ void diag_note(Diag *d, Span at, const char *fmt, ...)
     ;
 
 Span span_join(Span a, Span b);            /* smallest span covering both */
+
+/* Index the starts of the source's lines (malloc'd; free with
+ * source_free_lines), so line numbers are found by binary search rather
+ * than by scanning from the start of the file each time. */
+void source_index_lines(Source *src);
+void source_free_lines(Source *src);
 void source_line_col(const Source *src, uint32_t off, int *line, int *col);
 
 /* An internal fault: a bug in dervish, not in the model. */

@@ -33,6 +33,8 @@ typedef struct Emitter {
     int *uses;          /* per node: parent edges within the statement */
     int *temp;          /* per node: its temporary's number, or 0 */
     int stamp;          /* statements emitted so far */
+    int *visit;         /* per node: visit_stamp when last visited */
+    int visit_stamp;
     int ntemps;         /* temporaries named so far in the function */
     /* row by row: inside a row block, the row var of the statement being
      * emitted is the block's loop counter */
@@ -284,16 +286,16 @@ static void count_uses(Emitter *e, NodeId id)
 /* A subexpression used more than once in a statement is computed once,
  * into a temporary declared before the statement (operands first), so the
  * emitted text stays linear in the size of the expression DAG.  Returns
- * how many were written; *done marks the nodes already visited. */
-static int hoist(Emitter *e, NodeId id, char *done, int depth)
+ * how many were written; visits are stamped in e->visit. */
+static int hoist(Emitter *e, NodeId id, int depth)
 {
-    if (done[id])
+    if (e->visit[id] == e->visit_stamp)
         return 0;
-    done[id] = 1;
+    e->visit[id] = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     int written = 0;
     for (int i = 0; i < n->nargs; i++)
-        written += hoist(e, n->arg[i], done, depth);
+        written += hoist(e, n->arg[i], depth);
     if (e->uses[id] < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
@@ -305,16 +307,16 @@ static int hoist(Emitter *e, NodeId id, char *done, int depth)
 }
 
 /* Whether the statement has a subexpression worth a temporary. */
-static int has_shared(const Emitter *e, NodeId id, char *done)
+static int has_shared(Emitter *e, NodeId id)
 {
-    if (done[id])
+    if (e->visit[id] == e->visit_stamp)
         return 0;
-    done[id] = 1;
+    e->visit[id] = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     if (e->uses[id] >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
         return 1;
     for (int i = 0; i < n->nargs; i++)
-        if (has_shared(e, n->arg[i], done))
+        if (has_shared(e, n->arg[i]))
             return 1;
     return 0;
 }
@@ -384,10 +386,8 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
      * so the block reads as the loop body */
     e->stamp++;
     count_uses(e, s->expr);
-    char *done = calloc((size_t)ir->nodes.len + 1, 1);
-    if (!done)
-        exit(3);
-    int shared = has_shared(e, s->expr, done);
+    e->visit_stamp++;
+    int shared = has_shared(e, s->expr);
     int n = ir_tuple_len(ir, s->domain);
     /* outside loops the temporaries simply precede the statement (their
      * names are unique in the function) */
@@ -412,10 +412,9 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         e->uses_in |= sized;
     }
     if (shared) {
-        memset(done, 0, (size_t)ir->nodes.len + 1);
-        hoist(e, s->expr, done, depth);
+        e->visit_stamp++;
+        hoist(e, s->expr, depth);
     }
-    free(done);
     indent(e, depth);
     const IrNode *x = ir_at(ir, s->expr);
     switch (s->kind) {
@@ -928,8 +927,9 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     e.seen = calloc((size_t)ir->nodes.len + 1, sizeof *e.seen);
     e.uses = calloc((size_t)ir->nodes.len + 1, sizeof *e.uses);
     e.temp = calloc((size_t)ir->nodes.len + 1, sizeof *e.temp);
+    e.visit = calloc((size_t)ir->nodes.len + 1, sizeof *e.visit);
     if (!e.declared || !e.argpos_read || !reached || !e.seen || !e.uses ||
-        !e.temp)
+        !e.temp || !e.visit)
         exit(3);
     ir_mark_reached(ir, &ir->reverse, reached);
     for (int i = 0; i < ir->nodes.len; i++) {
@@ -962,6 +962,7 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     free(e.seen);
     free(e.uses);
     free(e.temp);
+    free(e.visit);
     layout_free(&e.storage);
     free(M);
 }

@@ -649,7 +649,7 @@ static int read_at_file(Point *pt, const char *path)
     char *text = fileio_read(path, &len);
     if (!text)
         return 3;
-    Source src = {path, text, len};
+    Source src = {path, text, len, NULL, 0};
     AtReader r;
     memset(&r, 0, sizeof r);
     r.pt = pt;

@@ -68,7 +68,7 @@ static Lexed lex_n(const char *text, size_t len)
     char *copy = malloc(len + 1);
     memcpy(copy, text, len);
     copy[len] = '\0';
-    Source src = {"t.dvs", copy, len};
+    Source src = {"t.dvs", copy, len, NULL, 0};
     TuCapture dcap, tcap;
     FILE *dout = tu_capture_open(&dcap), *tout = tu_capture_open(&tcap);
     Diag diag;

@@ -357,7 +357,7 @@ START_TEST(constructors_return_existing_nodes)
 {
     Arena arena;
     arena_init(&arena);
-    Source src = {"t.dvs", "", 0};
+    Source src = {"t.dvs", "", 0, NULL, 0};
     Ir *ir = ir_new(&arena, &src);
     int dim[1] = {3};
     Span none = {0, 0};
