@@ -43,7 +43,7 @@ RUNTIME  := $(sort $(wildcard runtime/*.c))
 TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 
-.PHONY: all check samples demo soak fuzz bench clean install uninstall
+.PHONY: all check samples demo soak fuzz bench perf clean install uninstall
 # The copy ./dervish is made only by the default build directory.
 all: $(B)/dervish $(if $(filter build,$(B)),dervish)
 
@@ -99,6 +99,11 @@ check: $(B)/dervish $(TEST_BINS)
 # Time per row and scratch of row-by-row gradients (bench/README.md)
 bench: $(B)/dervish
 	@sh bench/run.sh $(B)/dervish
+
+# Gradient cost against value, hand-written code and differences, and the
+# compiler's scaling (bench/PERF.md); PERF_SIZES="1000 10000" skips 10^5
+perf: $(B)/dervish
+	PERF_OUT=$(B)/perf sh bench/perf.sh $(B)/dervish
 
 # A long run of the randomized-model test: make soak SOAK_COUNT=10000
 SOAK_COUNT ?= 10000
