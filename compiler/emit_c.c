@@ -43,6 +43,9 @@ typedef struct Emitter {
     const char *row_name;   /* the block's loop counter */
 } Emitter;
 
+/* Most statements joined into one loop nest. */
+#define GROUP_MAX 16
+
 /* The C name of an index var: the row counter for the row var. */
 static const char *var_name(const Emitter *e, int32_t var)
 {
@@ -334,87 +337,13 @@ static const char *c_type(const IrArray *a)
     return a->role == ROLE_ARGPOS ? "long" : "double";
 }
 
-static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
+/* The assignment of one statement at the current point, at depth. */
+static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
 {
     const Ir *ir = e->ir;
     const IrArray *t = &ir->arrays.items[s->target];
     int needs_argpos = s->argpos >= 0 && e->fn == FN_GRADIENT &&
                        e->argpos_read[s->argpos];
-    if (t->role == ROLE_ARGPOS && !(e->fn == FN_GRADIENT &&
-                                    e->argpos_read[s->target]))
-        return;     /* only the reverse sweep reads a winner's position */
-
-    if (s->origin.off != e->last_origin) {
-        int line, col;
-        source_line_col(ir->src, s->origin.off, &line, &col);
-        if (e->last_origin != UINT32_MAX)
-            buf_put(e->out, "\n");
-        e->last_origin = s->origin.off;
-        indent(e, e->base);
-        if (s->note) {
-            buf_printf(e->out, "/* %s:%d: %s */\n", e->opt->model_file,
-                       line, s->note);
-        } else {
-            buf_printf(e->out, "/* %s%s:%d: ", origin_label,
-                       e->opt->model_file, line);
-            put_model_text(e->out, ir->src, s->origin);
-            buf_put(e->out, " */\n");
-        }
-    }
-    int scalar_init = 0;
-    int first_dim = t->row_local;   /* a row-local array drops its row */
-    if (!is_external(t, ir) && !e->declared[s->target]) {
-        e->declared[s->target] = 1;
-        if (t->rank == first_dim && s->kind == SK_SET) {
-            scalar_init = 1;
-        } else if (e->storage.slot[s->target] >= 0) {
-            indent(e, e->base);
-            buf_printf(e->out, "double *%s = " DV_PREFIX "work + "
-                       DV_PREFIX "at[%d];\n", t->name,
-                       e->storage.slot[s->target]);
-        } else {
-            indent(e, e->base);
-            buf_printf(e->out, "%s %s", c_type(t), t->name);
-            for (int k = first_dim; k < t->rank; k++)
-                buf_printf(e->out, "[%d]", t->dim[k]);
-            buf_put(e->out, ";\n");
-        }
-    }
-
-    /* max and min need a block for the comparison, and shared
-     * subexpressions one for their temporaries; the loops then get braces
-     * so the block reads as the loop body */
-    e->stamp++;
-    count_uses(e, s->expr);
-    e->visit_stamp++;
-    int shared = has_shared(e, s->expr);
-    int n = ir_tuple_len(ir, s->domain);
-    /* outside loops the temporaries simply precede the statement (their
-     * names are unique in the function) */
-    int loops = n - (s->row_var >= 0 && e->row_var >= 0);
-    int block = s->kind == SK_MAX || s->kind == SK_MIN || (shared && loops > 0);
-    int depth = e->base;
-    if (block && loops == 0 && n > 0) {
-        /* a max over the row alone: braces keep its dvs_next local */
-        indent(e, depth++);
-        buf_put(e->out, "{\n");
-    }
-    const int32_t *v = ir_tuple_vars(ir, s->domain);
-    for (int k = 0; k < n; k++) {
-        const IrIndexVar *iv = &ir->vars.items[v[k]];
-        if (v[k] == e->row_var)
-            continue;       /* the row block's loop */
-        indent(e, depth++);
-        int sized = IR_EXTENT_IS_SIZE(iv->extent);
-        buf_printf(e->out, "for (%s %s = 0; %s < %s; %s++)%s\n",
-                   sized ? "long" : "int", iv->name, iv->name,
-                   layout_extent(ir, iv->extent), iv->name, block ? " {" : "");
-        e->uses_in |= sized;
-    }
-    if (shared) {
-        e->visit_stamp++;
-        hoist(e, s->expr, depth);
-    }
     indent(e, depth);
     const IrNode *x = ir_at(ir, s->expr);
     switch (s->kind) {
@@ -474,14 +403,210 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
         }
         indent(e, depth);
         buf_put(e->out, "}\n");
-        break;
+        return;
     }
     }
-    if (s->kind != SK_MAX && s->kind != SK_MIN)
+    buf_put(e->out, ";\n");
+}
+
+/* Declare the target of s where it is first written; returns whether the
+ * declaration is the assignment itself (a scalar's "double x = ..."). */
+static int declare_target(Emitter *e, const IrStmt *s)
+{
+    const Ir *ir = e->ir;
+    const IrArray *t = &ir->arrays.items[s->target];
+    int first_dim = t->row_local;   /* a row-local array drops its row */
+    if (is_external(t, ir) || e->declared[s->target])
+        return 0;
+    e->declared[s->target] = 1;
+    if (t->rank == first_dim && s->kind == SK_SET)
+        return 1;
+    indent(e, e->base);
+    if (e->storage.slot[s->target] >= 0) {
+        buf_printf(e->out, "double *%s = " DV_PREFIX "work + " DV_PREFIX
+                   "at[%d];\n", t->name, e->storage.slot[s->target]);
+    } else {
+        buf_printf(e->out, "%s %s", c_type(t), t->name);
+        for (int k = first_dim; k < t->rank; k++)
+            buf_printf(e->out, "[%d]", t->dim[k]);
         buf_put(e->out, ";\n");
+    }
+    return 0;
+}
+
+/* Emit statements s[0..n) of one model line and one domain in a single
+ * loop nest: a subexpression shared by any of them is computed once per
+ * point, into a temporary (the adjoints of one statement often share the
+ * factors of its derivative). */
+static void emit_group(Emitter *e, const IrStmt *const *s, int count,
+                       const char *origin_label)
+{
+    const Ir *ir = e->ir;
+    const IrStmt *s0 = s[0];
+    const IrArray *t0 = &ir->arrays.items[s0->target];
+    if (t0->role == ROLE_ARGPOS && !(e->fn == FN_GRADIENT &&
+                                     e->argpos_read[s0->target]))
+        return;     /* only the reverse sweep reads a winner's position */
+
+    if (s0->origin.off != e->last_origin) {
+        int line, col;
+        source_line_col(ir->src, s0->origin.off, &line, &col);
+        if (e->last_origin != UINT32_MAX)
+            buf_put(e->out, "\n");
+        e->last_origin = s0->origin.off;
+        indent(e, e->base);
+        if (s0->note) {
+            buf_printf(e->out, "/* %s:%d: %s */\n", e->opt->model_file,
+                       line, s0->note);
+        } else {
+            buf_printf(e->out, "/* %s%s:%d: ", origin_label,
+                       e->opt->model_file, line);
+            put_model_text(e->out, ir->src, s0->origin);
+            buf_put(e->out, " */\n");
+        }
+    }
+    int scalar_init[GROUP_MAX];
+    for (int g = 0; g < count; g++)
+        scalar_init[g] = declare_target(e, s[g]);
+
+    /* max and min need a block for the comparison, and shared
+     * subexpressions one for their temporaries; the loops then get braces
+     * so the block reads as the loop body */
+    e->stamp++;
+    for (int g = 0; g < count; g++)
+        count_uses(e, s[g]->expr);
+    e->visit_stamp++;
+    int shared = 0;
+    for (int g = 0; g < count; g++)
+        shared |= has_shared(e, s[g]->expr);
+    int n = ir_tuple_len(ir, s0->domain);
+    /* outside loops the temporaries simply precede the statement (their
+     * names are unique in the function) */
+    int loops = n - (s0->row_var >= 0 && e->row_var >= 0);
+    int block = s0->kind == SK_MAX || s0->kind == SK_MIN ||
+                ((shared || count > 1) && loops > 0);
+    int depth = e->base;
+    if (block && loops == 0 && n > 0) {
+        /* a max over the row alone: braces keep its dvs_next local */
+        indent(e, depth++);
+        buf_put(e->out, "{\n");
+    }
+    const int32_t *v = ir_tuple_vars(ir, s0->domain);
+    for (int k = 0; k < n; k++) {
+        const IrIndexVar *iv = &ir->vars.items[v[k]];
+        if (v[k] == e->row_var)
+            continue;       /* the row block's loop */
+        indent(e, depth++);
+        int sized = IR_EXTENT_IS_SIZE(iv->extent);
+        buf_printf(e->out, "for (%s %s = 0; %s < %s; %s++)%s\n",
+                   sized ? "long" : "int", iv->name, iv->name,
+                   layout_extent(ir, iv->extent), iv->name, block ? " {" : "");
+        e->uses_in |= sized;
+    }
+    if (shared) {
+        e->visit_stamp++;
+        for (int g = 0; g < count; g++)
+            hoist(e, s[g]->expr, depth);
+    }
+    for (int g = 0; g < count; g++)
+        emit_body(e, s[g], depth, scalar_init[g]);
     while (block && depth > e->base) {
         indent(e, --depth);
         buf_put(e->out, "}\n");
+    }
+}
+
+static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
+{
+    emit_group(e, &s, 1, origin_label);
+}
+
+static int reads_array(const Ir *ir, NodeId id, int32_t array)
+{
+    const IrNode *n = ir_at(ir, id);
+    if (n->op == IR_READ && n->array == array)
+        return 1;
+    for (int i = 0; i < n->nargs; i++)
+        if (reads_array(ir, n->arg[i], array))
+            return 1;
+    return 0;
+}
+
+/* Whether b can join a loop nest with the statements g[0..n): the same
+ * line and domain, plain assignments, and no member reads what another
+ * writes (so the order of points does not matter); two writes to one
+ * array must both add. */
+static int fusable(const Ir *ir, const IrStmt *const *g, int n,
+                   const IrStmt *b)
+{
+    const IrStmt *a = g[0];
+    if (n >= GROUP_MAX || b->domain != a->domain ||
+        b->origin.off != a->origin.off || b->row_var != a->row_var ||
+        (b->kind != SK_SET && b->kind != SK_ADD) ||
+        ir->arrays.items[b->target].role == ROLE_ARGPOS ||
+        ir_tuple_len(ir, b->domain) == 0)
+        return 0;
+    for (int i = 0; i < n; i++) {
+        if (reads_array(ir, g[i]->expr, b->target) ||
+            reads_array(ir, b->expr, g[i]->target))
+            return 0;
+        if (g[i]->target == b->target &&
+            (g[i]->kind != SK_ADD || b->kind != SK_ADD))
+            return 0;
+    }
+    return 1;
+}
+
+static int is_zeroing(const Ir *ir, const IrStmt *s);
+
+/* Emit list[from..to) in order, joining neighbours that fusable() allows
+ * into one loop nest; a zeroing statement between them goes first. */
+static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
+                     const char *label)
+{
+    const Ir *ir = e->ir;
+    for (int i = from; i < to;) {
+        const IrStmt *g[GROUP_MAX];
+        const IrStmt *zero[GROUP_MAX];
+        int n = 0, nz = 0, j = i + 1;
+        g[n++] = &list->items[i];
+        if ((g[0]->kind == SK_SET || g[0]->kind == SK_ADD) &&
+            ir->arrays.items[g[0]->target].role != ROLE_ARGPOS &&
+            ir_tuple_len(ir, g[0]->domain) > 0) {
+            for (; j < to; j++) {
+                const IrStmt *b = &list->items[j];
+                if (is_zeroing(ir, b) && b->origin.off == g[0]->origin.off &&
+                    nz < GROUP_MAX && j + 1 < to) {
+                    zero[nz++] = b;
+                    continue;
+                }
+                if (!fusable(ir, g, n, b))
+                    break;
+                g[n++] = b;
+            }
+            /* zeroing statements after the last member stay where they are */
+            while (nz > 0 && zero[nz - 1] > g[n - 1]) {
+                nz--;
+                j--;
+            }
+        }
+        int in_rows = e->row_var >= 0;
+        if (n == 1) {
+            if (in_rows)
+                e->row_var = g[0]->row_var;
+            emit_stmt(e, g[0], label);
+            i++;
+            continue;
+        }
+        for (int z = 0; z < nz; z++) {
+            if (in_rows)
+                e->row_var = zero[z]->row_var;
+            emit_stmt(e, zero[z], label);
+        }
+        if (in_rows)
+            e->row_var = g[0]->row_var;
+        emit_group(e, g, n, label);
+        i = j;
     }
 }
 
@@ -730,11 +855,18 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
             buf_put(e->out, "\n");
         e->last_origin = UINT32_MAX;
     }
-    for (int i = from; i < to; i++)
-        if (list->items[i].row_var >= 0) {
-            e->row_var = list->items[i].row_var;
-            emit_stmt(e, &list->items[i], label);
+    for (int i = from; i < to;) {
+        if (list->items[i].row_var < 0) {
+            i++;
+            continue;
         }
+        int k = i;
+        while (k < to && list->items[k].row_var >= 0)
+            k++;
+        e->row_var = list->items[i].row_var;
+        emit_seq(e, list, i, k, label);
+        i = k;
+    }
     e->row_var = -1;
     e->base = 1;
     buf_put(e->out, "    }\n");
@@ -770,10 +902,13 @@ static void emit_list(Emitter *e, const IrStmtList *list, int from, int to,
                       int recompute, const char *label)
 {
     for (int i = from; i < to;) {
-        const IrStmt *s = &list->items[i];
-        if (s->row_var < 0 || e->ir->row_size < 0) {
-            emit_stmt(e, s, label);
-            i++;
+        if (list->items[i].row_var < 0 || e->ir->row_size < 0) {
+            int k = i;
+            while (k < to && (list->items[k].row_var < 0 ||
+                              e->ir->row_size < 0))
+                k++;
+            emit_seq(e, list, i, k, label);
+            i = k;
             continue;
         }
         int j = row_run_end(e->ir, list, i);

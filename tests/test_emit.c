@@ -110,11 +110,11 @@ START_TEST(value_and_gradient_of_a_small_network)
         "    double dvs_adj_y = 1.0;\n"
         "\n"
         "    /* adjoint of: m.dvs:6: y = sum(j: v[j] * h[j]) */\n"
-        "    for (int j = 0; j < 2; j++)\n"
-        "        dvs_grad->v[j] = dvs_adj_y * h[j];\n"
         "    double dvs_adj_h[2];\n"
-        "    for (int j = 0; j < 2; j++)\n"
+        "    for (int j = 0; j < 2; j++) {\n"
+        "        dvs_grad->v[j] = dvs_adj_y * h[j];\n"
         "        dvs_adj_h[j] = dvs_adj_y * dvs_p->v[j];\n"
+        "    }\n"
         "\n"
         "    /* adjoint of: m.dvs:5: h = tanh(z) */\n"
         "    double dvs_adj_z[2];\n"
@@ -346,12 +346,15 @@ START_TEST(negated_contribution_is_a_subtraction)
 {
     Emitted *e = build("model neg\nparam x[3], a\n"
                        "y = a * a - sum(i: x[i] * a)\noutput y\n");
-    /* adj of the sum is -adj_y; a += adj_sum * x[i] over i */
+    /* adj of the sum is -adj_y; a += adj_sum * x[i] over i, in the same
+     * loop as x's adjoints (one model line, one domain) */
     ck_assert_ptr_nonnull(strstr(e->c, "    double dvs_adj_y_sum = "
                                        "-dvs_adj_y;\n"));
     ck_assert_ptr_nonnull(strstr(e->c,
-        "    for (int i = 0; i < 3; i++)\n"
-        "        dvs_grad->a += dvs_adj_y_sum * dvs_p->x[i];\n"));
+        "    for (int i = 0; i < 3; i++) {\n"
+        "        dvs_grad->x[i] = dvs_adj_y_sum * dvs_p->a;\n"
+        "        dvs_grad->a += dvs_adj_y_sum * dvs_p->x[i];\n"
+        "    }\n"));
     /* SK_ADD of a negation is written with -= */
     Emitted *f = build("model neg2\nparam x[3], a\n"
                        "y = sum(i: -(x[i] * a))\noutput y\n");
