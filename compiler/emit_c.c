@@ -409,6 +409,14 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
     buf_put(e->out, ";\n");
 }
 
+/* The expression a statement's text shows: an addition of a negation is
+ * written "-= x", so x, not the negation, appears. */
+static NodeId shown_expr(const Ir *ir, const IrStmt *s)
+{
+    const IrNode *x = ir_at(ir, s->expr);
+    return s->kind == SK_ADD && x->op == IR_NEG ? x->arg[0] : s->expr;
+}
+
 /* Declare the target of s where it is first written; returns whether the
  * declaration is the assignment itself (a scalar's "double x = ..."). */
 static int declare_target(Emitter *e, const IrStmt *s)
@@ -474,11 +482,11 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
      * so the block reads as the loop body */
     e->stamp++;
     for (int g = 0; g < count; g++)
-        count_uses(e, s[g]->expr);
+        count_uses(e, shown_expr(ir, s[g]));
     e->visit_stamp++;
     int shared = 0;
     for (int g = 0; g < count; g++)
-        shared |= has_shared(e, s[g]->expr);
+        shared |= has_shared(e, shown_expr(ir, s[g]));
     int n = ir_tuple_len(ir, s0->domain);
     /* outside loops the temporaries simply precede the statement (their
      * names are unique in the function) */
@@ -506,7 +514,7 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     if (shared) {
         e->visit_stamp++;
         for (int g = 0; g < count; g++)
-            hoist(e, s[g]->expr, depth);
+            hoist(e, shown_expr(ir, s[g]), depth);
     }
     for (int g = 0; g < count; g++)
         emit_body(e, s[g], depth, scalar_init[g]);
