@@ -1,4 +1,4 @@
-/* test_parser.c - unit tests of the parser (grammar/parser.y, parse.c)
+/* test_parse.c - unit tests of the parser (grammar/parser.y, parse.c)
  * through parse_model: the tree shape that precedence and associativity give
  * (LANGUAGE.md section 4), every statement kind, spans, the exact syntax
  * error messages, recovery at statement boundaries and the nesting limit. */

@@ -1,4 +1,4 @@
-/* test_lexer.c - unit tests of the lexer (grammar/lexer.re) through lex_init
+/* test_lex.c - unit tests of the lexer (grammar/lexer.re) through lex_init
  * and lex_next: token codes and spans, number values, where a newline ends a
  * statement, comments, line ends, keywords, and the messages for bad input.
  * Expected spans are counted by hand from the input strings. */
