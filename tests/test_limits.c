@@ -29,27 +29,6 @@ static void write_raw(const char *dir, const char *name, const char *data,
     free(path);
 }
 
-/* Run dervish with ARGS in DIR, capped at SECONDS; asserts it neither
- * hung nor crashed nor printed to stdout, and returns its exit status.
- * Its stderr goes to *err. */
-static int run_for(int seconds, const char *dir, char **err,
-                   const char *args)
-{
-    char *out = NULL;
-    char *cmd = tu_format("cd '%s' && timeout %d '%s' %s", dir, seconds,
-                          tu_abs_dervish(), args);
-    int rc = tu_run(cmd, &out, err);
-    ck_assert_msg(rc != 124, "dervish %s: still running after %d s",
-                  args, seconds);
-    ck_assert_msg(rc >= 0 && rc < 128, "dervish %s: crashed (status %d)",
-                  args, rc);
-    ck_assert_msg(out && out[0] == '\0', "dervish %s: wrote to stdout", args);
-    ck_assert_ptr_nonnull(*err);
-    free(out);
-    free(cmd);
-    return rc;
-}
-
 /* Build DIR/FILE; assert the exit status and the first line of stderr
  * (NULL: stderr must be empty). */
 static void expect_build(const char *dir, const char *file, int status,
@@ -57,7 +36,7 @@ static void expect_build(const char *dir, const char *file, int status,
 {
     char *err = NULL;
     char *args = tu_format("build '%s'", file);
-    int rc = run_for(20, dir, &err, args);
+    int rc = tu_dervish_capped(20, dir, &err, args);
     char *first = tu_first_line(err);
     ck_assert_msg(rc == status, "%s: expected status %d, found %d:\n%s",
                   file, status, rc, err);
@@ -116,7 +95,7 @@ START_TEST(power_tower_at_the_nesting_limit)
     char *model = tu_format("param a\ny = %sa\noutput y\n", tower);
     tu_write_in(dir, "tower.dvs", model);
     char *err = NULL;
-    int rc = run_for(10, dir, &err, "build tower.dvs");
+    int rc = tu_dervish_capped(10, dir, &err, "build tower.dvs");
     ck_assert_msg(rc == 0 || (rc == 1 && strncmp(err, "tower.dvs:2:", 12)
                                              == 0),
                   "status %d:\n%.300s", rc, err);
@@ -376,7 +355,7 @@ START_TEST(crlf_error_shows_the_line_without_cr)
     char *dir = tu_tmpdir();
     tu_write_in(dir, "crlf.dvs", "param a\r\ny = a + q\r\noutput y\r\n");
     char *err = NULL;
-    ck_assert_int_eq(run_for(20, dir, &err, "build crlf.dvs"), 1);
+    ck_assert_int_eq(tu_dervish_capped(20, dir, &err, "build crlf.dvs"), 1);
     ck_assert_str_eq(err,
                      "crlf.dvs:2:9: error: unknown name 'q': define it before "
                      "this line\n"
@@ -485,7 +464,7 @@ START_TEST(model_given_as_an_output)
     ck_assert_int_eq(symlink("m.dvs", link), 0);
     for (size_t i = 0; i < sizeof args / sizeof args[0]; i++) {
         char *err = NULL;
-        ck_assert_int_eq(run_for(20, same, &err, args[i]), 2);
+        ck_assert_int_eq(tu_dervish_capped(20, same, &err, args[i]), 2);
         ck_assert_str_eq(err, "dervish: refusing to overwrite the model file "
                               "'m.dvs'\n(run 'dervish --help' for the "
                               "options)\n");

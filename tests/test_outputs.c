@@ -31,38 +31,12 @@ static const char usage_hint[] = "(run 'dervish --help' for the options)\n";
  * the cap is hit and with 128 + N when the program dies by signal N. */
 #define CAP "timeout 20 "
 
-/* Run the shell command CMD, whose dervish runs are capped with CAP;
- * asserts none hung or crashed.  Returns the exit status. */
-static int run_cmd(const char *cmd, char **out, char **err)
-{
-    int rc = tu_run(cmd, out, err);
-    ck_assert_msg(rc != 124, "%s: still running after 20 s", cmd);
-    ck_assert_msg(rc >= 0 && rc < 128, "%s: crashed (status %d)", cmd, rc);
-    return rc;
-}
-
-/* Run dervish with ARGS in DIR; stdout must stay empty, stderr goes to
- * *err.  Returns the exit status. */
-static int run_in(const char *dir, char **err, const char *args)
-{
-    char *out = NULL;
-    char *cmd = tu_format("cd '%s' && " CAP "'%s' %s", dir, tu_abs_dervish(),
-                          args);
-    int rc = run_cmd(cmd, &out, err);
-    ck_assert_msg(out && out[0] == '\0', "dervish %s: wrote to stdout: %s",
-                  args, out ? out : "");
-    ck_assert_ptr_nonnull(*err);
-    free(out);
-    free(cmd);
-    return rc;
-}
-
 /* Run dervish with ARGS in DIR and assert its status and whole stderr. */
 static void expect_run(const char *dir, const char *args, int status,
                        const char *stderr_text)
 {
     char *err = NULL;
-    int rc = run_in(dir, &err, args);
+    int rc = tu_dervish_capped(20, dir, &err, args);
     ck_assert_msg(rc == status, "dervish %s: expected status %d, found %d:\n"
                   "%s", args, status, rc, err);
     ck_assert_str_eq(err, stderr_text);
@@ -250,7 +224,7 @@ START_TEST(check_summary_lines)
     char *text = tu_format("%sw = q + r + s\noutput a\n", many);
     tu_write_in(dir, "many.dvs", text);
     char *err = NULL;
-    ck_assert_int_eq(run_in(dir, &err, "check many.dvs"), 1);
+    ck_assert_int_eq(tu_dervish_capped(20, dir, &err, "check many.dvs"), 1);
     const char *last = err + strlen(err);
     while (last > err && last[-1] == '\n')
         last--;
@@ -281,7 +255,7 @@ START_TEST(out_of_memory)
     char *out = NULL, *err = NULL;
     char *probe = tu_format("ulimit -v 16000 && " CAP "'%s' --version",
                             tu_abs_dervish());
-    if (run_cmd(probe, &out, &err) != 0) {
+    if (tu_run_unhung(probe, &out, &err) != 0) {
         printf("note: out_of_memory skipped: dervish does not start under a "
                "16 MB address-space cap (a sanitizer build?)\n");
     } else {
@@ -292,7 +266,7 @@ START_TEST(out_of_memory)
             char *cmd = tu_format("cd '%s' && ulimit -v 16000 && " CAP
                                   "'%s' %s", dir, tu_abs_dervish(), args[i]);
             char *err2 = NULL;
-            ck_assert_int_eq(run_cmd(cmd, NULL, &err2), 3);
+            ck_assert_int_eq(tu_run_unhung(cmd, NULL, &err2), 3);
             ck_assert_str_eq(err2, "dervish: out of memory\n");
             free(err2);
             free(cmd);
@@ -494,7 +468,7 @@ START_TEST(rename_refused)
                "here\n");
     } else {
         char *err = NULL;
-        int rc = run_in(dir, &err, "build -o m.c --header m.h m.dvs");
+        int rc = tu_dervish_capped(20, dir, &err, "build -o m.c --header m.h m.dvs");
         char *undo = tu_format("chattr -i '%s/m.c'", dir);
         ck_assert_int_eq(system(undo), 0);
         free(undo);
@@ -574,7 +548,7 @@ START_TEST(success_replaces_both)
                           "build m.dvs && stat -c %%a m.c m.h", dir,
                           tu_abs_dervish());
     char *modes = NULL;
-    ck_assert_int_eq(run_cmd(cmd, &modes, NULL), 0);
+    ck_assert_int_eq(tu_run_unhung(cmd, &modes, NULL), 0);
     ck_assert_str_eq(modes, "640\n640\n");
     tu_rmdir(dir);
     free(dir);
@@ -596,7 +570,7 @@ START_TEST(stdout_as_the_source)
                           "m.h m.dvs; echo $? > status; } | cat", dir,
                           tu_abs_dervish());
     char *out = NULL, *err = NULL;
-    ck_assert_int_eq(run_cmd(cmd, &out, &err), 0);
+    ck_assert_int_eq(tu_run_unhung(cmd, &out, &err), 0);
     ck_assert_str_eq(err, "");
     expect_file(dir, "status", "0\n");
     char *c = reference("stdout", "m.h", 0), *h = reference("stdout", "m.h",
@@ -646,7 +620,7 @@ START_TEST(stdout_redirected_to_a_file)
     char *cmd = tu_format("cd '%s' && " CAP "'%s' build -o out --header m.h m.dvs "
                           "> captured", dir, tu_abs_dervish());
     char *err = NULL;
-    ck_assert_int_eq(run_cmd(cmd, NULL, &err), 0);
+    ck_assert_int_eq(tu_run_unhung(cmd, NULL, &err), 0);
     ck_assert_str_eq(err, "");
     struct stat st;
     ck_assert_int_eq(lstat(link_path, &st), 0);

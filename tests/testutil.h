@@ -197,6 +197,34 @@ static inline int tu_run_dervish(const char *dir, char **out, char **err,
     return rc;
 }
 
+/* Run CMD, whose dervish runs are capped with `timeout` (status 124),
+ * and assert none hung or crashed.  Returns the exit status. */
+static inline int tu_run_unhung(const char *cmd, char **out, char **err)
+{
+    int rc = tu_run(cmd, out, err);
+    ck_assert_msg(rc != 124, "%s: still running at its time limit", cmd);
+    ck_assert_msg(rc >= 0 && rc < 128, "%s: crashed (status %d)", cmd, rc);
+    return rc;
+}
+
+/* Run dervish with ARGS in DIR, capped at SECONDS; asserts it neither hung
+ * nor crashed nor printed to stdout, and returns its exit status.  Its
+ * stderr goes to *err. */
+static inline int tu_dervish_capped(int seconds, const char *dir, char **err,
+                                    const char *args)
+{
+    char *out = NULL;
+    char *cmd = tu_format("cd '%s' && timeout %d '%s' %s", dir, seconds,
+                          tu_abs_dervish(), args);
+    int rc = tu_run_unhung(cmd, &out, err);
+    ck_assert_msg(out && out[0] == '\0', "dervish %s: wrote to stdout: %s",
+                  args, out ? out : "");
+    ck_assert_ptr_nonnull(*err);
+    free(out);
+    free(cmd);
+    return rc;
+}
+
 /* Write MODEL to DIR/NAME.dvs and run dervish build on it there.  Returns
  * dervish's exit status; stderr goes to *err if err is not NULL. */
 static inline int tu_build_model(const char *dir, const char *name,
