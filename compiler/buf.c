@@ -22,8 +22,32 @@ static void reserve(Buf *b, size_t extra)
     b->cap = cap;
 }
 
+/* Hand len bytes at s to the sink unless it has already failed. */
+static void pass_on(Buf *b, const char *s, size_t len)
+{
+    if (!b->failed && len > 0 && b->sink(b->target, s, len) != 0)
+        b->failed = 1;
+}
+
+int buf_flush(Buf *b)
+{
+    if (b->sink && b->len > 0) {
+        pass_on(b, b->data, b->len);
+        b->len = 0;
+        b->data[0] = '\0';
+    }
+    return b->failed ? -1 : 0;
+}
+
 void buf_putn(Buf *b, const char *s, size_t n)
 {
+    if (b->sink && b->len + n > BUF_FLUSH_AT) {
+        buf_flush(b);
+        if (n > BUF_FLUSH_AT) {
+            pass_on(b, s, n);       /* too long to be worth a copy */
+            return;
+        }
+    }
     reserve(b, n);
     memcpy(b->data + b->len, s, n);
     b->len += n;
@@ -37,17 +61,24 @@ void buf_put(Buf *b, const char *s)
 
 void buf_printf(Buf *b, const char *fmt, ...)
 {
+    /* format in place when the text fits the room left, else again once
+     * there is room */
+    size_t room = b->cap - b->len;
     va_list ap;
     va_start(ap, fmt);
-    int n = vsnprintf(NULL, 0, fmt, ap);
+    int n = vsnprintf(b->data ? b->data + b->len : NULL, room, fmt, ap);
     va_end(ap);
     if (n <= 0)
         return;
-    reserve(b, (size_t)n);
-    va_start(ap, fmt);
-    vsnprintf(b->data + b->len, (size_t)n + 1, fmt, ap);
-    va_end(ap);
+    if ((size_t)n >= room) {
+        reserve(b, (size_t)n);
+        va_start(ap, fmt);
+        vsnprintf(b->data + b->len, (size_t)n + 1, fmt, ap);
+        va_end(ap);
+    }
     b->len += (size_t)n;
+    if (b->sink && b->len > BUF_FLUSH_AT)
+        buf_flush(b);
 }
 
 void buf_free(Buf *b)

@@ -1,13 +1,25 @@
-/* buf.h - a growable text buffer on the heap, for emitted files. */
+/* buf.h - a growable text buffer on the heap, for emitted files.  A Buf
+ * may pass its text on to a sink (an open output file) as it grows, so a
+ * file of any length is written through a bounded buffer. */
 #ifndef DERVISH_BUF_H
 #define DERVISH_BUF_H
 
 #include <stddef.h>
 
+/* Takes len bytes of text; returns 0, or -1 after reporting why. */
+typedef int (*BufSink)(void *target, const char *data, size_t len);
+
 typedef struct Buf {
-    char *data;         /* NUL-terminated once anything is written */
+    char *data;         /* NUL-terminated once anything is written; with a
+                           sink, only the text not yet passed on */
     size_t len, cap;
+    BufSink sink;       /* NULL: the Buf keeps all its text */
+    void *target;       /* the sink's first argument */
+    int failed;         /* the sink failed: further text is dropped */
 } Buf;
+
+/* Text held beyond this many bytes goes to the sink. */
+#define BUF_FLUSH_AT ((size_t)1 << 20)
 
 void buf_put(Buf *b, const char *s);
 void buf_putn(Buf *b, const char *s, size_t n);
@@ -16,6 +28,9 @@ void buf_printf(Buf *b, const char *fmt, ...)
     __attribute__((format(printf, 2, 3)))
 #endif
     ;
+/* Pass all held text to the sink (if any); returns -1 if the sink has
+ * failed, now or before, else 0. */
+int buf_flush(Buf *b);
 void buf_free(Buf *b);
 
 #endif

@@ -59,17 +59,23 @@ char *fileio_read(const char *path, size_t *len)
     return buf;
 }
 
-/* Temporary files in existence, so a signal that ends dervish (Ctrl-C, a
- * build tool's kill) can remove them: the one piece of process-wide state,
- * and only the command line's file writing uses it. */
+/* Temporary files in existence, so an exit on the way (out of memory) or
+ * a signal that ends dervish (Ctrl-C, a build tool's kill) can remove
+ * them: the one piece of process-wide state, and only the command line's
+ * file writing uses it. */
 #define MAX_TEMPS 8
 static char *volatile live_temps[MAX_TEMPS];
 
-static void remove_temps_and_die(int sig)
+static void remove_live_temps(void)
 {
     for (int i = 0; i < MAX_TEMPS; i++)
         if (live_temps[i])
             unlink(live_temps[i]);          /* async-signal-safe */
+}
+
+static void remove_temps_and_die(int sig)
+{
+    remove_live_temps();
     signal(sig, SIG_DFL);
     raise(sig);
 }
@@ -81,6 +87,7 @@ static void track_temp(int slot, char *temp)
         static const int sigs[] = {SIGINT, SIGTERM, SIGHUP, SIGPIPE};
         for (size_t i = 0; i < sizeof sigs / sizeof sigs[0]; i++)
             signal(sigs[i], remove_temps_and_die);
+        atexit(remove_live_temps);
         handlers_set = 1;
     }
     if (slot < MAX_TEMPS)
@@ -104,12 +111,18 @@ static int write_fd(int fd, const char *path, const char *data, size_t len)
     return 0;
 }
 
-/* Write data to a new temporary file beside path; returns its malloc'd
- * name, or NULL after printing why (and removing it).  SLOT tracks it for
- * removal on a signal. */
-static char *write_temp(int slot, const char *path, const char *data,
-                        size_t len)
+/* The Buf sink of a temporary. */
+static int write_temp(void *target, const char *data, size_t len)
 {
+    const StreamedOutput *f = target;
+    return write_fd(f->fd, f->target, data, len);
+}
+
+/* Create a temporary beside f->target, open in f->fd, tracked in SLOT for
+ * removal on a signal; returns 0, or -1 after printing why. */
+static int open_temp(int slot, StreamedOutput *f)
+{
+    const char *path = f->target;
     char *temp = malloc(strlen(path) + 32);
     if (!temp) {
         fputs("dervish: out of memory\n", stderr);
@@ -126,39 +139,31 @@ static char *write_temp(int slot, const char *path, const char *data,
                 strerror(errno));
         track_temp(slot, NULL);
         free(temp);
-        return NULL;
+        return -1;
     }
     /* mkstemp makes the file 0600; outputs get the usual 0666 & ~umask */
     mode_t mask = umask(0);
     umask(mask);
     fchmod(fd, 0666 & ~mask);
-    int failed = write_fd(fd, path, data, len);
-    if (close(fd) != 0 && !failed) {
-        fprintf(stderr, "dervish: cannot write %s: %s\n", path,
-                strerror(errno));
-        failed = 1;
-    }
-    if (failed) {
-        remove(temp);
-        track_temp(slot, NULL);
-        free(temp);
-        return NULL;
-    }
-    return temp;
+    f->temp = temp;
+    f->fd = fd;
+    f->text.sink = write_temp;
+    f->text.target = f;
+    return 0;
 }
 
 /* Write into an existing special file (a device, a pipe) in place. */
-static int write_special(const OutputFile *f)
+static int write_special(const StreamedOutput *f)
 {
-    int fd = open(f->path, O_WRONLY | O_TRUNC);
+    int fd = open(f->target, O_WRONLY | O_TRUNC);
     if (fd < 0) {
-        fprintf(stderr, "dervish: cannot write %s: %s\n", f->path,
+        fprintf(stderr, "dervish: cannot write %s: %s\n", f->target,
                 strerror(errno));
         return -1;
     }
-    int failed = write_fd(fd, f->path, f->data, f->len);
+    int failed = write_fd(fd, f->target, f->text.data, f->text.len);
     if (close(fd) != 0 && !failed) {
-        fprintf(stderr, "dervish: cannot write %s: %s\n", f->path,
+        fprintf(stderr, "dervish: cannot write %s: %s\n", f->target,
                 strerror(errno));
         failed = 1;
     }
@@ -183,51 +188,111 @@ static char *resolve_target(const char *path)
     return real;
 }
 
-int fileio_write_all(const OutputFile *files, int n)
+/* Close a temporary still open; returns 0, or -1 after printing why. */
+static int close_temp(StreamedOutput *f)
 {
-    char **temp = calloc((size_t)n + 1, sizeof *temp);
-    char **target = calloc((size_t)n + 1, sizeof *target);
-    int failed = !temp || !target;
-    for (int i = 0; i < n && !failed; i++) {
-        struct stat st;
-        target[i] = resolve_target(files[i].path);
-        OutputFile f = {target[i], files[i].data, files[i].len};
-        if (stat(f.path, &st) == 0 && S_ISDIR(st.st_mode)) {
-            fprintf(stderr, "dervish: cannot write %s: it is a directory\n",
-                    files[i].path);
-            failed = 1;
-        } else if (stat(f.path, &st) == 0 && !S_ISREG(st.st_mode)) {
-            temp[i] = NULL;     /* special: written in place below */
-        } else if (!(temp[i] = write_temp(i, f.path, f.data, f.len))) {
-            failed = 1;
+    if (f->fd < 0)
+        return 0;
+    int rc = close(f->fd);
+    f->fd = -1;
+    if (rc != 0)
+        fprintf(stderr, "dervish: cannot write %s: %s\n", f->target,
+                strerror(errno));
+    return rc != 0 ? -1 : 0;
+}
+
+/* Remove what is left of the outputs (temporaries not renamed) and free
+ * them. */
+static void discard(StreamedOutput *files, int n)
+{
+    for (int i = 0; i < n; i++) {
+        StreamedOutput *f = &files[i];
+        if (f->fd >= 0)
+            close(f->fd);
+        f->fd = -1;
+        if (f->temp) {
+            remove(f->temp);
+            track_temp(i, NULL);
+            free(f->temp);
+            f->temp = NULL;
         }
+        free(f->target);
+        f->target = NULL;
+        buf_free(&f->text);
     }
-    for (int i = 0; i < n && !failed; i++) {
-        OutputFile f = {target[i], files[i].data, files[i].len};
-        if (!temp[i] && write_special(&f) != 0)
-            failed = 1;
+}
+
+int fileio_open_outputs(StreamedOutput *files, int n)
+{
+    for (int i = 0; i < n; i++) {
+        Buf empty = {0};
+        files[i].text = empty;
+        files[i].target = NULL;
+        files[i].temp = NULL;
+        files[i].fd = -1;
     }
+    for (int i = 0; i < n; i++) {
+        StreamedOutput *f = &files[i];
+        struct stat st;
+        f->target = resolve_target(f->path);
+        if (stat(f->target, &st) == 0 && S_ISDIR(st.st_mode)) {
+            fprintf(stderr, "dervish: cannot write %s: it is a directory\n",
+                    f->path);
+        } else if (stat(f->target, &st) == 0 && !S_ISREG(st.st_mode)) {
+            continue;           /* special: written in place at the commit */
+        } else if (open_temp(i, f) == 0) {
+            continue;
+        }
+        discard(files, n);
+        return -1;
+    }
+    return 0;
+}
+
+int fileio_commit_outputs(StreamedOutput *files, int n)
+{
+    /* a failure while streaming has been reported already */
+    int failed = 0;
+    for (int i = 0; i < n; i++)
+        failed |= files[i].text.failed;
     for (int i = 0; i < n && !failed; i++)
-        if (temp[i] && rename(temp[i], target[i]) != 0) {
-            fprintf(stderr, "dervish: cannot write %s: %s\n", files[i].path,
+        if (files[i].temp &&
+            (buf_flush(&files[i].text) != 0 || close_temp(&files[i]) != 0))
+            failed = 1;
+    for (int i = 0; i < n && !failed; i++)
+        if (!files[i].temp && write_special(&files[i]) != 0)
+            failed = 1;
+    for (int i = 0; i < n && !failed; i++) {
+        StreamedOutput *f = &files[i];
+        if (f->temp && rename(f->temp, f->target) != 0) {
+            fprintf(stderr, "dervish: cannot write %s: %s\n", f->path,
                     strerror(errno));
             failed = 1;
-        } else if (temp[i]) {
+        } else if (f->temp) {
             track_temp(i, NULL);
-            free(temp[i]);
-            temp[i] = NULL;
+            free(f->temp);
+            f->temp = NULL;
         }
-    for (int i = 0; i < n; i++) {
-        if (temp && temp[i]) {
-            remove(temp[i]);
-            track_temp(i, NULL);
-            free(temp[i]);
-        }
-        if (target)
-            free(target[i]);
     }
-    free(temp);
-    free(target);
+    discard(files, n);
+    return failed ? -1 : 0;
+}
+
+int fileio_write_all(const OutputFile *files, int n)
+{
+    StreamedOutput *out = calloc((size_t)n + 1, sizeof *out);
+    if (!out) {
+        fputs("dervish: out of memory\n", stderr);
+        exit(3);
+    }
+    for (int i = 0; i < n; i++)
+        out[i].path = files[i].path;
+    int failed = fileio_open_outputs(out, n) != 0;
+    for (int i = 0; i < n && !failed; i++)
+        buf_putn(&out[i].text, files[i].data, files[i].len);
+    if (!failed)
+        failed = fileio_commit_outputs(out, n) != 0;
+    free(out);
     return failed ? -1 : 0;
 }
 

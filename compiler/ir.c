@@ -15,7 +15,8 @@ const IrOpInfo ir_ops[IR_OP_COUNT] = {
 int ir_builtin(const char *name)
 {
     for (int op = 0; op < IR_OP_COUNT; op++)
-        if (ir_ops[op].model_name && strcmp(ir_ops[op].model_name, name) == 0)
+        if (ir_ops[op].model_name && ir_ops[op].model_name[0] == name[0] &&
+            strcmp(ir_ops[op].model_name, name) == 0)
             return op;
     return -1;
 }
@@ -38,6 +39,18 @@ static uint64_t mix(uint64_t h, uint64_t v)
     return h;
 }
 
+/* Spread every input bit over the low bits the tables index with (the
+ * 64-bit finalizer of MurmurHash3), so linear probing sees few clusters
+ * even in tables of millions of entries. */
+static uint64_t finish(uint64_t h)
+{
+    h ^= h >> 33;
+    h *= 0xff51afd7ed558ccdULL;
+    h ^= h >> 33;
+    h *= 0xc4ceb9fe1a85ec53ULL;
+    return h ^ (h >> 33);
+}
+
 static uint64_t node_key(const IrNode *n)
 {
     uint64_t bits;
@@ -48,7 +61,7 @@ static uint64_t node_key(const IrNode *n)
     h = mix(h, (uint32_t)n->array);
     h = mix(h, (uint32_t)n->tuple);
     h = mix(h, (uint32_t)n->var);
-    return mix(h, bits);
+    return finish(mix(h, bits));
 }
 
 static int node_equal(const IrNode *a, const IrNode *b)
@@ -62,9 +75,13 @@ static int node_equal(const IrNode *a, const IrNode *b)
            memcmp(&a->num, &b->num, sizeof a->num) == 0;
 }
 
+/* (Re)build the node table at most half full; it may have been dropped
+ * (node_hash NULL) once the passes that make nodes were done. */
 static void rehash_nodes(Ir *ir)
 {
     int cap = ir->node_hash_cap ? 2 * ir->node_hash_cap : 1024;
+    while (cap < 2 * (ir->nodes.len + 1))
+        cap *= 2;
     int32_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);
     for (int i = 0; i < cap; i++)
         t[i] = -1;
@@ -75,8 +92,35 @@ static void rehash_nodes(Ir *ir)
             slot = (slot + 1) & (cap - 1);
         t[slot] = id;
     }
+    arena_release(ir->arena, ir->node_hash,
+                  (size_t)ir->node_hash_cap * sizeof *t);
     ir->node_hash = t;
     ir->node_hash_cap = cap;
+}
+
+/* The node array is read through pointers while nodes are added (a rule
+ * may hold one node while it builds others), so it must not move under
+ * them.  It grows in place at statement boundaries (ir_add_stmt), where
+ * no such pointer is held, keeping a quarter of it free; only a statement
+ * that fills that quarter makes it move mid-way, and then the old copy
+ * stays readable until the next statement is added. */
+static void grow_nodes(Ir *ir, int in_place)
+{
+    size_t old_size = (size_t)ir->nodes.cap * sizeof *ir->nodes.items;
+    int cap = ir->nodes.cap ? 2 * ir->nodes.cap : 1024;
+    size_t size = (size_t)cap * sizeof *ir->nodes.items;
+    if (in_place) {
+        ir->nodes.items = arena_grow(ir->arena, ir->nodes.items, old_size,
+                                     size);
+    } else {
+        IrNode *items = arena_alloc(ir->arena, size);
+        if (ir->nodes.len)
+            memcpy(items, ir->nodes.items,
+                   (size_t)ir->nodes.len * sizeof *items);
+        arena_retire(ir->arena, ir->nodes.items, old_size);
+        ir->nodes.items = items;
+    }
+    ir->nodes.cap = cap;
 }
 
 static NodeId intern(Ir *ir, const IrNode *n)
@@ -92,7 +136,9 @@ static NodeId intern(Ir *ir, const IrNode *n)
         slot = (slot + 1) & (cap - 1);
     }
     NodeId id = ir->nodes.len;
-    VEC_PUSH(ir->arena, ir->nodes, *n);
+    if (ir->nodes.len == ir->nodes.cap)
+        grow_nodes(ir, 0);
+    ir->nodes.items[ir->nodes.len++] = *n;
     ir->node_hash[slot] = id;
     return id;
 }
@@ -151,6 +197,14 @@ NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c)
 
 /* ------------------------------------------------------------- tuples */
 
+static uint64_t tuple_key(int n, const int32_t *vars)
+{
+    uint64_t h = mix(7, (uint32_t)n);
+    for (int k = 0; k < n; k++)
+        h = mix(h, (uint32_t)vars[k]);
+    return finish(h);
+}
+
 int32_t ir_tuple(Ir *ir, const int32_t *vars, int n)
 {
     if (ir->tuple_hash_cap < 2 * (ir->tuple_data.len + n + 1)) {
@@ -162,20 +216,19 @@ int32_t ir_tuple(Ir *ir, const int32_t *vars, int n)
             t[i] = -1;
         for (int id = 0; id < ir->tuple_data.len;
              id += ir->tuple_data.items[id] + 1) {
-            uint64_t h = 7;
-            for (int k = 0; k <= ir->tuple_data.items[id]; k++)
-                h = mix(h, (uint32_t)ir->tuple_data.items[id + k]);
+            uint64_t h = tuple_key(ir->tuple_data.items[id],
+                                   &ir->tuple_data.items[id + 1]);
             int slot = (int)(h & (uint64_t)(cap - 1));
             while (t[slot] >= 0)
                 slot = (slot + 1) & (cap - 1);
             t[slot] = id;
         }
+        arena_release(ir->arena, ir->tuple_hash,
+                      (size_t)ir->tuple_hash_cap * sizeof *t);
         ir->tuple_hash = t;
         ir->tuple_hash_cap = cap;
     }
-    uint64_t h = mix(7, (uint32_t)n);
-    for (int k = 0; k < n; k++)
-        h = mix(h, (uint32_t)vars[k]);
+    uint64_t h = tuple_key(n, vars);
     int cap = ir->tuple_hash_cap;
     int slot = (int)(h & (uint64_t)(cap - 1));
     while (ir->tuple_hash[slot] >= 0) {
@@ -214,8 +267,11 @@ int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
     a.name = name;
     a.role = role;
     a.rank = rank;
-    for (int k = 0; k < rank; k++)
-        a.dim[k] = dim[k];
+    if (rank > 0) {
+        int *copy = arena_alloc(ir->arena, (size_t)rank * sizeof *copy);
+        memcpy(copy, dim, (size_t)rank * sizeof *copy);
+        a.dim = copy;
+    }
     a.span = span;
     a.adjoint = -1;
     a.primal = -1;
@@ -233,6 +289,10 @@ int32_t ir_add_var(Ir *ir, const char *name, int extent)
 void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s)
 {
     VEC_PUSH(ir->arena, *list, s);
+    /* a statement boundary: see grow_nodes */
+    arena_release_retired(ir->arena);
+    if (4 * ir->nodes.len >= 3 * ir->nodes.cap)
+        grow_nodes(ir, 1);
 }
 
 IrStmt ir_stmt(Ir *ir, IrStmtKind kind, int32_t target, int32_t tuple,

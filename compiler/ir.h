@@ -87,10 +87,11 @@ typedef enum IrRole {
 
 typedef struct IrArray {
     const char *name;   /* the C name: the model's, or with the reserved prefix */
+    const int *dim;     /* rank extents (see IR_EXTENT_OF_SIZE), in the
+                           arena; NULL for a scalar */
+    Span span;          /* where it was declared or defined */
     IrRole role;
     int rank;
-    int dim[IR_MAX_RANK];   /* extents, see IR_EXTENT_OF_SIZE */
-    Span span;          /* where it was declared or defined */
     int32_t adjoint;    /* its adjoint array, or -1 */
     int32_t primal;     /* ROLE_ADJOINT: the array it is the adjoint of */
     uint8_t used;       /* some kept statement or the output reads it */
@@ -116,6 +117,8 @@ typedef enum IrStmtKind {
 } IrStmtKind;
 
 typedef struct IrStmt {
+    const char *note;   /* a comment to show instead of the model text */
+    Span origin;        /* the model statement this came from */
     IrStmtKind kind;
     int32_t target;     /* array written */
     int32_t tuple;      /* target's subscripts */
@@ -123,8 +126,6 @@ typedef struct IrStmt {
     int32_t reduced;    /* SK_MAX/SK_MIN: the reduced vars (a tuple) */
     int32_t argpos;     /* SK_MAX/SK_MIN: the ROLE_ARGPOS array, else -1 */
     NodeId expr;
-    Span origin;        /* the model statement this came from */
-    const char *note;   /* a comment to show instead of the model text */
     int32_t row_var;    /* row by row: the domain var that is the row, or -1 */
 } IrStmt;
 
@@ -146,7 +147,9 @@ typedef struct Ir {
     const char *row_plan;       /* why row by row was or was not chosen */
     Span output_span;           /* the output's name in its statement */
     Span output_stmt;           /* the whole output statement */
-    /* hash-consing tables, open addressing, sized powers of two */
+    /* hash-consing tables, open addressing, sized powers of two; the
+     * node table may be dropped (NULL, cap 0) and is then rebuilt when a
+     * node is next made */
     int32_t *node_hash;
     int node_hash_cap;
     int32_t *tuple_hash;
@@ -170,6 +173,8 @@ const int32_t *ir_tuple_vars(const Ir *ir, int32_t tuple);
 int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
                      const int *dim, Span span);
 int32_t ir_add_var(Ir *ir, const char *name, int extent);
+/* Append s to list.  A statement boundary: the node array may move here,
+ * so no IrNode pointer may be held across this call. */
 void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s);
 
 /* A statement target[tuple] KIND expr over domain, with no reduced vars,

@@ -110,6 +110,13 @@ static int first_on_line(const Source *src, Span at)
     return 1;
 }
 
+/* Remember that a statement which failed may have been defining the name
+ * of n bytes at text. */
+static void remember_failed(ParseState *ps, const char *text, size_t n)
+{
+    VEC_PUSH(ps->keep, ps->failed, arena_strndup(ps->keep, text, n));
+}
+
 /* Remember the names the failing statement may have been defining (its
  * leading name, or the names after const, input or param), so later uses
  * of them are not reported as unknown. */
@@ -124,8 +131,7 @@ static void note_failed_names(ParseState *ps)
         return;
     for (int i = 0; i < ps->stmt_names.len; i++) {
         Span n = ps->stmt_names.items[i];
-        VEC_PUSH(ps->arena, ps->failed,
-                 arena_strndup(ps->arena, ps->lexer.src->text + n.off, n.len));
+        remember_failed(ps, ps->lexer.src->text + n.off, n.len);
         if (first == TOK_NAME)
             break;
     }
@@ -176,8 +182,7 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
         for (int i = 0; i < ps->stmt_names.len; i++) {
             Span n = ps->stmt_names.items[i];
             if (n.off > joined.off && first_on_line(src, n)) {
-                VEC_PUSH(ps->arena, ps->failed,
-                         arena_strndup(ps->arena, src->text + n.off, n.len));
+                remember_failed(ps, src->text + n.off, n.len);
                 break;
             }
         }
@@ -243,7 +248,7 @@ void parse_too_deep(ParseState *ps)
 void parse_add_stmt(ParseState *ps, AstStmt *s)
 {
     if (s)
-        VEC_PUSH(ps->arena, ps->stmts, s);
+        VEC_PUSH(ps->keep, ps->stmts, s);
 }
 
 const char *parse_name(ParseState *ps, Token name)
@@ -276,7 +281,8 @@ AstStmt *parse_names(ParseState *ps, AstStmtKind kind, Token keyword,
             /* the names it did give stay quiet when used later */
             for (int k = 0; kind == STMT_SIZE && k < names.len; k++)
                 if (names.items[k]->kind == AST_NAME)
-                    VEC_PUSH(ps->arena, ps->failed, names.items[k]->name);
+                    remember_failed(ps, names.items[k]->name,
+                                    strlen(names.items[k]->name));
             return NULL;
         }
     s->names = names.items;
@@ -296,7 +302,7 @@ AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
             diag_error(ps->diag, index.items[i]->span,
                        "the left side takes index names, as in "
                        "'%s[i, j] = ...'", s->name);
-            VEC_PUSH(ps->arena, ps->failed, s->name);
+            remember_failed(ps, s->name, strlen(s->name));
             return NULL;
         }
     s->index = index.items;
@@ -444,52 +450,85 @@ AstExpr *parse_select(ParseState *ps, AstExpr *c, AstExpr *a, AstExpr *b)
     return set_depth(ps, e);
 }
 
-AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
+/* Feed the whole source to the parser.  With a visitor, the statements
+ * are handed over at each statement boundary (where the parser holds no
+ * tree) and their trees freed; else they collect in ps->stmts. */
+static void run(ParseState *ps, ParseVisitor *v)
 {
-    ParseState ps;
-    memset(&ps, 0, sizeof ps);
-    ps.arena = arena;
-    ps.diag = diag;
-    ps.prev.code = TOK_NEWLINE;
-    lex_init(&ps.lexer, src, diag, arena);
+    Diag *diag = ps->diag;
+    ps->prev.code = TOK_NEWLINE;
+    lex_init(&ps->lexer, ps->lexer.src, diag, ps->keep);
     void *parser = DvParserAlloc(malloc);
     if (!parser) {
         fputs("dervish: out of memory\n", stderr);
         exit(3);
     }
     for (;;) {
-        Token t = lex_next(&ps.lexer);
-        if (ps.prev.code == TOK_NEWLINE || ps.prev.code == TOK_SEMI) {
-            ps.first = t;
-            ps.stmt_names.len = 0;
-            ps.stmt_failed = 0;
-            ps.open_selects = 0;
-            ps.lexer.error_in_stmt = 0;
-            ps.lexer.has_joined = 0;
+        Token t = lex_next(&ps->lexer);
+        if (ps->prev.code == TOK_NEWLINE || ps->prev.code == TOK_SEMI) {
+            ps->first = t;
+            ps->stmt_names.len = 0;
+            ps->stmt_failed = 0;
+            ps->open_selects = 0;
+            ps->lexer.error_in_stmt = 0;
+            ps->lexer.has_joined = 0;
         }
         if (t.code == TOK_NAME)
-            VEC_PUSH(arena, ps.stmt_names, t.span);
-        ps.open_selects += (t.code == TOK_QUESTION) - (t.code == TOK_COLON);
-        DvParser(parser, t.code, t, &ps);
+            VEC_PUSH(ps->keep, ps->stmt_names, t.span);
+        ps->open_selects += (t.code == TOK_QUESTION) - (t.code == TOK_COLON);
+        DvParser(parser, t.code, t, ps);
         if (t.code == TOK_NEWLINE || t.code == TOK_SEMI) {
             /* Statements are independent: parse each as a whole program,
              * so recovery from an error never reaches into the next one
              * and its errors are reported in full. */
-            DvParser(parser, 0, t, &ps);
+            DvParser(parser, 0, t, ps);
             DvParserFinalize(parser);
             DvParserInit(parser);
         }
-        if (t.code == 0 || ps.too_deep || ps.lexer.too_deep ||
-            diag->errors > diag->max_errors)
+        int done = t.code == 0 || ps->too_deep || ps->lexer.too_deep ||
+                   diag->errors > diag->max_errors;
+        if (v && (done || t.code == TOK_NEWLINE || t.code == TOK_SEMI)) {
+            for (int i = 0; i < ps->stmts.len; i++)
+                v->visit(v->ctx, ps->stmts.items[i]);
+            ps->stmts.len = 0;
+            arena_clear(ps->arena);
+        }
+        if (done)
             break;
-        ps.prev2 = ps.prev;
-        ps.prev = t;
+        ps->prev2 = ps->prev;
+        ps->prev = t;
     }
     DvParserFree(parser, free);
+}
+
+AstModel *parse_model(Arena *arena, Diag *diag, const Source *src)
+{
+    ParseState ps;
+    memset(&ps, 0, sizeof ps);
+    ps.arena = ps.keep = arena;
+    ps.diag = diag;
+    ps.lexer.src = src;
+    run(&ps, NULL);
     AstModel *m = arena_alloc(arena, sizeof *m);
     m->stmts = ps.stmts.items;
     m->nstmts = ps.stmts.len;
     m->failed_names = ps.failed.items;
     m->nfailed = ps.failed.len;
     return m;
+}
+
+void parse_each(Arena *arena, Diag *diag, const Source *src, ParseVisitor *v)
+{
+    ParseState ps;
+    memset(&ps, 0, sizeof ps);
+    Arena trees;
+    arena_init(&trees);
+    ps.arena = &trees;
+    ps.keep = arena;
+    ps.diag = diag;
+    ps.lexer.src = src;
+    run(&ps, v);
+    arena_free(&trees);
+    v->failed = ps.failed.items;
+    v->nfailed = ps.failed.len;
 }

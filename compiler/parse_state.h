@@ -6,7 +6,8 @@
 #include "parse.h"
 
 typedef struct ParseState {
-    Arena *arena;
+    Arena *arena;       /* the syntax trees */
+    Arena *keep;        /* what outlives a statement: failed names, lists */
     Diag *diag;
     Lexer lexer;
     VEC(AstStmt *) stmts;
@@ -31,6 +32,20 @@ typedef struct DeclList {
     int len, cap;
     Span last;
 } DeclList;
+
+/* Who takes the statements from parse_each, one at a time. */
+typedef struct ParseVisitor {
+    void (*visit)(void *ctx, const AstStmt *s);
+    void *ctx;
+    const char **failed;    /* out: what parse_model's failed_names holds */
+    int nfailed;
+} ParseVisitor;
+
+/* Parse the whole source like parse_model, but hand each statement to
+ * v->visit as soon as it is complete and free its tree right after, so
+ * the memory used does not grow with the model.  Syntax errors are
+ * counted (and reported) in diag; the failed names go to v, in arena. */
+void parse_each(Arena *arena, Diag *diag, const Source *src, ParseVisitor *v);
 
 void parse_syntax_error(ParseState *ps, int code, Token tok);
 void parse_too_deep(ParseState *ps);

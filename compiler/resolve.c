@@ -5,10 +5,16 @@
  * (infer) checks every name and binds every index to a range, taken from
  * the array dimensions it subscripts; the second (lower) builds IR nodes,
  * turning each reduction into an accumulator array filled by statements
- * placed before the definition's own statement. */
+ * placed before the definition's own statement.
+ *
+ * The model is seen twice: a first pass (outline) notes every name it
+ * defines and its model statements, a second resolves statement by
+ * statement.  Given no tree, resolve_model parses the source once for each
+ * pass and frees each statement's tree as soon as it is visited. */
 #include "resolve.h"
 #include "apply.h"
 #include "names.h"
+#include "parse_state.h"
 
 #include <limits.h>
 #include <math.h>
@@ -20,16 +26,22 @@
 
 /* ------------------------------------------------------------ symbols */
 
-typedef enum SymKind { SYM_CONST, SYM_ARRAY, SYM_SIZE } SymKind;
+typedef enum SymKind {
+    SYM_LATER,          /* defined by a later statement: not visible yet */
+    SYM_CONST,
+    SYM_ARRAY,
+    SYM_SIZE
+} SymKind;
 
 typedef struct Symbol {
-    const char *name;
-    SymKind kind;
+    const char *name;   /* a copy in the arena (the IR's arrays share it) */
     double value;       /* SYM_CONST */
+    Span span;          /* where it was defined */
     int32_t array;      /* SYM_ARRAY */
     int32_t size;       /* SYM_SIZE: its id in ir->sizes */
-    Span span;          /* where it was defined */
-    int failed;         /* its definition had errors: uses stay quiet */
+    uint32_t hash;      /* of name: most probes need not read the name */
+    uint8_t kind;       /* SymKind */
+    uint8_t failed;     /* its definition had errors: uses stay quiet */
 } Symbol;
 
 /* A bound index: a free index of the left side, an implicit index of a
@@ -44,8 +56,15 @@ typedef struct Binder {
 
 typedef struct DefinedValue {
     int32_t array;
-    const AstStmt *stmt;
+    Span name_span;     /* the name in its definition */
 } DefinedValue;
+
+/* A model statement, as the first pass saw it. */
+typedef struct ModelStmt {
+    int index;          /* its place among the statements */
+    Span span, name_span;
+    const char *name;
+} ModelStmt;
 
 typedef struct SymTable {
     Symbol *items;      /* open addressing on name */
@@ -57,12 +76,19 @@ typedef struct Resolver {
     Diag *diag;
     const Source *src;
     Ir *ir;
-    SymTable symbols;   /* names defined so far */
-    SymTable all_names; /* every name the model defines anywhere */
+    SymTable symbols;   /* every name the model defines: SYM_LATER until
+                           its definition is reached */
     SymTable unparsed;  /* names of statements that failed to parse */
     VEC(DefinedValue) defined;
     int nparams;
     int noutputs;
+
+    /* what the first pass (outline) saw of the whole model */
+    VEC(ModelStmt) models;  /* the model statements */
+    int nstmts;
+    Span last_span;     /* the last statement */
+    int has_output;     /* an output statement was resolved */
+    Span last_output;   /* the last one */
 
     /* the definition being resolved */
     const AstStmt *stmt;
@@ -89,15 +115,17 @@ static Symbol *table_find(const SymTable *t, const char *name)
 {
     if (!t->cap)
         return NULL;
-    uint32_t i = hash_name(name) & (uint32_t)(t->cap - 1);
+    uint32_t h = hash_name(name);
+    uint32_t i = h & (uint32_t)(t->cap - 1);
     while (t->items[i].name) {
-        if (strcmp(t->items[i].name, name) == 0)
+        if (t->items[i].hash == h && strcmp(t->items[i].name, name) == 0)
             return &t->items[i];
         i = (i + 1) & (uint32_t)(t->cap - 1);
     }
     return NULL;
 }
 
+/* Add a name that is not in the table yet; the table keeps the pointer. */
 static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
                             Span span)
 {
@@ -110,24 +138,53 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
             if (old.items[i].name)
                 *table_insert(arena, t, old.items[i].name,
                               old.items[i].span) = old.items[i];
+        arena_release(arena, old.items, (size_t)old.cap * sizeof *old.items);
     }
-    uint32_t i = hash_name(name) & (uint32_t)(t->cap - 1);
+    uint32_t h = hash_name(name);
+    uint32_t i = h & (uint32_t)(t->cap - 1);
     while (t->items[i].name)
         i = (i + 1) & (uint32_t)(t->cap - 1);
     t->items[i].name = name;
+    t->items[i].hash = h;
     t->items[i].span = span;
     t->len++;
     return &t->items[i];
 }
 
-static Symbol *lookup(Resolver *r, const char *name)
+/* A copy of a name the resolver keeps: a statement's syntax tree may be
+ * freed once it is resolved. */
+static const char *copy_name(Resolver *r, const char *name)
 {
-    return table_find(&r->symbols, name);
+    return arena_strndup(r->arena, name, strlen(name));
 }
 
+/* The symbol NAME refers to at this point of the model, or NULL. */
+static Symbol *lookup(Resolver *r, const char *name)
+{
+    Symbol *s = table_find(&r->symbols, name);
+    return s && s->kind != SYM_LATER ? s : NULL;
+}
+
+/* A name some statement defines (first pass). */
+static void note_name(Resolver *r, const char *name, Span span)
+{
+    if (!table_find(&r->symbols, name))
+        table_insert(r->arena, &r->symbols, copy_name(r, name), span);
+}
+
+/* Define NAME here (it is not defined yet); the caller sets its kind. */
 static Symbol *insert(Resolver *r, const char *name, Span span)
 {
-    return table_insert(r->arena, &r->symbols, name, span);
+    Symbol *s = table_find(&r->symbols, name);
+    if (!s)
+        s = table_insert(r->arena, &r->symbols, copy_name(r, name), span);
+    Symbol fresh;
+    memset(&fresh, 0, sizeof fresh);
+    fresh.name = s->name;
+    fresh.hash = s->hash;
+    fresh.span = span;
+    *s = fresh;
+    return s;
 }
 
 /* True when NAME is unknown because its statement failed to parse: the
@@ -302,9 +359,10 @@ static int dimension(Resolver *r, const AstExpr *e, const char *array,
 }
 
 /* Whether an array of these dims is small enough to declare; reports the
- * error when it is not.  Runtime sizes are checked when the code runs. */
+ * error when it is not, for the array NAME (NULL: a reduction's result).
+ * Runtime sizes are checked when the code runs. */
 static int fits(Resolver *r, int rank, const int *dim, Span at,
-                const char *what)
+                const char *name)
 {
     long count = 1;
     for (int k = 0; k < rank; k++) {
@@ -312,6 +370,8 @@ static int fits(Resolver *r, int rank, const int *dim, Span at,
             continue;
         count *= dim[k];
         if (count > MAX_ELEMENTS) {
+            const char *what = name ? arena_printf(r->arena, "'%s'", name)
+                                    : "this reduction's result";
             diag_error(r->diag, at,
                        "%s would have more than %ld elements, too many "
                        "for one array", what, MAX_ELEMENTS);
@@ -339,8 +399,7 @@ static void resolve_decls(Resolver *r, const AstStmt *s)
             if (dim[k] == 0)
                 ok = 0;
         }
-        if (ok && !fits(r, d->ndims, dim, d->span,
-                        arena_printf(r->arena, "'%s'", d->name)))
+        if (ok && !fits(r, d->ndims, dim, d->span, d->name))
             ok = 0;
         if (!lookup(r, d->name)) {
             Symbol *sym = insert(r, d->name, d->span);
@@ -348,7 +407,7 @@ static void resolve_decls(Resolver *r, const AstStmt *s)
             sym->failed = !ok;
             sym->array = -1;
             if (ok) {
-                sym->array = ir_add_array(r->ir, d->name, role, d->ndims,
+                sym->array = ir_add_array(r->ir, sym->name, role, d->ndims,
                                           dim, d->span);
                 if (role == ROLE_PARAM)
                     r->nparams++;
@@ -367,7 +426,7 @@ static void resolve_sizes(Resolver *r, const AstStmt *s)
         }
         Symbol *sym = insert(r, n->name, n->span);
         sym->kind = SYM_SIZE;
-        IrSize size = {n->name, n->span};
+        IrSize size = {sym->name, n->span};
         VEC_PUSH(r->arena, r->ir->sizes, size);
         sym->size = r->ir->sizes.len - 1;
     }
@@ -422,7 +481,7 @@ static int bind(Resolver *r, const char *name, Span span)
     const char *why = names_reserved(name, r->ir->model);
     Symbol *sym = lookup(r, name);
     int outer = find_binder(r, name);
-    Symbol *value = table_find(&r->all_names, name);
+    Symbol *value = table_find(&r->symbols, name);
     if (why) {
         diag_error(r->diag, span, "index '%s' %s; choose another name",
                    name, why);
@@ -493,7 +552,7 @@ static void infer_name(Resolver *r, const AstExpr *e)
     }
     if (r->elem_rank < 0) {
         r->elem_rank = a->rank;
-        memcpy(r->elem_dim, a->dim, sizeof r->elem_dim);
+        memcpy(r->elem_dim, a->dim, (size_t)a->rank * sizeof *a->dim);
         r->elem_from = e->span;
         return;
     }
@@ -693,7 +752,7 @@ static int32_t binder_var(Resolver *r, int b)
 {
     Binder *bd = &r->binders.items[b];
     if (bd->var < 0)
-        bd->var = ir_add_var(r->ir, bd->name, bd->extent);
+        bd->var = ir_add_var(r->ir, copy_name(r, bd->name), bd->extent);
     return bd->var;
 }
 
@@ -885,7 +944,7 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
     int dim[IR_MAX_RANK];
     for (int k = 0; k < nouter; k++)
         dim[k] = r->ir->vars.items[outer[k]].extent;
-    if (!fits(r, nouter, dim, e->span, "this reduction's result"))
+    if (!fits(r, nouter, dim, e->span, NULL))
         fail(r);
     if (kind == 3)
         return lower_logsumexp(r, e, body, tuple, domain, nouter, dim);
@@ -1076,16 +1135,15 @@ static void resolve_define(Resolver *r, const AstStmt *s)
             VEC_PUSH(r->arena, r->scope, r->binders.len - 1);
         }
     }
-    if (!fits(r, rank, dim, s->name_span,
-              arena_printf(r->arena, "'%s'", s->name))) {
+    if (!fits(r, rank, dim, s->name_span, s->name)) {
         sym->failed = 1;
         return;
     }
-    int32_t target = ir_add_array(r->ir, s->name, ROLE_VALUE, rank, dim,
+    int32_t target = ir_add_array(r->ir, sym->name, ROLE_VALUE, rank, dim,
                                   s->name_span);
     sym->array = target;
     int32_t tuple = scope_tuple(r);
-    DefinedValue dv = {target, s};
+    DefinedValue dv = {target, s->name_span};
     VEC_PUSH(r->arena, r->defined, dv);
 
     int direct = 0;
@@ -1148,18 +1206,15 @@ static void resolve_output(Resolver *r, const AstStmt *s)
 /* -------------------------------------------------------- model name */
 
 /* The symbol prefix: --name, else the model statement, else the stem. */
-static const char *model_name(Resolver *r, const AstModel *m,
-                              const char *name, const char *stem)
+static const char *model_name(Resolver *r, const char *name, const char *stem)
 {
-    const AstStmt *decl = NULL;
-    for (int i = 0; i < m->nstmts; i++) {
-        const AstStmt *s = m->stmts[i];
-        if (s->kind != STMT_MODEL)
-            continue;
+    const ModelStmt *decl = NULL;
+    for (int i = 0; i < r->models.len; i++) {
+        const ModelStmt *s = &r->models.items[i];
         if (decl) {
             diag_error(r->diag, s->span, "a second 'model' statement");
             diag_note(r->diag, decl->span, "the model was named here");
-        } else if (i > 0) {
+        } else if (s->index > 0) {
             diag_error(r->diag, s->span,
                        "'model' must be the first statement of the file");
         }
@@ -1185,16 +1240,13 @@ static const char *model_name(Resolver *r, const AstModel *m,
     return c;
 }
 
-static void check_model_name(Resolver *r, const AstModel *m)
+static void check_model_name(Resolver *r)
 {
     const char *name = r->ir->model;
     Span at = {0, 0};
-    int stated = 0;
-    for (int i = 0; i < m->nstmts; i++)
-        if (m->stmts[i]->kind == STMT_MODEL) {
-            at = m->stmts[i]->name_span;
-            stated = 1;
-        }
+    int stated = r->models.len > 0;
+    if (stated)
+        at = r->models.items[r->models.len - 1].name_span;
     const char *why = !names_is_identifier(name)
                           ? "is not a C identifier"
                           : names_reserved(name, NULL);
@@ -1243,13 +1295,17 @@ static void prune(Resolver *r)
         if (keep[i])
             ir->forward.items[out++] = ir->forward.items[i];
     ir->forward.len = out;
+    arena_release(r->arena, keep, (size_t)(kept ? kept : 1));
+    arena_release(r->arena, stack.items,
+                  (size_t)stack.cap * sizeof *stack.items);
 
     for (int i = 0; i < r->defined.len; i++) {
         const DefinedValue *d = &r->defined.items[i];
         if (!ir->arrays.items[d->array].used)
-            diag_warning(r->diag, d->stmt->name_span,
+            diag_warning(r->diag, d->name_span,
                          "'%s' is defined but no output depends on it; it "
-                         "is left out of the emitted code", d->stmt->name);
+                         "is left out of the emitted code",
+                         ir->arrays.items[d->array].name);
     }
     int any_param = 0;
     for (int i = 0; i < ir->arrays.len; i++) {
@@ -1271,6 +1327,118 @@ static void prune(Resolver *r)
 
 /* -------------------------------------------------------------- model */
 
+/* First pass over a statement: note the names it defines (an index may
+ * not take a name the model defines anywhere) and where it is. */
+static void outline(Resolver *r, const AstStmt *s)
+{
+    if (s->kind == STMT_MODEL) {
+        ModelStmt ms = {r->nstmts, s->span, s->name_span,
+                        copy_name(r, s->name)};
+        VEC_PUSH(r->arena, r->models, ms);
+    }
+    if (s->kind == STMT_CONST || s->kind == STMT_DEFINE)
+        note_name(r, s->name, s->name_span);
+    for (int k = 0; k < s->ndecls; k++)
+        note_name(r, s->decls[k].name, s->decls[k].span);
+    for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
+        note_name(r, s->names[k]->name, s->names[k]->span);
+    r->last_span = s->span;
+    r->nstmts++;
+}
+
+/* Between the passes: the model's name, and the names of statements that
+ * failed to parse, whose uses stay quiet. */
+static void start(Resolver *r, const char *const *failed, int nfailed,
+                  const char *name, const char *stem)
+{
+    r->ir->model = model_name(r, name, stem);
+    check_model_name(r);
+    for (int i = 0; i < nfailed; i++)
+        if (!table_find(&r->unparsed, failed[i])) {
+            Span none = {0, 0};
+            table_insert(r->arena, &r->unparsed, failed[i], none);
+        }
+}
+
+/* Second pass: resolve a statement. */
+static void resolve_stmt(Resolver *r, const AstStmt *s)
+{
+    if (r->diag->errors > r->diag->max_errors)
+        return;
+    switch (s->kind) {
+    case STMT_MODEL:
+        break;
+    case STMT_CONST:
+        resolve_const(r, s);
+        break;
+    case STMT_INPUT:
+    case STMT_PARAM:
+        resolve_decls(r, s);
+        break;
+    case STMT_SIZE:
+        resolve_sizes(r, s);
+        break;
+    case STMT_DEFINE:
+        resolve_define(r, s);
+        break;
+    case STMT_OUTPUT:
+        resolve_output(r, s);
+        r->has_output = 1;
+        r->last_output = s->span;
+        break;
+    }
+}
+
+/* Give back the resolver's own tables: only the IR outlives it. */
+static void release_resolver(Resolver *r)
+{
+    SymTable *tables[] = {&r->symbols, &r->unparsed};
+    for (int i = 0; i < 2; i++)
+        arena_release(r->arena, tables[i]->items,
+                      (size_t)tables[i]->cap * sizeof *tables[i]->items);
+    arena_release(r->arena, r->defined.items,
+                  (size_t)r->defined.cap * sizeof *r->defined.items);
+    arena_release(r->arena, r->binders.items,
+                  (size_t)r->binders.cap * sizeof *r->binders.items);
+    arena_release(r->arena, r->scope.items,
+                  (size_t)r->scope.cap * sizeof *r->scope.items);
+}
+
+/* After the last statement: what the whole model lacks, then pruning. */
+static Ir *finish(Resolver *r)
+{
+    Diag *diag = r->diag;
+    Span start_at = {0, 0};
+    if (diag->errors == 0 && r->nstmts == 0)
+        diag_error(diag, start_at,
+                   "the model is empty: declare params, define values and "
+                   "name the output");
+    if (diag->errors == 0 && r->nparams == 0)
+        diag_error(diag, r->has_output ? r->last_output : start_at,
+                   "nothing to differentiate: the model declares no "
+                   "'param'");
+    if (r->nstmts > 0)
+        start_at = r->last_span;
+    if (diag->errors == 0 && r->noutputs == 0)
+        diag_error(diag, start_at,
+                   "the model has no output: add 'output NAME' naming the "
+                   "value to differentiate");
+    if (diag->errors == 0 && r->ir->output >= 0)
+        prune(r);
+    release_resolver(r);
+    return r->ir;
+}
+
+static void visit_outline(void *r, const AstStmt *s)
+{
+    outline(r, s);
+}
+
+static void visit_stmt(void *r, const AstStmt *s)
+{
+    resolve_stmt(r, s);
+}
+
 Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
                   const AstModel *m, const char *name, const char *stem)
 {
@@ -1280,75 +1448,25 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     r.diag = diag;
     r.src = src;
     r.ir = ir_new(arena, src);
-    r.ir->model = model_name(&r, m, name, stem);
-    check_model_name(&r, m);
-
-    for (int i = 0; i < m->nstmts; i++) {
-        const AstStmt *s = m->stmts[i];
-        if (s->kind == STMT_CONST || s->kind == STMT_DEFINE) {
-            if (!table_find(&r.all_names, s->name))
-                table_insert(arena, &r.all_names, s->name, s->name_span);
-        }
-        for (int k = 0; k < s->ndecls; k++)
-            if (!table_find(&r.all_names, s->decls[k].name))
-                table_insert(arena, &r.all_names, s->decls[k].name,
-                             s->decls[k].span);
-        for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
-            if (!table_find(&r.all_names, s->names[k]->name))
-                table_insert(arena, &r.all_names, s->names[k]->name,
-                             s->names[k]->span);
+    if (m) {
+        for (int i = 0; i < m->nstmts; i++)
+            outline(&r, m->stmts[i]);
+        start(&r, m->failed_names, m->nfailed, name, stem);
+        for (int i = 0; i < m->nstmts; i++)
+            resolve_stmt(&r, m->stmts[i]);
+        return finish(&r);
     }
-
-    /* names whose statements failed to parse: their uses stay quiet */
-    for (int i = 0; i < m->nfailed; i++)
-        if (!table_find(&r.unparsed, m->failed_names[i])) {
-            Span none = {0, 0};
-            table_insert(arena, &r.unparsed, m->failed_names[i], none);
-        }
-
-    const AstStmt *last_output = NULL;
-    for (int i = 0; i < m->nstmts; i++) {
-        const AstStmt *s = m->stmts[i];
-        if (diag->errors > diag->max_errors)
-            break;
-        switch (s->kind) {
-        case STMT_MODEL:
-            break;
-        case STMT_CONST:
-            resolve_const(&r, s);
-            break;
-        case STMT_INPUT:
-        case STMT_PARAM:
-            resolve_decls(&r, s);
-            break;
-        case STMT_SIZE:
-            resolve_sizes(&r, s);
-            break;
-        case STMT_DEFINE:
-            resolve_define(&r, s);
-            break;
-        case STMT_OUTPUT:
-            resolve_output(&r, s);
-            last_output = s;
-            break;
-        }
-    }
-    Span start = {0, 0};
-    if (diag->errors == 0 && m->nstmts == 0)
-        diag_error(diag, start,
-                   "the model is empty: declare params, define values and "
-                   "name the output");
-    if (diag->errors == 0 && r.nparams == 0)
-        diag_error(diag, last_output ? last_output->span : start,
-                   "nothing to differentiate: the model declares no "
-                   "'param'");
-    if (m->nstmts > 0)
-        start = m->stmts[m->nstmts - 1]->span;
-    if (diag->errors == 0 && r.noutputs == 0)
-        diag_error(diag, start,
-                   "the model has no output: add 'output NAME' naming the "
-                   "value to differentiate");
-    if (diag->errors == 0 && r.ir->output >= 0)
-        prune(&r);
-    return r.ir;
+    /* No tree given: parse src twice, each statement's tree freed once it
+     * is visited, so a model of any length is never held as a tree.  The
+     * first pass reports the syntax errors and outlines the model; the
+     * second, silent about the syntax, resolves. */
+    ParseVisitor first = {visit_outline, &r, NULL, 0};
+    parse_each(arena, diag, src, &first);
+    start(&r, first.failed, first.nfailed, name, stem);
+    Diag quiet;
+    diag_init(&quiet, src, NULL);
+    quiet.max_errors = diag->max_errors;
+    ParseVisitor second = {visit_stmt, &r, NULL, 0};
+    parse_each(arena, &quiet, src, &second);
+    return finish(&r);
 }

@@ -18,6 +18,7 @@ typedef struct Reverse {
                            reversed, or -1 */
     char *written;      /* adjoint array has received a contribution */
     NodeList reads;  /* scratch: distinct active reads of one expression */
+    NodeList seen;   /* scratch: nodes collect_reads has visited */
     DeriveMemo memo;
 } Reverse;
 
@@ -208,9 +209,9 @@ static void reverse_stmt(Reverse *rv, const IrStmt *s)
                          ir_read(ir, s->argpos, s->tuple), NO_NODE);
     NodeId self = s->kind == SK_SET ? y : s->expr;
 
-    NodeList seen = {0};
+    rv->seen.len = 0;
     rv->reads.len = 0;
-    collect_reads(rv, s->expr, &seen);
+    collect_reads(rv, s->expr, &rv->seen);
     for (int i = 0; i < rv->reads.len; i++) {
         NodeId leaf = rv->reads.items[i];
         NodeId d = rules_derivative(ir, &rv->memo, s->expr, leaf, self);
@@ -296,5 +297,9 @@ void reverse_pass(Ir *ir)
         }
     }
     rules_memo_free(&rv.memo);
+    arena_release(ir->arena, rv.seen.items,
+                  (size_t)rv.seen.cap * sizeof *rv.seen.items);
+    arena_release(ir->arena, rv.reads.items,
+                  (size_t)rv.reads.cap * sizeof *rv.reads.items);
     drop_unread(ir);
 }

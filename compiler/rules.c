@@ -76,23 +76,22 @@ NodeId rules_mul(Ir *ir, NodeId a, NodeId b)
     if (is_const(ir, b, -1))
         return ir_at(ir, a)->op == IR_NEG ? ir_at(ir, a)->arg[0]
                                           : op1(ir, IR_NEG, a);
-    const IrNode *x = ir_at(ir, a), *y = ir_at(ir, b);
-    if (x->op == IR_CONST && y->op == IR_CONST)
-        return num(ir, x->num * y->num);
+    /* a copy: the recursion below adds nodes, which may move the array */
+    IrNode y = *ir_at(ir, b);
     /* A selector rule (derivative 0 on one branch) keeps its zero out of
      * the product, so the derivative flows only into the branch taken.
      * Each step removes one selector, so this ends. */
     if (is_selector(ir, b)) {
-        NodeId t = is_const(ir, y->arg[1], 0) ? NO_NODE
-                                              : rules_mul(ir, a, y->arg[1]);
-        NodeId f = is_const(ir, y->arg[2], 0) ? NO_NODE
-                                              : rules_mul(ir, a, y->arg[2]);
-        return select(ir, y->arg[0], t, f);
+        NodeId t = is_const(ir, y.arg[1], 0) ? NO_NODE
+                                             : rules_mul(ir, a, y.arg[1]);
+        NodeId f = is_const(ir, y.arg[2], 0) ? NO_NODE
+                                             : rules_mul(ir, a, y.arg[2]);
+        return select(ir, y.arg[0], t, f);
     }
     if (is_selector(ir, a))
         return rules_mul(ir, b, a);
     /* Constants first reads naturally: 2 * x, not x * 2. */
-    if (y->op == IR_CONST)
+    if (y.op == IR_CONST)
         return op2(ir, IR_MUL, b, a);
     return op2(ir, IR_MUL, a, b);
 }
