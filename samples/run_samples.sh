@@ -1,7 +1,9 @@
 #!/bin/sh
 # run_samples.sh DERVISH [NAME...] - build and run the sample models: for
 # each sample (all when none is named) generate C from samples/NAME/NAME.dvs
-# with DERVISH, compile it with the sample's driver, and run the driver.
+# with DERVISH, compile it with the sample's driver, and run the driver;
+# when Graphviz's dot is installed, also draw the model's graph (NAME.svg,
+# from `dervish graph --sweep`).
 # Generated files go to $SAMPLES_OUT/NAME/ when that is set, else next to a
 # DERVISH built in this tree (build*/samples/NAME/), else build/samples/NAME/.
 # Exits 1 when any step of any sample fails.
@@ -30,6 +32,10 @@ case $dervish_dir in
 esac
 out_root=${SAMPLES_OUT:-$out_root}
 cc=${CC:-cc}
+dot=$(command -v dot) || {
+    dot=""
+    echo "run_samples.sh: no dot (Debian package graphviz), so no graphs drawn"
+}
 
 if [ $# -eq 0 ]; then
     for dir in "$here"/*/; do
@@ -52,6 +58,13 @@ run_one() {
         echo "dervish build failed"
         return 1
     }
+    if [ -n "$dot" ]; then
+        "$dervish" graph --sweep -o "$out/$name.dot" "$src/$name.dvs" &&
+            "$dot" -Tsvg -o "$out/$name.svg" "$out/$name.dot" || {
+            echo "drawing the graph failed"
+            return 1
+        }
+    fi
     "$cc" -std=c99 -Wall -Wextra -Wpedantic -Wshadow -Werror -O2 \
         -I"$out" -I"$here/common" -o "$out/$name" \
         "$out/$name.c" "$src/main.c" "$here/common/sample_util.c" -lm || {
