@@ -1,8 +1,12 @@
 # Makefile - builds dervish, its library, tests and samples with GNU make.
 #   make            the dervish executable and libdervish.a
 #   make check      every test (unit, end-to-end, bad input, runtime)
-#   make samples    build and run the sample models with their drivers
-#   make install    PREFIX (default /usr/local) and DESTDIR are honoured
+#   make samples    build and run the sample models with their drivers, and
+#                   draw their graphs (NAME.svg beside them) when Graphviz's
+#                   dot is installed
+#   make install    the executable and the man page dervish.1; PREFIX
+#                   (default /usr/local), MANDIR and DESTDIR are honoured
+#   make uninstall  removes what install put there
 #   make SANITIZE=1 ...   the same with AddressSanitizer and UBSan (build-san/)
 
 .SUFFIXES:
@@ -11,6 +15,7 @@
 
 CC      ?= cc
 PREFIX  ?= /usr/local
+MANDIR  ?= $(PREFIX)/share/man
 DESTDIR ?=
 VERSION := 0.1.0
 DEMO    ?= kiln
@@ -106,10 +111,12 @@ perf: $(B)/dervish
 	PERF_OUT=$(B)/perf sh bench/perf.sh $(B)/dervish
 
 # A long run of the randomized-model test: make soak SOAK_COUNT=10000
+# (SOAK_OPTIONS: extra options for every dervish build)
 SOAK_COUNT ?= 10000
 SOAK_SEED  ?= 1
+SOAK_OPTIONS ?=
 soak: $(B)/dervish $(B)/tests/soak
-	DERVISH=$(B)/dervish $(B)/tests/soak $(SOAK_COUNT) $(SOAK_SEED)
+	DERVISH=$(B)/dervish $(B)/tests/soak $(SOAK_COUNT) $(SOAK_SEED) "$(SOAK_OPTIONS)"
 
 $(B)/tests/soak: tests/soak.c tests/testutil.h $(wildcard tests/*.h tests/e2e/*.h) $(B)/libdervish.a Makefile
 	@mkdir -p $(@D)
@@ -154,10 +161,11 @@ clean:
 	rm -rf build build-san dervish
 
 install: $(B)/dervish
-	mkdir -p $(DESTDIR)$(PREFIX)/bin
-	cp $(B)/dervish $(DESTDIR)$(PREFIX)/bin/dervish
+	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(MANDIR)/man1
+	install -m 755 $(B)/dervish $(DESTDIR)$(PREFIX)/bin/dervish
+	install -m 644 docs/dervish.1 $(DESTDIR)$(MANDIR)/man1/dervish.1
 
 uninstall:
-	rm -f $(DESTDIR)$(PREFIX)/bin/dervish
+	rm -f $(DESTDIR)$(PREFIX)/bin/dervish $(DESTDIR)$(MANDIR)/man1/dervish.1
 
 -include $(wildcard $(B)/*.d)

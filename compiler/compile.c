@@ -3,7 +3,6 @@
 #include "dervish.h"
 #include "emit_c.h"
 #include "emit_layout.h"
-#include "parse.h"
 #include "resolve.h"
 #include "reverse.h"
 #include "stream.h"
@@ -42,15 +41,21 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     source_index_lines(&c->src);
     diag_init(&c->diag, &c->src, opt->diag_out);
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
+    c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
 
-    c->ast = parse_model(&c->arena, &c->diag, &c->src);
-    Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, c->ast, opt->name,
+    /* resolve parses the source itself, one statement's tree at a time */
+    Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, NULL, opt->name,
                            dv_stem(&c->arena, path));
     if (c->diag.errors)
         return 1;
     ir_verify(ir);
     stream_plan(ir);
     reverse_pass(ir);
+    /* the passes that make nodes are done: give the node table back */
+    arena_release(&c->arena, ir->node_hash,
+                  (size_t)ir->node_hash_cap * sizeof *ir->node_hash);
+    ir->node_hash = NULL;
+    ir->node_hash_cap = 0;
     ir_verify(ir);
     c->ir = ir;
     return 0;
@@ -65,6 +70,7 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.source_name = source_name;
     o.version = DERVISH_VERSION;
     o.stack_limit = c->stack_limit;
+    o.part_size = c->part_size;
     emit_c(c->ir, &o, c_out, h_out);
 }
 

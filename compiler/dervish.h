@@ -13,19 +13,24 @@
  * at most this many doubles (32 KiB); larger ones live in work. */
 #define DV_STACK_LIMIT 4096
 
+/* Default of DvOptions.part_size: a function of more than four times this
+ * many statements is written as parts of about this many. */
+#define DV_PART_SIZE 100
+
 typedef struct DvOptions {
     const char *name;       /* --name: symbol prefix, or NULL */
     FILE *diag_out;         /* where diagnostics go; NULL: nowhere */
     long stack_limit;       /* --stack-limit; 0 means DV_STACK_LIMIT */
+    long part_size;         /* --part-size; 0 means DV_PART_SIZE */
 } DvOptions;
 
 typedef struct DvCompilation {
     Arena arena;
     Source src;
     Diag diag;
-    AstModel *ast;
     Ir *ir;                 /* after the reverse pass; NULL on errors */
     long stack_limit;       /* for the emitter */
+    long part_size;         /* for the emitter */
 } DvCompilation;
 
 /* Compile model text (len bytes; a copy is taken) read from PATH.

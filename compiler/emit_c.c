@@ -25,7 +25,7 @@ typedef struct Emitter {
     Function fn;
     char *declared;     /* per array: declared in the current function */
     char *argpos_read;  /* per array: a reverse statement reads it */
-    int uses_p, uses_in;
+    int uses_p, uses_in, uses_grad, uses_frame;
     uint32_t last_origin;
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
@@ -41,6 +41,16 @@ typedef struct Emitter {
     int base;           /* indentation of statements: 1, or 2 in a block */
     int32_t row_var;    /* the current statement's row var, or -1 */
     const char *row_name;   /* the block's loop counter */
+    /* a long function is written as parts (see emit_parts) */
+    int parted;         /* this function is written in parts */
+    int dry;            /* the run that only finds what the parts share */
+    int part;           /* the part being written, from 1 */
+    int part_stmts;     /* statements in it so far */
+    int *ref_part;      /* per array: the part that last referred to it */
+    char *framed;       /* per array: lives in the frame the parts share */
+    Buf *text;          /* the function's own text (its parts go here
+                           too, ahead of it) */
+    Buf part_body;      /* the current part's statements */
 } Emitter;
 
 /* Most statements joined into one loop nest. */
@@ -168,6 +178,14 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
         e->uses_in = 1;
     } else if (a->role == ROLE_ADJOINT && base->role == ROLE_PARAM) {
         buf_put(e->out, DV_PREFIX "grad->");
+        e->uses_grad = 1;
+    } else if (e->dry) {
+        if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
+            e->framed[array] = 1;
+        e->ref_part[array] = e->part;
+    } else if (e->parted && e->framed[array]) {
+        buf_put(e->out, e->part ? DV_PREFIX "f->" : DV_PREFIX "frame.");
+        e->uses_frame = 1;
     }
     buf_put(e->out, a->name);
     int n = ir_tuple_len(e->ir, tuple);
@@ -424,7 +442,8 @@ static int declare_target(Emitter *e, const IrStmt *s)
     const Ir *ir = e->ir;
     const IrArray *t = &ir->arrays.items[s->target];
     int first_dim = t->row_local;   /* a row-local array drops its row */
-    if (is_external(t, ir) || e->declared[s->target])
+    if (is_external(t, ir) || e->declared[s->target] ||
+        (e->parted && e->framed[s->target]))
         return 0;
     e->declared[s->target] = 1;
     if (t->rank == first_dim && s->kind == SK_SET)
@@ -440,6 +459,90 @@ static int declare_target(Emitter *e, const IrStmt *s)
         buf_put(e->out, ";\n");
     }
     return 0;
+}
+
+static int in_tuple(const Ir *ir, int32_t tuple, int32_t var)
+{
+    int n = ir_tuple_len(ir, tuple);
+    const int32_t *v = ir_tuple_vars(ir, tuple);
+    for (int k = 0; k < n; k++)
+        if (v[k] == var)
+            return 1;
+    return 0;
+}
+
+/* The score of an access (subscripts tuple) with var as the innermost
+ * loop: -STRIDED when var is a subscript but not the last (the access
+ * jumps through memory), 1 when it is the last (unit stride), 0 when var
+ * is not a subscript (the access does not move). */
+#define STRIDED 1000
+static int access_score(const Ir *ir, int32_t tuple, int32_t var)
+{
+    int n = ir_tuple_len(ir, tuple);
+    const int32_t *v = ir_tuple_vars(ir, tuple);
+    for (int k = 0; k < n; k++)
+        if (v[k] == var)
+            return k == n - 1 ? 1 : -STRIDED;
+    return 0;
+}
+
+static int stride_score(const Ir *ir, NodeId id, int32_t var)
+{
+    const IrNode *x = ir_at(ir, id);
+    int score = x->op == IR_READ ? access_score(ir, x->tuple, var) : 0;
+    for (int i = 0; i < x->nargs; i++)
+        score += stride_score(ir, x->arg[i], var);
+    return score;
+}
+
+static int reads_array(const Ir *ir, NodeId id, int32_t array);
+
+/* The loops of statements s[0..count) (one domain), outermost first: the
+ * domain's order, but with the var innermost that makes the fewest
+ * accesses jump through memory and, of those, the most read it with unit
+ * stride, when that is fewer jumping accesses than the domain's
+ * innermost var makes.  A var
+ * some statement repeats a write over (a reduced one) moves only when it is
+ * the last such var, so every element still accumulates its terms in the
+ * model's order and the results are bit for bit those of the domain's
+ * order. */
+static void loop_order(const Emitter *e, const IrStmt *const *s, int count,
+                       int32_t *order)
+{
+    const Ir *ir = e->ir;
+    int n = ir_tuple_len(ir, s[0]->domain);
+    memcpy(order, ir_tuple_vars(ir, s[0]->domain), (size_t)n * sizeof *order);
+    int best = -1, best_score = 0, last_repeated = -1;
+    char repeated[IR_MAX_RANK] = {0};
+    for (int k = 0; k < n; k++) {
+        for (int g = 0; g < count; g++)
+            repeated[k] |= !in_tuple(ir, s[g]->tuple, order[k]);
+        if (repeated[k])
+            last_repeated = k;
+    }
+    for (int g = 0; g < count; g++)
+        if (reads_array(ir, s[g]->expr, s[g]->target))
+            return;
+    int score[IR_MAX_RANK];
+    for (int k = 0; k < n; k++) {
+        score[k] = 0;
+        for (int g = 0; g < count; g++)
+            score[k] += stride_score(ir, s[g]->expr, order[k]) +
+                        access_score(ir, s[g]->tuple, order[k]);
+        if (order[k] == e->row_var || (repeated[k] && k != last_repeated))
+            continue;
+        if (best < 0 || score[k] > best_score) {
+            best = k;
+            best_score = score[k];
+        }
+    }
+    /* only fewer strided accesses are worth a change */
+    if (best < 0 || best_score - score[n - 1] < STRIDED / 2)
+        return;
+    int32_t moved = order[best];
+    memmove(order + best, order + best + 1,
+            (size_t)(n - 1 - best) * sizeof *order);
+    order[n - 1] = moved;
 }
 
 /* Emit statements s[0..n) of one model line and one domain in a single
@@ -499,7 +602,8 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
         indent(e, depth++);
         buf_put(e->out, "{\n");
     }
-    const int32_t *v = ir_tuple_vars(ir, s0->domain);
+    int32_t v[IR_MAX_RANK];
+    loop_order(e, s, count, v);
     for (int k = 0; k < n; k++) {
         const IrIndexVar *iv = &ir->vars.items[v[k]];
         if (v[k] == e->row_var)
@@ -567,6 +671,8 @@ static int fusable(const Ir *ir, const IrStmt *const *g, int n,
 
 static int is_zeroing(const Ir *ir, const IrStmt *s);
 
+static void part_break(Emitter *e, int n);
+
 /* Emit list[from..to) in order, joining neighbours that fusable() allows
  * into one loop nest; a zeroing statement between them goes first. */
 static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
@@ -598,6 +704,7 @@ static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
                 j--;
             }
         }
+        part_break(e, n + nz);
         int in_rows = e->row_var >= 0;
         if (n == 1) {
             if (in_rows)
@@ -813,6 +920,7 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
                       const char *label)
 {
     const Ir *ir = e->ir;
+    part_break(e, to - from + (fwd_to > fwd_from ? fwd_to - fwd_from : 0));
     for (int i = from; i < to; i++)
         if (list->items[i].row_var < 0)
             emit_stmt(e, &list->items[i], label);
@@ -989,18 +1097,102 @@ static int one_pass(const Ir *ir, OnePass *op)
     return ok;
 }
 
-static void emit_function(Emitter *e, Function fn, Buf *c)
+/* ------------------------------------------------------------- parts */
+
+/* A function of more than 4 part sizes (in statements) is written as
+ * parts of about one part size each, called in turn: C compilers spend
+ * time superlinear in the length of one function (register allocation
+ * over thousands of values live at once), linear over many short ones.
+ * The values one part computes and another reads live in a frame struct
+ * the parts share. */
+static const char *fn_name(Function fn)
+{
+    return fn == FN_VALUE ? "value" : "gradient";
+}
+
+/* The parameter list a part takes: the function's own arguments, but
+ * work (whose arrays the frame points into), and the frame. */
+static void part_params(Buf *b, const Emitter *e, Function fn, int named)
+{
+    const char *m = e->ir->model;
+    buf_printf(b, "(const %s_param *%s", m, named ? DV_PREFIX "p" : "");
+    if (e->storage.has_input)
+        buf_printf(b, ", const %s_input *%s", m, named ? DV_PREFIX "in" : "");
+    if (fn == FN_GRADIENT)
+        buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "grad" : "");
+    buf_printf(b, ", struct " DV_PREFIX "%s_frame *%s)", fn_name(fn),
+               named ? DV_PREFIX "f" : "");
+}
+
+/* End the current part: write it out as a function (the dry run only
+ * counts it). */
+static void close_part(Emitter *e)
+{
+    Buf *body = &e->part_body;
+    if (!e->dry) {
+        Buf *t = e->text;
+        buf_printf(t, "\n/* %s_%s, part %d. */\n"
+                      "static void " DV_PREFIX "%s_part%d",
+                   e->ir->model, fn_name(e->fn), e->part, fn_name(e->fn),
+                   e->part);
+        part_params(t, e, e->fn, 1);
+        buf_put(t, "\n{\n");
+        if (!e->uses_p)
+            buf_put(t, "    (void)" DV_PREFIX "p;\n");
+        if (e->storage.has_input && !e->uses_in)
+            buf_put(t, "    (void)" DV_PREFIX "in;\n");
+        if (e->fn == FN_GRADIENT && !e->uses_grad)
+            buf_put(t, "    (void)" DV_PREFIX "grad;\n");
+        if (!e->uses_frame)
+            buf_put(t, "    (void)" DV_PREFIX "f;\n");
+        buf_putn(t, body->data, body->len);
+        buf_put(t, "}\n");
+    }
+    body->len = 0;
+    e->uses_p = e->uses_in = e->uses_grad = e->uses_frame = 0;
+}
+
+static void new_part(Emitter *e)
+{
+    close_part(e);
+    e->part++;
+    e->part_stmts = 0;
+    e->last_origin = UINT32_MAX;
+}
+
+/* In a function written in parts, start a new part before a unit of n
+ * statements (at the top level) when the current part is full. */
+static void part_break(Emitter *e, int n)
+{
+    if (!e->parted || e->base != 1)
+        return;
+    if (e->part_stmts > 0 && e->part_stmts + n > e->opt->part_size)
+        new_part(e);
+    e->part_stmts += n;
+}
+
+/* The comment that opens the reverse sweep, which also opens a part. */
+static void sweep_heading(Emitter *e, const char *text)
+{
+    if (e->parted && e->part_stmts > 0)
+        new_part(e);
+    else if (!e->parted && e->ir->forward.len > 0)
+        buf_put(e->out, "\n");
+    buf_put(e->out, text);
+    e->last_origin = UINT32_MAX;
+}
+
+/* The statements of a function, in order, to e->out (or its parts). */
+static void emit_sweeps(Emitter *e, Function fn)
 {
     const Ir *ir = e->ir;
-    Buf body = {0};
-    e->out = &body;
-    e->fn = fn;
-    e->uses_p = e->uses_in = 0;
+    e->uses_p = e->uses_in = e->uses_grad = e->uses_frame = 0;
     e->ntemps = 0;
     e->base = 1;
     e->row_var = -1;
-    e->row_name = ir->row_size >= 0 ? row_counter(ir) : NULL;
     e->last_origin = UINT32_MAX;
+    e->part = 1;
+    e->part_stmts = 0;
     memset(e->declared, 0, (size_t)ir->arrays.len);
     OnePass op;
     if (fn == FN_GRADIENT && one_pass(ir, &op)) {
@@ -1008,9 +1200,8 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
          * the rows; one loop doing each row's value and adjoints; the
          * forward after the rows; the rest of the reverse sweep */
         emit_list(e, &ir->forward, 0, op.fwd_from, 0, "");
-        buf_put(&body, "\n    /* The reverse sweep, last statement first; the "
-                       "rows' values and\n     * adjoints share one pass. */\n");
-        e->last_origin = UINT32_MAX;
+        sweep_heading(e, "    /* The reverse sweep, last statement first; the "
+                         "rows' values and\n     * adjoints share one pass. */\n");
         emit_list(e, &ir->reverse, 0, op.rev_from, 0, "adjoint of: ");
         emit_rows(e, &ir->reverse, op.rev_from, op.rev_to, 0, op.fwd_from,
                   op.fwd_to, "adjoint of: ");
@@ -1021,12 +1212,115 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     } else {
         emit_list(e, &ir->forward, 0, ir->forward.len, 0, "");
         if (fn == FN_GRADIENT) {
-            buf_put(&body, ir->forward.len ? "\n" : "");
-            buf_put(&body, "    /* The reverse sweep: adjoints, last statement "
-                           "first. */\n");
-            e->last_origin = UINT32_MAX;
+            sweep_heading(e, "    /* The reverse sweep: adjoints, last "
+                             "statement first. */\n");
             emit_list(e, &ir->reverse, 0, ir->reverse.len, 1, "adjoint of: ");
         }
+    }
+}
+
+/* A dry run of a function written in parts marks in e->framed the arrays
+ * the frame must hold: those referred to in two parts, the output (the
+ * function returns it), and those in work (the function points to them
+ * once).  A row's own arrays are the row block's locals. */
+static void plan_frame(Emitter *e, Function fn)
+{
+    const Ir *ir = e->ir;
+    memset(e->framed, 0, (size_t)ir->arrays.len);
+    for (int i = 0; i < ir->arrays.len; i++)
+        e->ref_part[i] = 0;
+    e->dry = 1;
+    e->out = &e->part_body;
+    emit_sweeps(e, fn);
+    close_part(e);
+    e->dry = 0;
+    e->framed[ir->output] = 1;
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (e->storage.slot[i] >= 0)
+            e->framed[i] = 1;
+        else if (a->row_local || is_external(a, ir))
+            e->framed[i] = 0;
+    }
+}
+
+/* The frame struct of a function written in parts. */
+static void emit_frame(Emitter *e, Function fn)
+{
+    const Ir *ir = e->ir;
+    buf_printf(e->text, "\n/* What the parts of %s_%s share: values one part "
+                        "computes and\n * another reads. */\n"
+                        "struct " DV_PREFIX "%s_frame {\n",
+               ir->model, fn_name(fn), fn_name(fn));
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (!e->framed[i])
+            continue;
+        if (e->storage.slot[i] >= 0) {
+            buf_printf(e->text, "    double *%s;   /* in work */\n", a->name);
+            continue;
+        }
+        buf_printf(e->text, "    %s %s", c_type(a), a->name);
+        for (int k = 0; k < a->rank; k++)
+            buf_printf(e->text, "[%d]", a->dim[k]);
+        buf_put(e->text, ";\n");
+    }
+    buf_put(e->text, "};\n");
+}
+
+/* The body of a function written in parts: the frame, its work
+ * pointers, and the parts called in order from a table. */
+static void emit_part_calls(Emitter *e, Function fn, Buf *body)
+{
+    const Ir *ir = e->ir;
+    const char *f = fn_name(fn);
+    buf_printf(e->text, "\nstatic void (*const " DV_PREFIX "%s_parts[%d])",
+               f, e->part);
+    part_params(e->text, e, fn, 0);
+    buf_put(e->text, " = {");
+    for (int k = 1; k <= e->part; k++)
+        buf_printf(e->text, "%s" DV_PREFIX "%s_part%d%s",
+                   k % 4 == 1 ? "\n    " : " ", f, k, k < e->part ? "," : "");
+    buf_put(e->text, "\n};\n");
+    buf_printf(body, "    struct " DV_PREFIX "%s_frame " DV_PREFIX "frame;\n",
+               f);
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (e->framed[i] && e->storage.slot[i] >= 0) {
+            buf_printf(body, "    " DV_PREFIX "frame.%s = " DV_PREFIX "work + "
+                             DV_PREFIX "at[%d];\n",
+                       ir->arrays.items[i].name, e->storage.slot[i]);
+            e->declared[i] = 1;     /* work is read */
+        }
+    buf_printf(body, "    for (int " DV_PREFIX "k = 0; " DV_PREFIX "k < %d; "
+                     DV_PREFIX "k++)\n        " DV_PREFIX "%s_parts[" DV_PREFIX
+                     "k](" DV_PREFIX "p, %s%s&" DV_PREFIX "frame);\n",
+               e->part, f, e->storage.has_input ? DV_PREFIX "in, " : "",
+               fn == FN_GRADIENT ? DV_PREFIX "grad, " : "");
+    e->uses_p = 1;
+    e->uses_in = 1;
+    e->part = 0;        /* the return reads the frame itself */
+}
+
+static void emit_function(Emitter *e, Function fn, Buf *c)
+{
+    const Ir *ir = e->ir;
+    Buf body = {0};
+    e->fn = fn;
+    e->text = c;
+    e->row_name = ir->row_size >= 0 ? row_counter(ir) : NULL;
+    e->parted = ir->forward.len + (fn == FN_GRADIENT ? ir->reverse.len : 0) >
+                4 * e->opt->part_size;
+    if (e->parted) {
+        plan_frame(e, fn);
+        emit_frame(e, fn);
+        e->out = &e->part_body;
+        emit_sweeps(e, fn);
+        close_part(e);
+        emit_part_calls(e, fn, &body);
+        e->out = &body;
+    } else {
+        e->out = &body;
+        emit_sweeps(e, fn);
     }
     buf_put(&body, "\n    return ");
     int32_t none = ir_tuple((Ir *)ir, NULL, 0);
@@ -1071,8 +1365,10 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     e.uses = calloc((size_t)ir->nodes.len + 1, sizeof *e.uses);
     e.temp = calloc((size_t)ir->nodes.len + 1, sizeof *e.temp);
     e.visit = calloc((size_t)ir->nodes.len + 1, sizeof *e.visit);
+    e.ref_part = calloc((size_t)ir->arrays.len + 1, sizeof *e.ref_part);
+    e.framed = calloc((size_t)ir->arrays.len + 1, 1);
     if (!e.declared || !e.argpos_read || !reached || !e.seen || !e.uses ||
-        !e.temp || !e.visit)
+        !e.temp || !e.visit || !e.ref_part || !e.framed)
         exit(3);
     ir_mark_reached(ir, &ir->reverse, reached);
     for (int i = 0; i < ir->nodes.len; i++) {
@@ -1106,6 +1402,9 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     free(e.uses);
     free(e.temp);
     free(e.visit);
+    free(e.ref_part);
+    free(e.framed);
+    buf_free(&e.part_body);
     layout_free(&e.storage);
     free(M);
 }

@@ -13,6 +13,7 @@ typedef struct EmitOptions {
     const char *version;        /* dervish's version, for the banner */
     long stack_limit;           /* most doubles in one local array; larger
                                    arrays go to the caller's work buffer */
+    long part_size;             /* statements in a part of a long function */
 } EmitOptions;
 
 /* Append the source to c and the header to h. */

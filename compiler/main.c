@@ -5,6 +5,7 @@
 #include "dervish.h"
 #include "fileio.h"
 #include "gradcheck.h"
+#include "graph.h"
 #include "names.h"
 
 #include <errno.h>
@@ -27,6 +28,8 @@ static const char usage[] =
     "         --fail-on-warning  treat warnings as errors (exit 1, write nothing)\n"
     "         --stack-limit N  most doubles in one local array (default 4096);\n"
     "                          larger arrays live in the caller's work buffer\n"
+    "         --part-size N    write functions of over 4N statements as parts\n"
+    "                          of about N statements each (default 100)\n"
     "         --explain        say how the gradient uses memory, and why\n"
     "       dervish check [options] MODEL.dvs    compare the gradient with\n"
     "                                            numerical derivatives\n"
@@ -36,6 +39,13 @@ static const char usage[] =
     "         --tolerance X    largest accepted relative error (default 1e-6)\n"
     "         --size NAME=N    a runtime size (else taken from the values given)\n"
     "         --name NAME      symbol prefix\n"
+    "         --fail-on-warning  treat warnings as errors\n"
+    "       dervish graph [options] MODEL.dvs    write the computation graph\n"
+    "                                            in Graphviz DOT\n"
+    "         -o FILE          DOT file (default, or when FILE is -:\n"
+    "                          standard output)\n"
+    "         --sweep          number the values in adjoint sweep order\n"
+    "         --name NAME      symbol prefix (the graph's title)\n"
     "         --fail-on-warning  treat warnings as errors\n"
     "       dervish --help | --version\n"
     "exit status: 0 success, 1 model errors or a derivative mismatch,\n"
@@ -60,14 +70,28 @@ typedef struct Args {
     int fail_on_warning;
     int explain;
     const char *stack_limit;
+    const char *part_size;
     const char *sizes[16];  /* --size NAME=N */
     int nsizes;
+    const char *dot_path;   /* graph -o: NULL or "-" for standard output */
+    int sweep;              /* graph --sweep */
 } Args;
+
+/* Whether s is a whole number from 1 to LONG_MAX, in plain digits. */
+static int is_count(const char *s)
+{
+    char *end;
+    errno = 0;
+    long n = strtol(s, &end, 10);
+    return *s >= '0' && *s <= '9' && !*end && n >= 1 && errno != ERANGE;
+}
 
 /* Parse the options after the command word; returns 0 or an exit status. */
 static int parse_args(int argc, char **argv, int is_build, Args *a)
 {
     memset(a, 0, sizeof *a);
+    int is_graph = strcmp(argv[1], "graph") == 0;
+    int is_check = !is_build && !is_graph;
     for (int i = 2; i < argc; i++) {
         const char *opt = argv[i];
         const char **slot = NULL;
@@ -79,12 +103,16 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->h_path;
         else if (is_build && strcmp(opt, "--stack-limit") == 0)
             slot = &a->stack_limit;
-        else if (!is_build && strcmp(opt, "--at") == 0)
+        else if (is_build && strcmp(opt, "--part-size") == 0)
+            slot = &a->part_size;
+        else if (is_check && strcmp(opt, "--at") == 0)
             slot = &a->at;
-        else if (!is_build && strcmp(opt, "--seed") == 0)
+        else if (is_check && strcmp(opt, "--seed") == 0)
             slot = &a->seed;
-        else if (!is_build && strcmp(opt, "--tolerance") == 0)
+        else if (is_check && strcmp(opt, "--tolerance") == 0)
             slot = &a->tolerance;
+        else if (is_graph && strcmp(opt, "-o") == 0)
+            slot = &a->dot_path;
         if (strcmp(opt, "--fail-on-warning") == 0) {
             a->fail_on_warning = 1;
             continue;
@@ -93,7 +121,11 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             a->explain = 1;
             continue;
         }
-        if (!is_build && strcmp(opt, "--size") == 0) {
+        if (is_graph && strcmp(opt, "--sweep") == 0) {
+            a->sweep = 1;
+            continue;
+        }
+        if (is_check && strcmp(opt, "--size") == 0) {
             if (i + 1 >= argc)
                 return usage_error("option %s needs a value", opt);
             if (a->nsizes == 16)
@@ -115,15 +147,12 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
     }
     if (!a->model)
         return usage_error("%s", "no model file given");
-    if (a->stack_limit) {
-        char *end;
-        errno = 0;
-        long n = strtol(a->stack_limit, &end, 10);
-        if (*end || !*a->stack_limit || n < 1 || errno == ERANGE ||
-            !(a->stack_limit[0] >= '0' && a->stack_limit[0] <= '9'))
-            return usage_error("--stack-limit takes a whole number of "
-                               "doubles, at least 1, not '%s'", a->stack_limit);
-    }
+    if (a->stack_limit && !is_count(a->stack_limit))
+        return usage_error("--stack-limit takes a whole number of "
+                           "doubles, at least 1, not '%s'", a->stack_limit);
+    if (a->part_size && !is_count(a->part_size))
+        return usage_error("--part-size takes a whole number of "
+                           "statements, at least 1, not '%s'", a->part_size);
     if (a->name && !names_is_identifier(a->name))
         return usage_error("--name '%s' is not a C identifier", a->name);
     if (a->name && names_reserved(a->name, NULL)) {
@@ -144,7 +173,8 @@ static int compile_file(const Args *a, DvCompilation *c,
     if (!text)
         return EXIT_IO;
     DvOptions o = {a->name, stderr,
-                   a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0};
+                   a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0,
+                   a->part_size ? strtol(a->part_size, NULL, 10) : 0};
     int failed = dv_compile(c, a->model, text, len, &o);
     free(text);
     if (failed) {
@@ -198,17 +228,22 @@ static int build(const Args *a)
     memset(&c, 0, sizeof c);
     if (!status)
         status = compile_file(a, &c, "; nothing written");
+    if (!status && a->explain)
+        dv_explain(&c, stdout);
     if (!status) {
-        Buf src = {0}, hdr = {0};
-        dv_emit(&c, dv_basename(cp), dv_basename(hp), &src, &hdr);
-        if (a->explain)
-            dv_explain(&c, stdout);
-        /* the header first: a source is never newer than its header */
-        OutputFile out[2] = {{hp, hdr.data, hdr.len}, {cp, src.data, src.len}};
-        if (fileio_write_all(out, 2) != 0)
+        /* the header first: a source is never newer than its header; the
+         * text streams to the files as it is emitted */
+        StreamedOutput out[2];
+        out[0].path = hp;
+        out[1].path = cp;
+        if (fileio_open_outputs(out, 2) != 0) {
             status = EXIT_IO;
-        buf_free(&src);
-        buf_free(&hdr);
+        } else {
+            dv_emit(&c, dv_basename(cp), dv_basename(hp), &out[1].text,
+                    &out[0].text);
+            if (fileio_commit_outputs(out, 2) != 0)
+                status = EXIT_IO;
+        }
     }
     dv_free(&c);
     free(c_path);
@@ -247,10 +282,42 @@ static int check(const Args *a)
     return status;
 }
 
+/* Write the graph to -o FILE, whole or not at all, or to standard output. */
+static int graph(const Args *a)
+{
+    int to_stdout = !a->dot_path || strcmp(a->dot_path, "-") == 0;
+    if (!to_stdout && fileio_same_file(a->model, a->dot_path))
+        return usage_error("refusing to overwrite the model file '%s'",
+                           a->model);
+    DvCompilation c;
+    memset(&c, 0, sizeof c);
+    int status = compile_file(a, &c, "; nothing written");
+    if (!status) {
+        Buf dot = {0};
+        GraphOptions o = {dv_basename(a->model), a->sweep};
+        graph_write(c.ir, &o, &dot);
+        if (to_stdout) {
+            if (fwrite(dot.data, 1, dot.len, stdout) != dot.len ||
+                fflush(stdout) != 0) {
+                fprintf(stderr, "dervish: cannot write %s: %s\n",
+                        "standard output", strerror(errno));
+                status = EXIT_IO;
+            }
+        } else {
+            OutputFile out = {a->dot_path, dot.data, dot.len};
+            if (fileio_write_all(&out, 1) != 0)
+                status = EXIT_IO;
+        }
+        buf_free(&dot);
+    }
+    dv_free(&c);
+    return status;
+}
+
 int main(int argc, char **argv)
 {
     if (argc < 2)
-        return usage_error("%s", "no command given: use build or check");
+        return usage_error("%s", "no command given: use build, check or graph");
     const char *cmd = argv[1];
     if (strcmp(cmd, "--help") == 0 || strcmp(cmd, "-h") == 0) {
         fputs(usage, stdout);
@@ -261,11 +328,14 @@ int main(int argc, char **argv)
         return 0;
     }
     int is_build = strcmp(cmd, "build") == 0;
-    if (!is_build && strcmp(cmd, "check") != 0)
-        return usage_error("unknown command '%s': use build or check", cmd);
+    int is_graph = strcmp(cmd, "graph") == 0;
+    if (!is_build && !is_graph && strcmp(cmd, "check") != 0)
+        return usage_error("unknown command '%s': use build, check or graph", cmd);
     Args a;
     int status = parse_args(argc, argv, is_build, &a);
     if (status)
         return status;
+    if (is_graph)
+        return graph(&a);
     return is_build ? build(&a) : check(&a);
 }

@@ -11,7 +11,7 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
     DvCompilation c;
-    DvOptions opt = {NULL, NULL, 0};
+    DvOptions opt = {NULL, NULL, 0, 0};
     if (dv_compile(&c, "fuzz.dvs", (const char *)data, size, &opt) == 0) {
         Buf src = {0}, hdr = {0};
         dv_emit(&c, "fuzz.c", "fuzz.h", &src, &hdr);

@@ -1819,7 +1819,8 @@ static inline void rm_judge(RmCase *c)
 
 /* Build, compile, run and judge cases[0..n) in the fresh directory dir.
  * Returns the number of cases that failed. */
-static inline int rm_check_batch(RmCase *cs, int n, const char *dir)
+static inline int rm_check_batch(RmCase *cs, int n, const char *dir,
+                                 const char *build_options)
 {
     char *list = tu_format(" ");
     for (int k = 0; k < n; k++) {
@@ -1831,8 +1832,8 @@ static inline int rm_check_batch(RmCase *cs, int n, const char *dir)
         list = l;
     }
     rm_sh("cd '%s' && printf '%%s\\n' %s | xargs -P 2 -I@ sh -c "
-          "\"'%s' build --name m@ m@.dvs 2>m@.err; echo \\$? >m@.rc\"",
-          dir, list, tu_abs_dervish());
+          "\"'%s' build %s --name m@ m@.dvs 2>m@.err; echo \\$? >m@.rc\"",
+          dir, list, tu_abs_dervish(), build_options);
     free(list);
     for (int k = 0; k < n; k++) {
         RmCase *c = &cs[k];
@@ -1972,13 +1973,14 @@ typedef struct RmTally {
  * with `make soak SOAK_COUNT=1 SOAK_SEED=<seed>`), what went wrong, and
  * with show_text the model itself.  Returns the number that failed. */
 static inline int rm_run_seeds(uint64_t first, int count, RmTally *t,
-                               FILE *out, int show_text)
+                               FILE *out, int show_text,
+                               const char *build_options)
 {
     RmCase *cs = calloc((size_t)count, sizeof *cs);
     for (int k = 0; k < count; k++)
         rm_case_generated(&cs[k], first + (uint64_t)k);
     char *dir = tu_tmpdir();
-    int failed = rm_check_batch(cs, count, dir);
+    int failed = rm_check_batch(cs, count, dir, build_options);
     tu_rmdir(dir);
     free(dir);
     for (int k = 0; k < count; k++) {

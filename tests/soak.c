@@ -1,8 +1,9 @@
 /* soak.c - the long run behind `make soak`: soak COUNT SEED checks the
  * generated models of seeds SEED .. SEED+COUNT-1 (tests/randmodel.h) in
  * batches, prints the seed and reason of every failure, the rate, and last
- * `N passed, N failed`.  `make soak SOAK_COUNT=1 SOAK_SEED=<seed>` replays
- * one failure and prints its model. */
+ * `N passed, N failed`; soak COUNT SEED OPTIONS passes OPTIONS to every
+ * `dervish build`.  `make soak SOAK_COUNT=1 SOAK_SEED=<seed>` replays one
+ * failure and prints its model (SOAK_OPTIONS sets the options). */
 #include "randmodel.h"
 
 #include <time.h>
@@ -12,6 +13,7 @@
 static long count;
 static uint64_t first;
 static RmTally tally;
+static const char *options = "";
 
 static double now(void)
 {
@@ -28,7 +30,8 @@ START_TEST(soak)
     double start = now(), last_report = start;
     for (long done = 0; done < count; done += BATCH) {
         int n = count - done < BATCH ? (int)(count - done) : BATCH;
-        rm_run_seeds(first + (uint64_t)done, n, &tally, stdout, count <= 10);
+        rm_run_seeds(first + (uint64_t)done, n, &tally, stdout, count <= 10,
+                     options);
         if (now() - last_report > 60 || done + n == count) {
             last_report = now();
             printf("soak: %ld models, %ld failed, %.1f models/s\n",
@@ -43,12 +46,14 @@ END_TEST
 int main(int argc, char **argv)
 {
     char *end1 = NULL, *end2 = NULL;
-    if (argc == 3) {
+    if (argc == 3 || argc == 4) {
         count = strtol(argv[1], &end1, 10);
         first = strtoull(argv[2], &end2, 10);
+        if (argc == 4)
+            options = argv[3];
     }
-    if (argc != 3 || *end1 || *end2 || count < 1) {
-        fprintf(stderr, "usage: soak COUNT SEED\n");
+    if ((argc != 3 && argc != 4) || *end1 || *end2 || count < 1) {
+        fprintf(stderr, "usage: soak COUNT SEED [BUILD-OPTIONS]\n");
         return 2;
     }
     Suite *s = suite_create("soak");

@@ -569,6 +569,89 @@ START_TEST(long_statements_are_cut_in_the_quote)
 }
 END_TEST
 
+/* A function of more than four part sizes is written as parts: with parts
+ * of 2 statements, the 10 forward statements of the value make 5 parts;
+ * a value read only in its own part stays local there, one read by a
+ * later part (s2 by s3, s1 by s8) lives in the frame, and the output is
+ * returned from the frame. */
+START_TEST(long_functions_are_written_in_parts)
+{
+    Emitted *e = compile("param a, b\n"
+                         "s1 = a * b\ns2 = sin(s1)\ns3 = s2 + b\n"
+                         "s4 = s3 * s3\ns5 = s4 - a\ns6 = cos(s5)\n"
+                         "s7 = s6 * a\ns8 = s7 + s1\ns9 = s8 * b\n"
+                         "s10 = s9 + 1\noutput s10\n");
+    emit(e);
+    ck_assert_int_eq(count(e->c, "_part"), 0);  /* 10 statements: whole */
+    e->comp.part_size = 2;
+    emit(e);
+    ck_assert_msg(strstr(e->c, "struct dvs_value_frame {\n"
+                               "    double s1;\n    double s2;\n"
+                               "    double s4;\n    double s6;\n"
+                               "    double s8;\n    double s10;\n};\n"),
+                  "%s", e->c);
+    ck_assert_msg(strstr(e->c,
+        "/* m_value, part 2. */\n"
+        "static void dvs_value_part2(const m_param *dvs_p, "
+        "struct dvs_value_frame *dvs_f)\n{\n"
+        "    /* m.dvs:4: s3 = s2 + b */\n"
+        "    double s3 = dvs_f->s2 + dvs_p->b;\n\n"
+        "    /* m.dvs:5: s4 = s3 * s3 */\n"
+        "    dvs_f->s4 = s3 * s3;\n}\n"), "%s", e->c);
+    char *value = function(e->c, "double m_value(");
+    ck_assert_str_eq(value,
+        "double m_value(const m_param *dvs_p)\n{\n"
+        "    struct dvs_value_frame dvs_frame;\n"
+        "    for (int dvs_k = 0; dvs_k < 5; dvs_k++)\n"
+        "        dvs_value_parts[dvs_k](dvs_p, &dvs_frame);\n\n"
+        "    return dvs_frame.s10;\n}\n");
+    ck_assert_int_eq(count(e->c, "static void dvs_value_part"), 5);
+    ck_assert_msg(strstr(e->c, "static void (*const dvs_value_parts[5])"
+                               "(const m_param *, struct dvs_value_frame *) "
+                               "= {\n    dvs_value_part1, dvs_value_part2, "
+                               "dvs_value_part3, dvs_value_part4,\n"
+                               "    dvs_value_part5\n};\n"), "%s", e->c);
+    /* the reverse sweep opens a part of its own */
+    ck_assert_msg(strstr(e->c, "struct dvs_gradient_frame *dvs_f)\n{\n"
+                               "    (void)dvs_p;\n    (void)dvs_grad;\n"
+                               "    /* The reverse sweep: adjoints, last "
+                               "statement first. */\n"), "%s", e->c);
+    free(value);
+    emitted_free(e);
+}
+END_TEST
+
+/* The innermost loop reads memory with unit stride where that takes
+ * fewer jumping accesses: A[j, i] summed over j for each i runs i inside.
+ * Summed over j and k, C[i, k, j] cannot: j would have to come inside k,
+ * which changes the order each t[i] adds its terms in (and so its
+ * rounding); the domain's order stays. */
+START_TEST(loops_run_with_unit_stride_where_the_sums_allow)
+{
+    Emitted *e = build("param A[4, 3], x[4], C[3, 2, 5]\n"
+                       "y[i] = sum(j: A[j, i] * x[j])\n"
+                       "t[i] = sum(j, k: C[i, k, j])\n"
+                       "loss = sum(i: y[i] * t[i])\noutput loss\n");
+    ck_assert_msg(strstr(e->c, "    for (int j = 0; j < 4; j++)\n"
+                               "        for (int i = 0; i < 3; i++)\n"
+                               "            y[i] += dvs_p->A[j][i] * "
+                               "dvs_p->x[j];\n"), "%s", e->c);
+    ck_assert_msg(strstr(e->c, "    for (int i = 0; i < 3; i++)\n"
+                               "        for (int j = 0; j < 5; j++)\n"
+                               "            for (int k = 0; k < 2; k++)\n"
+                               "                t[i] += dvs_p->C[i][k][j];\n"),
+                  "%s", e->c);
+    /* the gradient of A: one write per point, any order; A[j][i] and the
+     * adjoint of y[i] want i inside */
+    ck_assert_msg(strstr(e->c, "    for (int j = 0; j < 4; j++)\n"
+                               "        for (int i = 0; i < 3; i++)"),
+                  "%s", e->c);
+    ck_assert_int_eq(count(e->c, "for (int i = 0; i < 3; i++)\n"
+                                 "        for (int j = 0; j < 4; j++)"), 0);
+    emitted_free(e);
+}
+END_TEST
+
 int main(void)
 {
     Suite *s = suite_create("emit");
@@ -584,6 +667,8 @@ int main(void)
                  helpers_needed_by_the_gradient_are_copied,
                  unused_arguments_are_cast_to_void, output_is_deterministic,
                  model_comments_cannot_break_the_emitted_comment,
-                 quoted_text_is_defused, long_statements_are_cut_in_the_quote);
+                 quoted_text_is_defused, long_statements_are_cut_in_the_quote,
+                 long_functions_are_written_in_parts,
+                 loops_run_with_unit_stride_where_the_sums_allow);
     return tu_main(s);
 }

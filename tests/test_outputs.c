@@ -109,9 +109,9 @@ static char *reference(const char *source, const char *header,
 START_TEST(usage_errors)
 {
     static const struct { const char *args, *message; } cases[] = {
-        {"", "no command given: use build or check"},
-        {"frobnicate m.dvs", "unknown command 'frobnicate': use build or "
-                             "check"},
+        {"", "no command given: use build, check or graph"},
+        {"frobnicate m.dvs", "unknown command 'frobnicate': use build, "
+                             "check or graph"},
         {"build", "no model file given"},
         {"check", "no model file given"},
         {"build -o", "option -o needs a value"},
@@ -157,6 +157,16 @@ START_TEST(usage_errors)
         {"build --stack-limit '' m.dvs", "--stack-limit takes a whole number "
                                          "of doubles, at least 1, not ''"},
         {"check --stack-limit 64 m.dvs", "unknown option '--stack-limit'"},
+        {"build m.dvs --part-size", "option --part-size needs a value"},
+        {"build --part-size 0 m.dvs", "--part-size takes a whole number of "
+                                      "statements, at least 1, not '0'"},
+        {"build --part-size 1e3 m.dvs", "--part-size takes a whole number "
+                                        "of statements, at least 1, not "
+                                        "'1e3'"},
+        {"build --part-size 99999999999999999999 m.dvs",
+         "--part-size takes a whole number of statements, at least 1, not "
+         "'99999999999999999999'"},
+        {"check --part-size 64 m.dvs", "unknown option '--part-size'"},
         {"check m.dvs --size", "option --size needs a value"},
         {"build --size n=4 m.dvs", "unknown option '--size'"},
         {"check " SIZE_OPTS_16 SIZE_OPT "m.dvs", "at most 16 --size options"},
@@ -637,6 +647,72 @@ START_TEST(stdout_redirected_to_a_file)
 }
 END_TEST
 
+/* A model of n chained statements, whose C source is well over the 1 MiB
+ * a Buf holds before passing its text on (malloc'd). */
+static char *long_model(int n)
+{
+    Buf text = {0};
+    buf_put(&text, "param p, q\ns0 = p\n");
+    for (int k = 1; k < n; k++)
+        buf_printf(&text, "s%d = sin(s%d) * q + %d * p\n", k, k - 1, k);
+    buf_printf(&text, "output s%d\n", n - 1);
+    return text.data;
+}
+
+/* A long source streams to its temporary as it is emitted; what arrives
+ * is what a source held whole and written in place gets. */
+START_TEST(long_source_streams_whole)
+{
+    char *dir = project();
+    char *text = long_model(4000);
+    tu_write_in(dir, "m.dvs", text);
+    expect_run(dir, "build m.dvs", 0, "");
+    char *streamed = tu_read_in(dir, "m.c");
+    ck_assert_uint_gt(strlen(streamed), 3 * BUF_FLUSH_AT / 2);
+    char *cmd = tu_format("cd '%s' && " CAP "'%s' build -o /dev/stdout "
+                          "--header m.h m.dvs | cat > held.c", dir,
+                          tu_abs_dervish());
+    ck_assert_int_eq(tu_run_unhung(cmd, NULL, NULL), 0);
+    /* the banner names the source file it was written as */
+    char *held = tu_read_in(dir, "held.c");
+    char *renamed = tu_replace(held, "/* stdout - ", "/* m.c - ");
+    ck_assert_msg(strcmp(streamed, renamed) == 0,
+                  "the streamed source differs from the one held whole");
+    expect_listing(dir, "held.c\nm.c\nm.dvs\nm.h\n");
+    tu_rmdir(dir);
+    free(dir);
+    free(text);
+    free(streamed);
+    free(cmd);
+    free(held);
+    free(renamed);
+}
+END_TEST
+
+/* A write that fails while the source streams (a file size limit, with
+ * SIGXFSZ ignored so write() reports EFBIG) leaves both older outputs and
+ * no temporary. */
+START_TEST(failure_while_streaming_keeps_outputs)
+{
+    char *dir = project();
+    char *text = long_model(4000);
+    tu_write_in(dir, "m.dvs", text);
+    char *cmd = tu_format("cd '%s' && trap '' XFSZ && ulimit -f 1024 && "
+                          CAP "'%s' build m.dvs", dir, tu_abs_dervish());
+    char *err = NULL;
+    ck_assert_int_eq(tu_run_unhung(cmd, NULL, &err), 3);
+    ck_assert_str_eq(err, "dervish: cannot write m.c: File too large\n");
+    expect_file(dir, "m.c", old_c);
+    expect_file(dir, "m.h", old_h);
+    expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+    tu_rmdir(dir);
+    free(dir);
+    free(text);
+    free(cmd);
+    free(err);
+}
+END_TEST
+
 int main(void)
 {
     Suite *s = suite_create("outputs");
@@ -649,6 +725,8 @@ int main(void)
                  missing_output_directory, socket_as_an_output,
                  rename_refused, same_file_as_both_outputs,
                  success_replaces_both, stdout_as_the_source,
-                 symlink_output_stays_a_link, stdout_redirected_to_a_file);
+                 symlink_output_stays_a_link, stdout_redirected_to_a_file,
+                 long_source_streams_whole,
+                 failure_while_streaming_keeps_outputs);
     return tu_main(s);
 }

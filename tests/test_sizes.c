@@ -271,6 +271,20 @@ static const RowModel row_models[] = {
      "(1L << 40)", "(1L << 40)"},
     {"cross.dvs", "", "IN(probe, 1, BY_N, UNIFORM) IN(ref, 1, BY_M, UNIFORM)",
      1, 0, NULL, NULL},
+    /* functions written in parts of one statement: the frame holds what
+     * the parts share, work pointers included, and a row's own arrays
+     * stay the row block's */
+    {"logistic.dvs", "--part-size 1",
+     "IN(current, 1, BY_N, UNIFORM) IN(speed, 1, BY_N, UNIFORM) "
+     "IN(passed, 1, BY_N, LABEL)", 0, 0, NULL, NULL},
+    {"net.dvs", "--stack-limit 3 --part-size 1",
+     "IN(X, 3, BY_N, UNIFORM) IN(flow, 1, BY_N, UNIFORM)", 0, 0, NULL, NULL},
+    {"worst.dvs", "--part-size 1",
+     "IN(volts, 1, BY_N, UNIFORM) IN(kelvin, 1, BY_N, UNIFORM)", 0, 1, NULL,
+     NULL},
+    {"grid.dvs", "--part-size 1",
+     "IN(load, 1, BY_NM, UNIFORM) IN(rating, 1, BY_N, UNIFORM)", 1, 0,
+     "(1L << 40)", "(1L << 40)"},
 };
 
 typedef struct RowsSeen {

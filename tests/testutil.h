@@ -290,7 +290,7 @@ static inline void tu_compile(DvCompilation *c, const char *path,
                               const char *text)
 {
     TuCapture cap;
-    DvOptions opt = {NULL, tu_capture_open(&cap), 0};
+    DvOptions opt = {NULL, tu_capture_open(&cap), 0, 0};
     int rc = dv_compile(c, path, text, strlen(text), &opt);
     char *diag = tu_capture_close(&cap);
     c->diag.out = NULL;     /* the capture is closed: say nothing more */
