@@ -249,6 +249,46 @@ int fileio_open_outputs(StreamedOutput *files, int n)
     return 0;
 }
 
+/* PATH opened for reading when it is a regular file, with its size in
+ * *size; else NULL. */
+static FILE *open_regular(const char *path, off_t *size)
+{
+    /* O_NONBLOCK: a target that has become a FIFO must not block dervish */
+    int fd = open(path, O_RDONLY | O_NONBLOCK);
+    struct stat st;
+    FILE *f = NULL;
+    if (fd >= 0 && fstat(fd, &st) == 0 && S_ISREG(st.st_mode))
+        f = fdopen(fd, "rb");
+    if (f)
+        *size = st.st_size;
+    else if (fd >= 0)
+        close(fd);
+    return f;
+}
+
+/* Whether the files at a and b hold the same bytes; one that cannot be
+ * read counts as different, so that a target is then replaced. */
+static int same_bytes(const char *a, const char *b)
+{
+    off_t na = 0, nb = 0;
+    FILE *fa = open_regular(a, &na), *fb = open_regular(b, &nb);
+    int same = fa && fb && na == nb;
+    char ca[16384], cb[16384];
+    while (same) {
+        size_t ga = fread(ca, 1, sizeof ca, fa);
+        size_t gb = fread(cb, 1, sizeof cb, fb);
+        same = ga == gb && memcmp(ca, cb, ga) == 0 && !ferror(fa) &&
+               !ferror(fb);
+        if (ga < sizeof ca)
+            break;
+    }
+    if (fa)
+        fclose(fa);
+    if (fb)
+        fclose(fb);
+    return same;
+}
+
 int fileio_commit_outputs(StreamedOutput *files, int n)
 {
     /* a failure while streaming has been reported already */
@@ -264,11 +304,13 @@ int fileio_commit_outputs(StreamedOutput *files, int n)
             failed = 1;
     for (int i = 0; i < n && !failed; i++) {
         StreamedOutput *f = &files[i];
-        if (f->temp && rename(f->temp, f->target) != 0) {
+        if (!f->temp || (f->keep_same && same_bytes(f->temp, f->target)))
+            continue;       /* an unneeded temporary goes in discard() */
+        if (rename(f->temp, f->target) != 0) {
             fprintf(stderr, "dervish: cannot write %s: %s\n", f->path,
                     strerror(errno));
             failed = 1;
-        } else if (f->temp) {
+        } else {
             track_temp(i, NULL);
             free(f->temp);
             f->temp = NULL;
@@ -327,4 +369,58 @@ int fileio_same_file(const char *a, const char *b)
     free(ca);
     free(cb);
     return same;
+}
+
+const char *fileio_rule_refuses(const char *path)
+{
+    if (strpbrk(path, "\n\r"))
+        return "a line break";
+    if (strchr(path, '\t'))
+        return "a tab";
+    if (strchr(path, ';'))
+        return "';'";
+    if (strchr(path, '='))
+        return "'='";
+    if (strchr(path, '|'))
+        return "'|'";
+    if (*path && path[strlen(path) - 1] == '\\')
+        return "a backslash at its end";
+    return NULL;
+}
+
+/* Append PATH as make reads a word: a space, '#' or ':' (and '%' in a
+ * target) gets a backslash, and the backslashes just before it are
+ * doubled; '$' is written "$$". */
+static void put_make_word(Buf *out, const char *path, int is_target)
+{
+    size_t slashes = 0;         /* backslashes just written */
+    for (const char *p = path; *p; p++) {
+        if (strchr(" #:", *p) || (is_target && *p == '%'))
+            for (size_t k = 0; k <= slashes; k++)
+                buf_putn(out, "\\", 1);
+        if (*p == '$')
+            buf_putn(out, "$", 1);
+        buf_putn(out, p, 1);
+        slashes = *p == '\\' ? slashes + 1 : 0;
+    }
+}
+
+void fileio_make_rule(Buf *out, const char *const *targets, int ntargets,
+                      const char *const *inputs, int ninputs)
+{
+    for (int i = 0; i < ntargets; i++) {
+        if (i > 0)
+            buf_put(out, " ");
+        put_make_word(out, targets[i], 1);
+    }
+    buf_put(out, ":");
+    for (int i = 0; i < ninputs; i++) {
+        buf_put(out, " ");
+        put_make_word(out, inputs[i], 0);
+    }
+    buf_put(out, "\n");
+    for (int i = 1; i < ninputs; i++) {
+        put_make_word(out, inputs[i], 1);
+        buf_put(out, ":\n");
+    }
 }

@@ -2,7 +2,7 @@
 # setup.sh - install the Debian packages dervish needs to build and test
 # that are not installed yet.  Run as root (or with sudo available).
 set -eu
-packages="make gcc clang libclang-rt-dev re2c lemon check pkg-config valgrind python3-mpmath graphviz mandoc"
+packages="make gcc clang libclang-rt-dev re2c lemon check pkg-config valgrind python3-mpmath graphviz mandoc cmake ninja-build"
 missing=""
 for p in $packages; do
     dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" ||
