@@ -12,7 +12,7 @@ typedef enum AstExprKind {
     AST_NUM,        /* number literal */
     AST_NAME,       /* bare name: a value, a const or (as subscript) an index */
     AST_SUBSCRIPT,  /* name[args] */
-    AST_CALL,       /* name(args): a builtin */
+    AST_CALL,       /* name(args): a builtin or a def */
     AST_REDUCE,     /* name(i, j: body): sum, max, min, logsumexp */
     AST_UNARY,      /* op args[0] */
     AST_BINARY,     /* args[0] op args[1] */
@@ -52,7 +52,9 @@ typedef enum AstStmtKind {
     STMT_PARAM,     /* param decls */
     STMT_SIZE,      /* size NAME, ... */
     STMT_DEFINE,    /* NAME = EXPR or NAME[i, ...] = EXPR */
-    STMT_OUTPUT     /* output NAME, ... */
+    STMT_OUTPUT,    /* output NAME, ... */
+    STMT_DEF,       /* def NAME(a, ...) = EXPR */
+    STMT_USE        /* use "FILE" */
 } AstStmtKind;
 
 /* One declared name with its dimensions (input and param). */
@@ -66,15 +68,18 @@ typedef struct AstDecl {
 typedef struct AstStmt {
     AstStmtKind kind;
     Span span;          /* the whole statement */
-    const char *name;   /* MODEL, CONST, DEFINE: the name defined */
+    const char *name;   /* MODEL, CONST, DEFINE, DEF: the name defined */
     Span name_span;
-    AstExpr *expr;      /* CONST, DEFINE: the right side */
+    AstExpr *expr;      /* CONST, DEFINE: the right side; DEF: the body */
     AstExpr **index;    /* DEFINE in index form: the free indices (NAMEs) */
     int nindex;         /* 0 for the scalar and whole-array forms */
     AstDecl *decls;     /* INPUT, PARAM */
     int ndecls;
-    AstExpr **names;    /* OUTPUT, SIZE: the names listed (NAMEs) */
+    AstExpr **names;    /* OUTPUT, SIZE: the names listed; DEF: the
+                           parameters (all NAMEs) */
     int nnames;
+    const char *path;   /* USE: the file named, without the quotes */
+    Span path_span;     /* USE: the string, quotes included */
 } AstStmt;
 
 typedef struct AstModel {

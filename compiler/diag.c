@@ -1,9 +1,11 @@
-/* diag.c - formatting of errors, warnings and notes; see diag.h. */
+/* diag.c - formatting of errors, warnings and notes, and the set of files
+ * a compilation reads that their spans point into; see diag.h. */
 #include "diag.h"
 
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
 
 void diag_init(Diag *d, const Source *src, FILE *out)
 {
@@ -12,6 +14,86 @@ void diag_init(Diag *d, const Source *src, FILE *out)
     d->errors = 0;
     d->warnings = 0;
     d->max_errors = 20;
+    d->files = NULL;
+}
+
+static void out_of_memory(void)
+{
+    fputs("dervish: out of memory\n", stderr);
+    exit(3);
+}
+
+void source_set_init(SourceSet *set, const Source *model,
+                     const char *const *dirs, int ndirs)
+{
+    memset(set, 0, sizeof *set);
+    set->dirs = dirs;
+    set->ndirs = ndirs;
+    /* one offset past the model's end, so an error at its very end still
+     * belongs to it */
+    set->end = model->len < UINT32_MAX ? (uint32_t)model->len + 1
+                                        : UINT32_MAX;
+}
+
+SourceFile *source_set_add(SourceSet *set, const char *path, char *text,
+                           size_t len)
+{
+    if (len >= UINT32_MAX - set->end) {
+        free(text);
+        return NULL;
+    }
+    SourceFile *f = calloc(1, sizeof *f);
+    char *copy = malloc(strlen(path) + 1);
+    if (!f || !copy)
+        out_of_memory();
+    strcpy(copy, path);
+    f->src.path = copy;
+    f->src.text = text;
+    f->src.len = len;
+    source_index_lines(&f->src);
+    f->base = set->end;
+    set->end += (uint32_t)len + 1;
+    if (set->last)
+        set->last->next = f;
+    else
+        set->first = f;
+    set->last = f;
+    return f;
+}
+
+void source_set_free(SourceSet *set)
+{
+    SourceFile *next;
+    for (SourceFile *f = set->first; f; f = next) {
+        next = f->next;
+        source_free_lines(&f->src);
+        free((void *)f->src.path);
+        free((void *)f->src.text);
+        free(f);
+    }
+    set->first = set->last = NULL;
+}
+
+const Source *diag_source(const Diag *d, uint32_t off, uint32_t *base)
+{
+    *base = 0;
+    if (off <= d->src->len || !d->files)
+        return d->src;
+    for (const SourceFile *f = d->files->first; f; f = f->next)
+        if (off >= f->base && off - f->base <= f->src.len) {
+            *base = f->base;
+            return &f->src;
+        }
+    return d->src;
+}
+
+uint32_t diag_base(const Diag *d, const Source *src)
+{
+    if (src != d->src && d->files)
+        for (const SourceFile *f = d->files->first; f; f = f->next)
+            if (&f->src == src)
+                return f->base;
+    return 0;
 }
 
 void source_index_lines(Source *src)
@@ -20,10 +102,8 @@ void source_index_lines(Source *src)
     for (size_t i = 0; i < src->len; i++)
         n += src->text[i] == '\n';
     uint32_t *starts = malloc((size_t)n * sizeof *starts);
-    if (!starts) {
-        fputs("dervish: out of memory\n", stderr);
-        exit(3);
-    }
+    if (!starts)
+        out_of_memory();
     int k = 0;
     starts[k++] = 0;
     for (size_t i = 0; i < src->len; i++)
@@ -74,12 +154,13 @@ void source_line_col(const Source *src, uint32_t off, int *line, int *col)
  * cause, with "..." where text is left out. */
 #define SHOW_WIDTH 120
 
-/* Print the line holding `at` with a caret under its first byte and tildes
- * under the rest of the span (clipped to what is shown). */
-static void show_line(const Diag *d, Span at)
+/* Print the line of SRC holding `at` (offsets within the file) with a
+ * caret under its first byte and tildes under the rest of the span
+ * (clipped to what is shown). */
+static void show_line(const Diag *d, const Source *src, Span at)
 {
-    const char *text = d->src->text;
-    size_t len = d->src->len;
+    const char *text = src->text;
+    size_t len = src->len;
     uint32_t off = at.off > len ? (uint32_t)len : at.off;
     uint32_t start = off, end = off;
     while (start > 0 && text[start - 1] != '\n')
@@ -118,11 +199,14 @@ static void report(Diag *d, const char *kind, Span at, const char *fmt,
     if (!d->out)
         return;
     int line, col;
-    source_line_col(d->src, at.off, &line, &col);
-    fprintf(d->out, "%s:%d:%d: %s: ", d->src->path, line, col, kind);
+    uint32_t base;
+    const Source *src = diag_source(d, at.off, &base);
+    at.off -= base;
+    source_line_col(src, at.off, &line, &col);
+    fprintf(d->out, "%s:%d:%d: %s: ", src->path, line, col, kind);
     vfprintf(d->out, fmt, ap);
     fputc('\n', d->out);
-    show_line(d, at);
+    show_line(d, src, at);
 }
 
 void diag_error(Diag *d, Span at, const char *fmt, ...)

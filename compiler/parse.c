@@ -77,10 +77,16 @@ static int starts_operand(int code)
            code == TOK_MINUS || code == TOK_NOT;
 }
 
+/* The source text a span starts at (spans count from the file's base). */
+static const char *text_at(const ParseState *ps, Span at)
+{
+    return ps->lexer.src->text + (at.off - ps->base);
+}
+
 /* How a token is named in a message: its text for names and numbers. */
 static const char *describe(ParseState *ps, int code, Token tok)
 {
-    const char *text = ps->lexer.src->text + tok.span.off;
+    const char *text = text_at(ps, tok.span);
     if (code == TOK_NAME)
         return arena_printf(ps->arena, "the name '%.*s'", (int)tok.span.len,
                             text);
@@ -90,18 +96,19 @@ static const char *describe(ParseState *ps, int code, Token tok)
     return parse_token_name(code);
 }
 
-static int line_of(const Source *src, Span at)
+static int line_of(const ParseState *ps, Span at)
 {
     int line, col;
-    source_line_col(src, at.off, &line, &col);
+    source_line_col(ps->lexer.src, at.off - ps->base, &line, &col);
     return line;
 }
 
 /* True when nothing but blanks precedes the token on its line. */
-static int first_on_line(const Source *src, Span at)
+static int first_on_line(const ParseState *ps, Span at)
 {
-    for (uint32_t i = at.off; i > 0; i--) {
-        char c = src->text[i - 1];
+    const char *text = ps->lexer.src->text;
+    for (uint32_t i = at.off - ps->base; i > 0; i--) {
+        char c = text[i - 1];
         if (c == '\n')
             return 1;
         if (c != ' ' && c != '\t')
@@ -118,8 +125,8 @@ static void remember_failed(ParseState *ps, const char *text, size_t n)
 }
 
 /* Remember the names the failing statement may have been defining (its
- * leading name, or the names after const, input or param), so later uses
- * of them are not reported as unknown. */
+ * leading name, the name after def, or the names after const, input or
+ * param), so later uses of them are not reported as unknown. */
 static void note_failed_names(ParseState *ps)
 {
     int first = ps->first.code;
@@ -127,62 +134,64 @@ static void note_failed_names(ParseState *ps)
         return;
     ps->stmt_failed = 1;
     if (first != TOK_NAME && first != TOK_CONST && first != TOK_INPUT &&
-        first != TOK_PARAM)
+        first != TOK_PARAM && first != TOK_DEF)
         return;
     for (int i = 0; i < ps->stmt_names.len; i++) {
         Span n = ps->stmt_names.items[i];
-        remember_failed(ps, ps->lexer.src->text + n.off, n.len);
-        if (first == TOK_NAME)
+        remember_failed(ps, text_at(ps, n), n.len);
+        if (first == TOK_NAME || first == TOK_DEF)
             break;
+    }
+}
+
+/* What a keyword does, for the error that refuses it as a name. */
+static const char *keyword_role(int code)
+{
+    switch (code) {
+    case TOK_SIZE: return "it declares runtime sizes";
+    case TOK_DEF: return "it defines a function";
+    case TOK_USE: return "it reads another model file";
+    default: return NULL;
     }
 }
 
 void parse_syntax_error(ParseState *ps, int code, Token tok)
 {
-    const Source *src = ps->lexer.src;
     note_failed_names(ps);
     if (ps->lexer.error_in_stmt)
         return;     /* the lexer already reported this statement */
-    if (ps->lexer.open.len > 0 && first_on_line(src, tok.span)) {
+    if (ps->lexer.open.len > 0 && first_on_line(ps, tok.span)) {
         /* A statement ran on into the next line: the bracket is the cause. */
         Span open = ps->lexer.open.items[ps->lexer.open.len - 1];
         diag_error(ps->diag, open,
                    "'%c' is never closed, so the statement runs on into "
-                   "line %d", src->text[open.off],
-                   line_of(src, tok.span));
+                   "line %d", *text_at(ps, open), line_of(ps, tok.span));
         ps->lexer.open.len = 0;     /* newlines end statements again */
         return;
     }
     const char *found = describe(ps, code, tok);
     int prev = ps->prev.code;
-    if (code == TOK_SIZE && prev != TOK_NEWLINE && prev != TOK_SEMI) {
+    if (keyword_role(code) && prev != TOK_NEWLINE && prev != TOK_SEMI) {
         diag_error(ps->diag, tok.span,
-                   "'size' is a keyword (it declares runtime sizes) and "
-                   "cannot be used as a name");
-        return;
-    }
-    if ((code == TOK_DEF || code == TOK_USE) && prev != TOK_NEWLINE &&
-        prev != TOK_SEMI) {
-        diag_error(ps->diag, tok.span,
-                   "%s is a word reserved for a later version of dervish "
-                   "and cannot be used as a name", found);
+                   "%s is a keyword (%s) and cannot be used as a name",
+                   found, keyword_role(code));
         return;
     }
     Span joined = ps->lexer.joined;
     if (ps->lexer.has_joined && code != 0 && code != TOK_NEWLINE &&
         joined.off >= ps->first.span.off &&
-        line_of(src, tok.span) > line_of(src, joined)) {
+        line_of(ps, tok.span) > line_of(ps, joined)) {
         /* An operator at the end of a line continued the statement onto
          * the next, where it went wrong: the operator is the likely cause. */
         diag_error(ps->diag, joined,
                    "'%.*s' ends the line, so the statement runs on into "
-                   "line %d", (int)joined.len, src->text + joined.off,
-                   line_of(src, joined) + 1);
+                   "line %d", (int)joined.len, text_at(ps, joined),
+                   line_of(ps, joined) + 1);
         /* the next line probably began a definition of its own */
         for (int i = 0; i < ps->stmt_names.len; i++) {
             Span n = ps->stmt_names.items[i];
-            if (n.off > joined.off && first_on_line(src, n)) {
-                remember_failed(ps, src->text + n.off, n.len);
+            if (n.off > joined.off && first_on_line(ps, n)) {
+                remember_failed(ps, text_at(ps, n), n.len);
                 break;
             }
         }
@@ -194,12 +203,20 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
         tok.span.off = ps->prev.span.off + ps->prev.span.len;
         tok.span.len = 1;
     }
-    if (wants_operand(prev) || prev == TOK_LPAREN || prev == TOK_COMMA ||
-        prev == TOK_LBRACKET) {
+    if (first == TOK_USE) {
+        diag_error(ps->diag, tok.span,
+                   "'use' takes one file name in quotes, as in "
+                   "'use \"common.dvs\"'; found %s", found);
+    } else if (first == TOK_DEF && !ps->assigned) {
+        diag_error(ps->diag, tok.span,
+                   "a def is written 'def NAME(a, b, ...) = EXPR', with at "
+                   "least one parameter; found %s", found);
+    } else if (wants_operand(prev) || prev == TOK_LPAREN ||
+               prev == TOK_COMMA || prev == TOK_LBRACKET) {
         if (prev == TOK_COMMA || prev == TOK_LPAREN || prev == TOK_LBRACKET)
             diag_error(ps->diag, tok.span,
                        "expected a name or expression after '%c', found %s",
-                       src->text[ps->prev.span.off], found);
+                       *text_at(ps, ps->prev.span), found);
         else
             diag_error(ps->diag, tok.span,
                        "expected an expression after %s, found %s",
@@ -213,8 +230,7 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
                 ps->prev2.code == TOK_CONST)) {
         diag_error(ps->diag, tok.span,
                    "expected '=' after the name '%.*s' to define it, found %s",
-                   (int)ps->prev.span.len, src->text + ps->prev.span.off,
-                   found);
+                   (int)ps->prev.span.len, text_at(ps, ps->prev.span), found);
     } else if (prev == TOK_NEWLINE || prev == TOK_SEMI || prev == 0) {
         diag_error(ps->diag, tok.span,
                    "expected a statement (a definition 'name = ...', or "
@@ -253,8 +269,7 @@ void parse_add_stmt(ParseState *ps, AstStmt *s)
 
 const char *parse_name(ParseState *ps, Token name)
 {
-    return arena_strndup(ps->arena, ps->lexer.src->text + name.span.off,
-                         name.span.len);
+    return arena_strndup(ps->arena, text_at(ps, name.span), name.span.len);
 }
 
 AstStmt *parse_stmt(ParseState *ps, AstStmtKind kind, Span first, Span last)
@@ -310,11 +325,34 @@ AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
     return s;
 }
 
-AstStmt *parse_later(ParseState *ps, Token keyword, const char *what)
+AstStmt *parse_def(ParseState *ps, Token keyword, Token name,
+                   ExprList params, AstExpr *body)
 {
-    diag_error(ps->diag, keyword.span,
-               "%s not supported by this version of dervish", what);
-    return NULL;
+    AstStmt *s = parse_stmt(ps, STMT_DEF, keyword.span, body->span);
+    s->name = parse_name(ps, name);
+    s->name_span = name.span;
+    s->expr = body;
+    for (int i = 0; i < params.len; i++)
+        if (params.items[i]->kind != AST_NAME) {
+            diag_error(ps->diag, params.items[i]->span,
+                       "a def's parameters are names, as in "
+                       "'def %s(x, y) = ...'", s->name);
+            remember_failed(ps, s->name, strlen(s->name));
+            return NULL;
+        }
+    s->names = params.items;
+    s->nnames = params.len;
+    return s;
+}
+
+AstStmt *parse_use(ParseState *ps, Token keyword, Token path)
+{
+    AstStmt *s = parse_stmt(ps, STMT_USE, keyword.span, path.span);
+    /* the string's text without its quotes */
+    s->path = arena_strndup(ps->arena, text_at(ps, path.span) + 1,
+                            path.span.len - 2);
+    s->path_span = path.span;
+    return s;
 }
 
 DeclList parse_decls(ParseState *ps, DeclList *list, AstDecl d)
@@ -457,6 +495,7 @@ static void run(ParseState *ps, ParseVisitor *v)
 {
     Diag *diag = ps->diag;
     ps->prev.code = TOK_NEWLINE;
+    ps->base = diag_base(diag, ps->lexer.src);
     lex_init(&ps->lexer, ps->lexer.src, diag, ps->keep);
     void *parser = DvParserAlloc(malloc);
     if (!parser) {
@@ -470,6 +509,7 @@ static void run(ParseState *ps, ParseVisitor *v)
             ps->stmt_names.len = 0;
             ps->stmt_failed = 0;
             ps->open_selects = 0;
+            ps->assigned = 0;
             ps->lexer.error_in_stmt = 0;
             ps->lexer.has_joined = 0;
         }
@@ -477,6 +517,8 @@ static void run(ParseState *ps, ParseVisitor *v)
             VEC_PUSH(ps->keep, ps->stmt_names, t.span);
         ps->open_selects += (t.code == TOK_QUESTION) - (t.code == TOK_COLON);
         DvParser(parser, t.code, t, ps);
+        if (t.code == TOK_ASSIGN && ps->lexer.open.len == 0)
+            ps->assigned = 1;
         if (t.code == TOK_NEWLINE || t.code == TOK_SEMI) {
             /* Statements are independent: parse each as a whole program,
              * so recovery from an error never reaches into the next one

@@ -10,6 +10,7 @@ typedef struct ParseState {
     Arena *keep;        /* what outlives a statement: failed names, lists */
     Diag *diag;
     Lexer lexer;
+    uint32_t base;      /* span offset of the source's first byte */
     VEC(AstStmt *) stmts;
     Token prev;         /* the token before the one being parsed */
     Token prev2;        /* and the one before that */
@@ -18,6 +19,7 @@ typedef struct ParseState {
     VEC(const char *) failed;   /* names a failed statement may define */
     int stmt_failed;    /* the current statement had a syntax error */
     int open_selects;   /* '?' minus ':' seen in the current statement */
+    int assigned;       /* the current statement has passed its '=' */
     int too_deep;       /* nesting limit hit: parsing stops */
 } ParseState;
 
@@ -58,7 +60,10 @@ AstStmt *parse_names(ParseState *ps, AstStmtKind kind, Token keyword,
                      ExprList names);
 AstStmt *parse_define_indexed(ParseState *ps, Token name, ExprList index,
                               AstExpr *e);
-AstStmt *parse_later(ParseState *ps, Token keyword, const char *what);
+/* def NAME(params) = body: every parameter must be a name. */
+AstStmt *parse_def(ParseState *ps, Token keyword, Token name,
+                   ExprList params, AstExpr *body);
+AstStmt *parse_use(ParseState *ps, Token keyword, Token path);
 DeclList parse_decls(ParseState *ps, DeclList *list, AstDecl d);
 AstDecl parse_decl(ParseState *ps, Token name, ExprList *dims, Span last);
 ExprList parse_exprs(ParseState *ps, ExprList *list, AstExpr *e);

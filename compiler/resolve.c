@@ -1,5 +1,6 @@
-/* resolve.c - names, constants, shapes, index ranges and lowering; see
- * resolve.h.
+/* resolve.c - names, constants, shapes, index ranges and lowering, with
+ * def functions expanded where they are called and used files read where
+ * they are used; see resolve.h.
  *
  * Each definition is handled in two walks over its right side.  The first
  * (infer) checks every name and binds every index to a range, taken from
@@ -10,9 +11,17 @@
  * The model is seen twice: a first pass (outline) notes every name it
  * defines and its model statements, a second resolves statement by
  * statement.  Given no tree, resolve_model parses the source once for each
- * pass and frees each statement's tree as soon as it is visited. */
+ * pass and frees each statement's tree as soon as it is visited.  A used
+ * file goes through the same two passes when its 'use' statement is
+ * resolved, so its names take effect there, as if written in its place.
+ *
+ * A def's body is checked once, where the def is defined (names, calls,
+ * conditions), and kept; a call lowers its arguments once and then the
+ * body with the parameters standing for the arguments' nodes, so the
+ * expansion is plain substitution before any derivative is taken. */
 #include "resolve.h"
 #include "apply.h"
+#include "fileio.h"
 #include "names.h"
 #include "parse_state.h"
 
@@ -20,9 +29,18 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 /* Largest element count of one array; larger ones are model errors. */
 #define MAX_ELEMENTS ((long)INT_MAX)
+
+/* Most operations the def calls of one definition may expand to: later
+ * passes walk each statement's expression as a tree, and nested calls can
+ * make that tree exponentially larger than the text. */
+#define MAX_EXPANDED 1000000
+
+/* Deepest nesting of used files. */
+#define MAX_USE_DEPTH 100
 
 /* ------------------------------------------------------------ symbols */
 
@@ -30,8 +48,11 @@ typedef enum SymKind {
     SYM_LATER,          /* defined by a later statement: not visible yet */
     SYM_CONST,
     SYM_ARRAY,
-    SYM_SIZE
+    SYM_SIZE,
+    SYM_DEF
 } SymKind;
+
+typedef struct DefInfo DefInfo;
 
 typedef struct Symbol {
     const char *name;   /* a copy in the arena (the IR's arrays share it) */
@@ -39,10 +60,53 @@ typedef struct Symbol {
     Span span;          /* where it was defined */
     int32_t array;      /* SYM_ARRAY */
     int32_t size;       /* SYM_SIZE: its id in ir->sizes */
+    DefInfo *def;       /* SYM_DEF, and SYM_LATER for a def not reached */
     uint32_t hash;      /* of name: most probes need not read the name */
     uint8_t kind;       /* SymKind */
     uint8_t failed;     /* its definition had errors: uses stay quiet */
 } Symbol;
+
+/* A def function: what the first pass saw of it, then, once its statement
+ * is resolved, its checked body and the size of its expansion. */
+struct DefInfo {
+    const char *name;
+    Span name_span;
+    const char **params;    /* the parameter names */
+    int nparams;
+    const AstExpr *body;    /* a copy kept in the arena */
+    int is_cond;            /* the body is a condition */
+    int constant;           /* no condition anywhere in its expansion, so
+                               a const may call it */
+    /* The expansion as a tree, the parameters left out: its depth and
+     * node count; for each parameter the depth of its deepest use below
+     * the root and the number of its uses. */
+    double depth, size;
+    double *param_depth, *param_uses;
+    /* first pass: the functions the body calls, to find recursion */
+    const char **calls;
+    Span *call_spans;
+    int ncalls;
+    int stamp;              /* visited by the current recursion search */
+    int cyclic;             /* on a cycle of calls already reported */
+};
+
+/* The arguments of the def being expanded: its parameters stand for
+ * these nodes (lowering) or numbers (constants). */
+typedef struct Frame {
+    const DefInfo *def;
+    const NodeId *nodes;
+    const double *values;
+} Frame;
+
+/* A file being read or read already, known by its device and inode. */
+typedef struct FileId {
+    dev_t dev;
+    ino_t ino;
+    int known;          /* stat succeeded (a model given as text may not
+                           exist as a file) */
+    const char *path;   /* as messages show it */
+    Span used_at;       /* the 'use' that read it (none for the model) */
+} FileId;
 
 /* A bound index: a free index of the left side, an implicit index of a
  * whole-array definition, or an index bound by a reduction. */
@@ -101,6 +165,20 @@ typedef struct Resolver {
     Span elem_from;
     int failed;
     int ntemps;
+
+    /* def functions */
+    DefInfo *def;           /* the def whose body is being checked */
+    const Frame *frame;     /* the innermost def being expanded */
+    int stamp;              /* of the last recursion search */
+    int saw_cond;           /* a condition was seen in the body checked */
+    double expanded;        /* nodes of the expansions in this statement */
+    int call_depth;         /* measuring: def calls around this point */
+    int too_big;            /* an expansion limit was reported */
+
+    /* used files */
+    VEC(FileId) reading;    /* the files being read, the model first */
+    VEC(FileId) read;       /* every file read, each once */
+    int lost_file;          /* a used file could not be read */
 } Resolver;
 
 static uint32_t hash_name(const char *s)
@@ -187,11 +265,12 @@ static Symbol *insert(Resolver *r, const char *name, Span span)
     return s;
 }
 
-/* True when NAME is unknown because its statement failed to parse: the
- * error was reported there, and this use is not reported again. */
+/* True when NAME is unknown because its statement failed to parse, or
+ * may be defined in a file that could not be read: the error was reported
+ * there, and this use is not reported again. */
 static int failed_earlier(Resolver *r, const char *name)
 {
-    return table_find(&r->unparsed, name) != NULL;
+    return r->lost_file || table_find(&r->unparsed, name) != NULL;
 }
 
 /* Record a definition that was refused, so its uses stay quiet. */
@@ -223,10 +302,309 @@ static int definable(Resolver *r, const char *name, Span span)
     return 1;
 }
 
+static void fail(Resolver *r)
+{
+    r->failed = 1;
+}
+
+static const char *const reduction_names[] = {"sum", "max", "min",
+                                              "logsumexp"};
+
+static int reduction_kind(const char *name)
+{
+    for (int i = 0; i < 4; i++)
+        if (strcmp(name, reduction_names[i]) == 0)
+            return i;
+    return -1;
+}
+
+/* ------------------------------------------------------ def functions */
+
+static DefInfo *new_def(Resolver *r, const char *name, Span name_span)
+{
+    DefInfo *d = arena_alloc(r->arena, sizeof *d);
+    d->name = copy_name(r, name);
+    d->name_span = name_span;
+    return d;
+}
+
+/* The parameter of D that NAME names, or -1 (also when D is NULL). */
+static int param_index(const DefInfo *d, const char *name)
+{
+    for (int i = 0; d && i < d->nparams; i++)
+        if (strcmp(d->params[i], name) == 0)
+            return i;
+    return -1;
+}
+
+static void note_def(Resolver *r, const DefInfo *d)
+{
+    diag_note(r->diag, d->name_span, "'%s' is defined here", d->name);
+}
+
+static void arity_error(Resolver *r, const AstExpr *e, int want)
+{
+    diag_error(r->diag, e->span, "'%s' takes %d argument%s but %d %s given",
+               e->name, want, want == 1 ? "" : "s", e->nargs,
+               e->nargs == 1 ? "is" : "are");
+}
+
+/* Whether a call passes D as many arguments as it has parameters;
+ * reports (at the call, with a note at the def) when it does not. */
+static int arity_matches(Resolver *r, const AstExpr *e, const DefInfo *d)
+{
+    if (e->nargs == d->nparams)
+        return 1;
+    arity_error(r, e, d->nparams);
+    note_def(r, d);
+    fail(r);
+    return 0;
+}
+
+typedef VEC(DefInfo *) DefPath;
+
+/* Whether FROM, a def not reached yet, calls TARGET, directly or through
+ * other defs not reached yet, as the first pass saw their bodies.  If so,
+ * PATH holds the defs from FROM on and *at the call that reaches TARGET. */
+static int calls_back(Resolver *r, DefInfo *from, const DefInfo *target,
+                      DefPath *path, Span *at)
+{
+    from->stamp = r->stamp;
+    VEC_PUSH(r->arena, *path, from);
+    for (int i = 0; i < from->ncalls; i++) {
+        Symbol *s = table_find(&r->symbols, from->calls[i]);
+        if (!s || s->kind != SYM_LATER || !s->def)
+            continue;
+        if (s->def == target) {
+            *at = from->call_spans[i];
+            return 1;
+        }
+        if (s->def->stamp != r->stamp &&
+            calls_back(r, s->def, target, path, at))
+            return 1;
+    }
+    path->len--;
+    return 0;
+}
+
+/* A call that would make the def being checked recursive: reported with
+ * the cycle, e.g. "f -> g -> f", and the call in the last def that
+ * closes it. */
+static void recursion_error(Resolver *r, const AstExpr *e,
+                            const DefPath *path, Span at)
+{
+    const DefInfo *d = r->def;
+    char *chain = arena_printf(r->arena, "%s", d->name);
+    for (int i = 0; i < path->len; i++) {
+        chain = arena_printf(r->arena, "%s -> %s", chain,
+                             path->items[i]->name);
+        path->items[i]->cyclic = 1;     /* its calls on the cycle stay quiet */
+    }
+    chain = arena_printf(r->arena, "%s -> %s", chain, d->name);
+    diag_error(r->diag, e->name_span,
+               "'%s' calls itself (%s): a def is expanded where it is "
+               "called, so it cannot be recursive", d->name, chain);
+    if (path->len > 0)
+        diag_note(r->diag, at, "'%s' calls '%s' here",
+                  path->items[path->len - 1]->name, d->name);
+}
+
+/* The def a call of a name that is not a builtin expands, or NULL after
+ * reporting why there is none (quietly when its definition failed). */
+static const DefInfo *def_called(Resolver *r, const AstExpr *e)
+{
+    Symbol *s = lookup(r, e->name);
+    Symbol *later = table_find(&r->symbols, e->name);
+    if (s && s->kind == SYM_DEF && !s->failed)
+        return s->def;
+    if (s && s->kind == SYM_DEF) {
+        /* its definition was reported */
+    } else if (s) {
+        diag_error(r->diag, e->name_span,
+                   "'%s' is a value, not a function; use [ ] to "
+                   "subscript an array", e->name);
+    } else if (r->def && strcmp(e->name, r->def->name) == 0) {
+        DefPath none = {0};
+        recursion_error(r, e, &none, e->name_span);
+    } else if (later && later->def && later->def->cyclic) {
+        /* part of a cycle reported already */
+    } else if (later && later->def) {
+        DefPath path = {0};
+        Span at = {0, 0};
+        r->stamp++;
+        if (r->def && calls_back(r, later->def, r->def, &path, &at)) {
+            recursion_error(r, e, &path, at);
+        } else {
+            diag_error(r->diag, e->name_span,
+                       "'%s' is defined on a later line: define it before "
+                       "this line", e->name);
+            note_def(r, later->def);
+        }
+        arena_release(r->arena, path.items,
+                      (size_t)path.cap * sizeof *path.items);
+    } else if (reduction_kind(e->name) >= 0) {
+        diag_error(r->diag, e->span,
+                   "'%s' reduces over an index: write %s(i: ...)", e->name,
+                   e->name);
+    } else if (!failed_earlier(r, e->name)) {
+        diag_error(r->diag, e->name_span, "unknown function '%s'", e->name);
+    }
+    fail(r);
+    return NULL;
+}
+
+/* The def a call expands, when it names one it can expand; quiet. */
+static const DefInfo *expandable(Resolver *r, const AstExpr *e)
+{
+    if (e->kind != AST_CALL || ir_builtin(e->name) >= 0)
+        return NULL;
+    Symbol *s = lookup(r, e->name);
+    return s && s->kind == SYM_DEF && !s->failed &&
+                   s->def->nparams == e->nargs ? s->def : NULL;
+}
+
+/* The tree an expression lowers to, with its def calls expanded: its
+ * depth and its number of nodes (or, from param_uses, the depth of a
+ * parameter's deepest use and the number of its uses).  Inside a def's
+ * body its parameters count as nothing; each call then adds what its
+ * arguments bring, through the parameters that use them. */
+typedef struct Measure {
+    double depth, size;
+} Measure;
+
+static Measure measure(Resolver *r, const AstExpr *e, int level);
+
+/* A call of D at depth LEVEL of its statement.  Outside a def's body the
+ * expansion must stay within the limits the parser sets for written
+ * expressions (later passes recurse on it) and MAX_EXPANDED nodes in all;
+ * the first call past a limit is reported, with a note at its def. */
+static Measure measure_call(Resolver *r, const AstExpr *e, const DefInfo *d,
+                            int level)
+{
+    Measure m = {d->depth, d->size};
+    r->call_depth++;
+    for (int i = 0; i < e->nargs; i++) {
+        Measure a = measure(r, e->args[i], level + 1);
+        if (d->param_uses[i] > 0) {
+            if (d->param_depth[i] + a.depth > m.depth)
+                m.depth = d->param_depth[i] + a.depth;
+            m.size += d->param_uses[i] * a.size;
+        }
+    }
+    r->call_depth--;
+    if (r->def || r->too_big)
+        return m;
+    if (level - 1 + m.depth > PARSE_MAX_DEPTH) {
+        diag_error(r->diag, e->span,
+                   "expanding '%s' here nests the expression more than %d "
+                   "levels deep: split it into named steps", d->name,
+                   PARSE_MAX_DEPTH);
+        r->too_big = 1;
+    } else if (r->call_depth == 0 &&
+               (r->expanded += m.size) > MAX_EXPANDED) {
+        diag_error(r->diag, e->span,
+                   "with '%s' expanded here, this statement has more than "
+                   "%d operations: split it into named steps", d->name,
+                   MAX_EXPANDED);
+        r->too_big = 1;
+    }
+    if (r->too_big)
+        note_def(r, d);
+    return m;
+}
+
+static Measure measure(Resolver *r, const AstExpr *e, int level)
+{
+    Measure m = {1, 1};
+    const DefInfo *d = expandable(r, e);
+    if (d)
+        return measure_call(r, e, d, level);
+    if (e->kind == AST_NAME && param_index(r->def, e->name) >= 0) {
+        m.depth = m.size = 0;
+        return m;
+    }
+    if (e->kind == AST_REDUCE) {
+        /* the body becomes statements of its own */
+        m.size += measure(r, e->body, 1).size;
+        return m;
+    }
+    for (int i = 0; i < e->nargs && e->kind != AST_SUBSCRIPT; i++) {
+        Measure c = measure(r, e->args[i], level + 1);
+        if (1 + c.depth > m.depth)
+            m.depth = 1 + c.depth;
+        m.size += c.size;
+    }
+    return m;
+}
+
+/* In the body of the def being checked: the depth of the deepest use of
+ * parameter P below the root, and (as size) the number of its uses. */
+static Measure param_uses(Resolver *r, const AstExpr *e, int p)
+{
+    Measure u = {0, 0};
+    if (e->kind == AST_NAME) {
+        u.size = param_index(r->def, e->name) == p;
+        return u;
+    }
+    const DefInfo *d = expandable(r, e);
+    for (int i = 0; i < e->nargs; i++) {
+        Measure a = param_uses(r, e->args[i], p);
+        double below = d ? d->param_depth[i] : 1;
+        double times = d ? d->param_uses[i] : 1;
+        if (a.size > 0 && times > 0) {
+            if (below + a.depth > u.depth)
+                u.depth = below + a.depth;
+            u.size += times * a.size;
+        }
+    }
+    return u;
+}
+
+/* Whether the def calls of a statement's expression expand within the
+ * limits; reports the first call past one. */
+static int expansion_fits(Resolver *r, const AstExpr *e)
+{
+    r->expanded = 0;
+    r->too_big = 0;
+    r->call_depth = 0;
+    measure(r, e, 1);
+    return !r->too_big;
+}
+
 /* ---------------------------------------------------------- constants */
 
-/* Evaluate a constant expression: numbers, earlier consts, arithmetic and
- * builtins.  Returns 0 (after reporting) when it is not constant. */
+static int const_eval(Resolver *r, const AstExpr *e, double *out);
+
+/* A def called in a constant: its body evaluated with the arguments'
+ * values.  Only a def without conditions gives a constant. */
+static int const_call(Resolver *r, const AstExpr *e, double *out)
+{
+    const DefInfo *d = def_called(r, e);
+    if (!d || !arity_matches(r, e, d))
+        return 0;
+    if (!d->constant) {
+        diag_error(r->diag, e->span,
+                   "'%s' cannot give a constant: its body uses a condition",
+                   d->name);
+        note_def(r, d);
+        return 0;
+    }
+    double *values = arena_alloc(r->arena,
+                                 (size_t)d->nparams * sizeof *values);
+    for (int i = 0; i < e->nargs; i++)
+        if (!const_eval(r, e->args[i], &values[i]))
+            return 0;
+    Frame f = {d, NULL, values};
+    const Frame *outer = r->frame;
+    r->frame = &f;
+    int ok = const_eval(r, d->body, out);
+    r->frame = outer;
+    return ok;
+}
+
+/* Evaluate a constant expression: numbers, earlier consts, arithmetic,
+ * builtins and defs of those.  Returns 0 (after reporting) when it is not
+ * constant. */
 static int const_eval(Resolver *r, const AstExpr *e, double *out)
 {
     double v[3] = {0, 0, 0};
@@ -235,6 +613,11 @@ static int const_eval(Resolver *r, const AstExpr *e, double *out)
         *out = e->num;
         return 1;
     case AST_NAME: {
+        int p = r->frame ? param_index(r->frame->def, e->name) : -1;
+        if (p >= 0) {
+            *out = r->frame->values[p];
+            return 1;
+        }
         Symbol *s = lookup(r, e->name);
         if (!s) {
             if (!failed_earlier(r, e->name))
@@ -282,7 +665,9 @@ static int const_eval(Resolver *r, const AstExpr *e, double *out)
     }
     case AST_CALL: {
         int op = ir_builtin(e->name);
-        if (op < 0 || ir_ops[op].arity != e->nargs)
+        if (op < 0)
+            return const_call(r, e, out);
+        if (ir_ops[op].arity != e->nargs)
             break;
         for (int i = 0; i < e->nargs; i++)
             if (!const_eval(r, e->args[i], &v[i]))
@@ -303,7 +688,7 @@ static void resolve_const(Resolver *r, const AstStmt *s)
 {
     double value = 0;
     int ok = definable(r, s->name, s->name_span);
-    int valued = const_eval(r, s->expr, &value);
+    int valued = expansion_fits(r, s->expr) && const_eval(r, s->expr, &value);
     if (valued && !isfinite(value)) {
         diag_error(r->diag, s->expr->span,
                    "constant '%s' is not a finite number (its value is %s)",
@@ -451,11 +836,6 @@ static int find_binder(const Resolver *r, const char *name)
     return -1;
 }
 
-static void fail(Resolver *r)
-{
-    r->failed = 1;
-}
-
 static int push_binder(Resolver *r, const char *name, Span span, int extent)
 {
     Binder b;
@@ -511,13 +891,13 @@ static void infer(Resolver *r, const AstExpr *e);
 static Symbol *resolve_use(Resolver *r, const char *name, Span at)
 {
     Symbol *s = lookup(r, name);
-    if (s && !s->failed)
+    if (s && !s->failed && s->kind != SYM_DEF)
         return s;
-    if (!s && !failed_earlier(r, name)) {
+    if ((!s && !failed_earlier(r, name)) || (s && !s->failed)) {
         if (strcmp(name, r->target_name) == 0)
             diag_error(r->diag, at, "'%s' is used in its own definition",
                        name);
-        else if (ir_builtin(name) >= 0)
+        else if (ir_builtin(name) >= 0 || s)
             diag_error(r->diag, at, "'%s' is a function: call it, as in %s(x)",
                        name, name);
         else
@@ -528,8 +908,31 @@ static Symbol *resolve_use(Resolver *r, const char *name, Span at)
     return NULL;
 }
 
+/* In a def's body: refuse a value of the model (S, called NAME at AT),
+ * which the def cannot see; returns 1 after reporting. */
+static int refused_in_body(Resolver *r, const Symbol *s, const char *name,
+                           Span at)
+{
+    if (!r->def || (s->kind != SYM_ARRAY && s->kind != SYM_SIZE))
+        return 0;
+    IrRole role = s->kind == SYM_SIZE ? ROLE_INPUT
+                                      : r->ir->arrays.items[s->array].role;
+    const char *what = s->kind == SYM_SIZE ? "a size"
+                       : role == ROLE_PARAM ? "a param"
+                       : role == ROLE_INPUT ? "an input" : "a value";
+    diag_error(r->diag, at,
+               "'%s' is %s of the model; a def's body may use only its "
+               "parameters, constants and functions: pass '%s' as an "
+               "argument", name, what, name);
+    diag_note(r->diag, s->span, "'%s' is defined here", name);
+    fail(r);
+    return 1;
+}
+
 static void infer_name(Resolver *r, const AstExpr *e)
 {
+    if (param_index(r->def, e->name) >= 0)
+        return;
     if (find_binder(r, e->name) >= 0) {
         diag_error(r->diag, e->span,
                    "index '%s' used as a value: indices may only subscript "
@@ -538,7 +941,7 @@ static void infer_name(Resolver *r, const AstExpr *e)
         return;
     }
     Symbol *s = resolve_use(r, e->name, e->span);
-    if (!s || s->kind != SYM_ARRAY)
+    if (!s || refused_in_body(r, s, e->name, e->span) || s->kind != SYM_ARRAY)
         return;     /* constants and sizes are numbers */
     const IrArray *a = &r->ir->arrays.items[s->array];
     if (a->rank == 0)
@@ -569,17 +972,19 @@ static void infer_name(Resolver *r, const AstExpr *e)
 
 static void infer_subscript(Resolver *r, const AstExpr *e)
 {
-    Symbol *s = resolve_use(r, e->name, e->name_span);
-    if (!s)
+    /* a def's parameters are numbers */
+    int param = param_index(r->def, e->name) >= 0;
+    Symbol *s = param ? NULL : resolve_use(r, e->name, e->name_span);
+    if (!param && (!s || refused_in_body(r, s, e->name, e->name_span)))
         return;
-    if (s->kind != SYM_ARRAY) {
+    if (s && s->kind != SYM_ARRAY) {
         diag_error(r->diag, e->span, "'%s' is a %s and cannot be subscripted",
                    e->name, s->kind == SYM_SIZE ? "size" : "constant");
         fail(r);
         return;
     }
-    const IrArray *a = &r->ir->arrays.items[s->array];
-    if (a->rank == 0) {
+    const IrArray *a = s ? &r->ir->arrays.items[s->array] : NULL;
+    if (!a || a->rank == 0) {
         diag_error(r->diag, e->span,
                    "'%s' is a scalar and takes no subscripts", e->name);
         fail(r);
@@ -636,34 +1041,13 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
     }
 }
 
-static const char *const reduction_names[] = {"sum", "max", "min",
-                                              "logsumexp"};
-
-static int reduction_kind(const char *name)
-{
-    for (int i = 0; i < 4; i++)
-        if (strcmp(name, reduction_names[i]) == 0)
-            return i;
-    return -1;
-}
-
 static void infer_call(Resolver *r, const AstExpr *e)
 {
     int op = ir_builtin(e->name);
     if (op < 0) {
-        Symbol *s = lookup(r, e->name);
-        if (reduction_kind(e->name) >= 0)
-            diag_error(r->diag, e->span,
-                       "'%s' reduces over an index: write %s(i: ...)",
-                       e->name, e->name);
-        else if (s)
-            diag_error(r->diag, e->name_span,
-                       "'%s' is a value, not a function; use [ ] to "
-                       "subscript an array", e->name);
-        else
-            diag_error(r->diag, e->name_span, "unknown function '%s'",
-                       e->name);
-        fail(r);
+        const DefInfo *d = def_called(r, e);
+        if (d)
+            arity_matches(r, e, d);
     } else if (ir_ops[op].arity != e->nargs) {
         if (op == IR_MAX || op == IR_MIN)
             diag_error(r->diag, e->span,
@@ -671,10 +1055,7 @@ static void infer_call(Resolver *r, const AstExpr *e)
                        "over an index, as in %s(i: x[i])",
                        e->name, e->name, e->name);
         else
-            diag_error(r->diag, e->span,
-                       "'%s' takes %d argument%s but %d %s given", e->name,
-                       ir_ops[op].arity, ir_ops[op].arity == 1 ? "" : "s",
-                       e->nargs, e->nargs == 1 ? "is" : "are");
+            arity_error(r, e, ir_ops[op].arity);
         fail(r);
     }
     for (int i = 0; i < e->nargs; i++)
@@ -683,6 +1064,13 @@ static void infer_call(Resolver *r, const AstExpr *e)
 
 static void infer_reduce(Resolver *r, AstExpr *e)
 {
+    if (r->def) {
+        diag_error(r->diag, e->span,
+                   "a def's body cannot contain a reduction: reduce where "
+                   "the def is called and pass the result as an argument");
+        fail(r);
+        return;
+    }
     if (reduction_kind(e->name) < 0) {
         diag_error(r->diag, e->name_span,
                    "'%s' is not a reduction; the reductions are sum, max, "
@@ -746,6 +1134,97 @@ static void infer(Resolver *r, const AstExpr *e)
     }
 }
 
+/* ------------------------------------------------------------- kinds */
+
+/* The IR op of a binary operator. */
+static IrOp binary_op(AstOp op)
+{
+    switch (op) {
+    case AOP_ADD: return IR_ADD;
+    case AOP_SUB: return IR_SUB;
+    case AOP_MUL: return IR_MUL;
+    case AOP_DIV: return IR_DIV;
+    case AOP_POW: return IR_POW;
+    case AOP_LT: return IR_LT;
+    case AOP_LE: return IR_LE;
+    case AOP_GT: return IR_GT;
+    case AOP_GE: return IR_GE;
+    case AOP_EQ: return IR_EQ;
+    case AOP_NE: return IR_NE;
+    case AOP_AND: return IR_AND;
+    case AOP_OR: return IR_OR;
+    default: DV_UNREACHABLE();
+    }
+    return IR_ADD;
+}
+
+/* E is a condition (FOUND_COND) where a number belongs, or a number where
+ * a condition belongs.  A def call gets a note at its def. */
+static void kind_error(Resolver *r, const AstExpr *e, int found_cond)
+{
+    if (found_cond)
+        diag_error(r->diag, e->span,
+                   "a comparison is a condition, not a number: use it as "
+                   "the first operand of '?:', as in (x > 0 ? x : 0)");
+    else
+        diag_error(r->diag, e->span,
+                   "expected a condition such as 'x > 0' here, found a "
+                   "number");
+    const DefInfo *d = expandable(r, e);
+    if (d)
+        note_def(r, d);
+    fail(r);
+}
+
+static int body_kind(Resolver *r, const AstExpr *e);
+
+/* Check that E is a condition (WANT_COND) or a number, unless checking
+ * its operands already reported an error. */
+static void want_kind(Resolver *r, const AstExpr *e, int want_cond)
+{
+    int errors = r->diag->errors;
+    int cond = body_kind(r, e);
+    if (cond != want_cond && r->diag->errors == errors)
+        kind_error(r, e, cond);
+}
+
+/* Whether the body of a def (its names checked) is a condition, checking
+ * that conditions and numbers are where they belong throughout, as
+ * lowering does in a definition; r->saw_cond is set when it holds a
+ * condition anywhere, which keeps the def out of constants. */
+static int body_kind(Resolver *r, const AstExpr *e)
+{
+    switch (e->kind) {
+    case AST_UNARY:
+        want_kind(r, e->args[0], e->op == AOP_NOT);
+        r->saw_cond |= e->op == AOP_NOT;
+        return e->op == AOP_NOT;
+    case AST_BINARY: {
+        IrOp op = binary_op(e->op);
+        int logic = op == IR_AND || op == IR_OR;
+        want_kind(r, e->args[0], logic);
+        want_kind(r, e->args[1], logic);
+        int cond = logic || ir_ops[op].kind == OPK_COMPARE;
+        r->saw_cond |= cond;
+        return cond;
+    }
+    case AST_SELECT:
+        want_kind(r, e->args[0], 1);
+        want_kind(r, e->args[1], 0);
+        want_kind(r, e->args[2], 0);
+        return 0;
+    case AST_CALL: {
+        const DefInfo *d = expandable(r, e);
+        for (int i = 0; i < e->nargs; i++)
+            want_kind(r, e->args[i], 0);
+        r->saw_cond |= d && !d->constant;
+        return d && d->is_cond;
+    }
+    default:
+        return 0;
+    }
+}
+
 /* -------------------------------------------------------------- lower */
 
 static int32_t binder_var(Resolver *r, int b)
@@ -775,32 +1254,18 @@ static NodeId lower_value(Resolver *r, const AstExpr *e)
 {
     int cond = 0, errors = r->diag->errors;
     NodeId n = lower(r, e, &cond);
-    if (cond && r->diag->errors > errors)
-        return ir_const(r->ir, 0);
-    if (cond) {
-        diag_error(r->diag, e->span,
-                   "a comparison is a condition, not a number: use it as "
-                   "the first operand of '?:', as in (x > 0 ? x : 0)");
-        fail(r);
-        return ir_const(r->ir, 0);
-    }
-    return n;
+    if (cond && r->diag->errors == errors)
+        kind_error(r, e, cond);
+    return cond ? ir_const(r->ir, 0) : n;
 }
 
 static NodeId lower_cond(Resolver *r, const AstExpr *e)
 {
     int cond = 0, errors = r->diag->errors;
     NodeId n = lower(r, e, &cond);
-    if (!cond && r->diag->errors > errors)
-        return ir_node(r->ir, IR_NE, n, ir_const(r->ir, 0), NO_NODE);
-    if (!cond) {
-        diag_error(r->diag, e->span,
-                   "expected a condition such as 'x > 0' here, found a "
-                   "number");
-        fail(r);
-        return ir_node(r->ir, IR_NE, n, ir_const(r->ir, 0), NO_NODE);
-    }
-    return n;
+    if (!cond && r->diag->errors == errors)
+        kind_error(r, e, cond);
+    return cond ? n : ir_node(r->ir, IR_NE, n, ir_const(r->ir, 0), NO_NODE);
 }
 
 /* Fold arithmetic on constants, which C would compute identically at run
@@ -976,25 +1441,33 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
     return ir_read(r->ir, acc, tuple);
 }
 
+/* A builtin, or a def expanded: its arguments lowered once, in the
+ * caller's scope, then its body with the parameters standing for them. */
+static NodeId lower_call(Resolver *r, const AstExpr *e, int *is_cond)
+{
+    int op = ir_builtin(e->name);
+    if (op >= 0) {
+        NodeId a[3] = {NO_NODE, NO_NODE, NO_NODE};
+        for (int i = 0; i < e->nargs; i++)
+            a[i] = lower_value(r, e->args[i]);
+        return ir_node(r->ir, (IrOp)op, a[0], a[1], a[2]);
+    }
+    const DefInfo *d = expandable(r, e);
+    NodeId *args = arena_alloc(r->arena, (size_t)e->nargs * sizeof *args);
+    for (int i = 0; i < e->nargs; i++)
+        args[i] = lower_value(r, e->args[i]);
+    Frame f = {d, args, NULL};
+    const Frame *outer = r->frame;
+    r->frame = &f;
+    NodeId n = lower(r, d->body, is_cond);
+    r->frame = outer;
+    arena_release(r->arena, args, (size_t)e->nargs * sizeof *args);
+    return n;
+}
+
 static NodeId lower_binary(Resolver *r, const AstExpr *e, int *is_cond)
 {
-    IrOp op = IR_ADD;
-    switch (e->op) {
-    case AOP_ADD: op = IR_ADD; break;
-    case AOP_SUB: op = IR_SUB; break;
-    case AOP_MUL: op = IR_MUL; break;
-    case AOP_DIV: op = IR_DIV; break;
-    case AOP_POW: op = IR_POW; break;
-    case AOP_LT: op = IR_LT; break;
-    case AOP_LE: op = IR_LE; break;
-    case AOP_GT: op = IR_GT; break;
-    case AOP_GE: op = IR_GE; break;
-    case AOP_EQ: op = IR_EQ; break;
-    case AOP_NE: op = IR_NE; break;
-    case AOP_AND: op = IR_AND; break;
-    case AOP_OR: op = IR_OR; break;
-    default: DV_UNREACHABLE();
-    }
+    IrOp op = binary_op(e->op);
     if (op == IR_AND || op == IR_OR) {
         *is_cond = 1;
         NodeId a = lower_cond(r, e->args[0]);
@@ -1017,6 +1490,9 @@ static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
     case AST_NUM:
         return ir_const(r->ir, e->num);
     case AST_NAME: {
+        int p = r->frame ? param_index(r->frame->def, e->name) : -1;
+        if (p >= 0)
+            return r->frame->nodes[p];
         Symbol *s = lookup(r, e->name);
         if (s->kind == SYM_CONST)
             return ir_const(r->ir, s->value);
@@ -1038,13 +1514,8 @@ static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
             vars[k] = binder_var(r, find_binder(r, e->args[k]->name));
         return ir_read(r->ir, s->array, ir_tuple(r->ir, vars, e->nargs));
     }
-    case AST_CALL: {
-        IrOp op = (IrOp)ir_builtin(e->name);
-        NodeId a[3] = {NO_NODE, NO_NODE, NO_NODE};
-        for (int i = 0; i < e->nargs; i++)
-            a[i] = lower_value(r, e->args[i]);
-        return ir_node(r->ir, op, a[0], a[1], a[2]);
-    }
+    case AST_CALL:
+        return lower_call(r, e, is_cond);
     case AST_REDUCE: {
         int unused = 0;
         return lower_reduce(r, e, -1, -1, &unused);
@@ -1071,7 +1542,8 @@ static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
 
 /* -------------------------------------------------------- definitions */
 
-static void resolve_define(Resolver *r, const AstStmt *s)
+/* Start resolving the definition S (of a value or a def). */
+static void begin_definition(Resolver *r, const AstStmt *s)
 {
     r->stmt = s;
     r->target_name = s->name;
@@ -1081,7 +1553,11 @@ static void resolve_define(Resolver *r, const AstStmt *s)
     r->elem_rank = -1;
     r->failed = 0;
     r->ntemps = 0;
+}
 
+static void resolve_define(Resolver *r, const AstStmt *s)
+{
+    begin_definition(r, s);
     int ok = definable(r, s->name, s->name_span);
     for (int i = 0; i < s->nindex; i++) {
         int b = bind(r, s->index[i]->name, s->index[i]->span);
@@ -1094,6 +1570,8 @@ static void resolve_define(Resolver *r, const AstStmt *s)
         fail(r);
     }
     infer(r, s->expr);
+    if (!r->failed && !expansion_fits(r, s->expr))
+        fail(r);
     for (int i = 0; i < r->scope.len; i++) {
         Binder *b = &r->binders.items[r->scope.items[i]];
         if (b->extent == EXTENT_UNKNOWN && !r->failed) {
@@ -1161,6 +1639,88 @@ static void resolve_define(Resolver *r, const AstStmt *s)
                     make_stmt(r, SK_SET, target, tuple, tuple, e));
 }
 
+/* A copy of a def's body that outlives its statement's tree. */
+static AstExpr *copy_expr(Resolver *r, const AstExpr *e)
+{
+    AstExpr *c = arena_alloc(r->arena, sizeof *c);
+    *c = *e;
+    if (e->name)
+        c->name = copy_name(r, e->name);
+    c->args = arena_alloc(r->arena, (size_t)e->nargs * sizeof *c->args);
+    for (int i = 0; i < e->nargs; i++)
+        c->args[i] = copy_expr(r, e->args[i]);
+    /* a body holds no reduction, so bound and body stay empty */
+    c->bound = NULL;
+    c->nbound = 0;
+    c->body = NULL;
+    return c;
+}
+
+/* def NAME(params) = body: the body is checked here, once, as if each
+ * parameter were a number; a def that passes keeps a copy of it and the
+ * measures of its expansion. */
+static void resolve_def(Resolver *r, const AstStmt *s)
+{
+    Symbol *sym = table_find(&r->symbols, s->name);
+    DefInfo *d = sym && sym->kind == SYM_LATER && sym->def &&
+                         sym->def->name_span.off == s->name_span.off
+                     ? sym->def
+                     : new_def(r, s->name, s->name_span);
+    begin_definition(r, s);
+    int ok = definable(r, s->name, s->name_span);
+    d->nparams = 0;
+    d->params = arena_alloc(r->arena, (size_t)s->nnames * sizeof *d->params);
+    for (int i = 0; i < s->nnames; i++) {
+        const AstExpr *p = s->names[i];
+        const char *why = names_reserved(p->name, r->ir->model);
+        if (why) {
+            diag_error(r->diag, p->span, "'%s' %s; choose another name",
+                       p->name, why);
+            fail(r);
+        }
+        int k = param_index(d, p->name);
+        if (k >= 0) {
+            diag_error(r->diag, p->span,
+                       "parameter '%s' is listed twice in '%s'", p->name,
+                       s->name);
+            diag_note(r->diag, s->names[k]->span, "'%s' is first bound here",
+                      p->name);
+            fail(r);
+        }
+        d->params[d->nparams++] = copy_name(r, p->name);
+    }
+    r->def = d;
+    infer(r, s->expr);
+    r->saw_cond = 0;
+    if (!r->failed)
+        d->is_cond = body_kind(r, s->expr);
+    d->constant = !r->saw_cond;
+    if (!r->failed) {
+        d->body = copy_expr(r, s->expr);
+        Measure m = measure(r, d->body, 1);
+        d->depth = m.depth;
+        d->size = m.size;
+        d->param_depth = arena_alloc(r->arena, (size_t)d->nparams *
+                                                   sizeof *d->param_depth);
+        d->param_uses = arena_alloc(r->arena, (size_t)d->nparams *
+                                                  sizeof *d->param_uses);
+        for (int i = 0; i < d->nparams; i++) {
+            Measure u = param_uses(r, d->body, i);
+            d->param_depth[i] = u.depth;
+            d->param_uses[i] = u.size;
+        }
+    }
+    r->def = NULL;
+    if (!ok) {
+        insert_failed(r, s->name, s->name_span);
+        return;
+    }
+    sym = insert(r, s->name, s->name_span);
+    sym->kind = SYM_DEF;
+    sym->def = d;
+    sym->failed = r->failed;
+}
+
 static void resolve_output(Resolver *r, const AstStmt *s)
 {
     for (int i = 0; i < s->nnames; i++) {
@@ -1180,7 +1740,9 @@ static void resolve_output(Resolver *r, const AstStmt *s)
         if (sym->kind != SYM_ARRAY) {
             diag_error(r->diag, n->span,
                        "'%s' is a %s; an output must depend on the params",
-                       n->name, sym->kind == SYM_SIZE ? "size" : "constant");
+                       n->name, sym->kind == SYM_SIZE  ? "size"
+                                : sym->kind == SYM_DEF ? "function"
+                                                       : "constant");
             continue;
         }
         if (r->noutputs > 1) {
@@ -1327,8 +1889,52 @@ static void prune(Resolver *r)
 
 /* -------------------------------------------------------------- model */
 
-/* First pass over a statement: note the names it defines (an index may
- * not take a name the model defines anywhere) and where it is. */
+typedef VEC(const char *) NameList;
+typedef VEC(Span) SpanList;
+
+/* Collect the functions an expression calls, and where (first pass). */
+static void collect_calls(Resolver *r, const AstExpr *e, NameList *names,
+                          SpanList *at)
+{
+    if (e->kind == AST_CALL && ir_builtin(e->name) < 0) {
+        VEC_PUSH(r->arena, *names, copy_name(r, e->name));
+        VEC_PUSH(r->arena, *at, e->name_span);
+    }
+    for (int i = 0; i < e->nargs; i++)
+        collect_calls(r, e->args[i], names, at);
+}
+
+/* First pass over a def: note it and the functions its body calls. */
+static void outline_def(Resolver *r, const AstStmt *s)
+{
+    if (table_find(&r->symbols, s->name))
+        return;     /* defined twice: reported when resolved */
+    DefInfo *d = new_def(r, s->name, s->name_span);
+    NameList calls = {0};
+    SpanList spans = {0};
+    collect_calls(r, s->expr, &calls, &spans);
+    d->calls = calls.items;
+    d->call_spans = spans.items;
+    d->ncalls = calls.len;
+    table_insert(r->arena, &r->symbols, d->name, s->name_span)->def = d;
+}
+
+/* First pass: note the names a statement defines (an index may not take
+ * a name the model defines anywhere). */
+static void outline_names(Resolver *r, const AstStmt *s)
+{
+    if (s->kind == STMT_CONST || s->kind == STMT_DEFINE)
+        note_name(r, s->name, s->name_span);
+    if (s->kind == STMT_DEF)
+        outline_def(r, s);
+    for (int k = 0; k < s->ndecls; k++)
+        note_name(r, s->decls[k].name, s->decls[k].span);
+    for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
+        note_name(r, s->names[k]->name, s->names[k]->span);
+}
+
+/* First pass over the model's own statements: their names, and where the
+ * model statements are. */
 static void outline(Resolver *r, const AstStmt *s)
 {
     if (s->kind == STMT_MODEL) {
@@ -1336,35 +1942,235 @@ static void outline(Resolver *r, const AstStmt *s)
                         copy_name(r, s->name)};
         VEC_PUSH(r->arena, r->models, ms);
     }
-    if (s->kind == STMT_CONST || s->kind == STMT_DEFINE)
-        note_name(r, s->name, s->name_span);
-    for (int k = 0; k < s->ndecls; k++)
-        note_name(r, s->decls[k].name, s->decls[k].span);
-    for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
-        note_name(r, s->names[k]->name, s->names[k]->span);
+    outline_names(r, s);
     r->last_span = s->span;
     r->nstmts++;
 }
 
-/* Between the passes: the model's name, and the names of statements that
- * failed to parse, whose uses stay quiet. */
-static void start(Resolver *r, const char *const *failed, int nfailed,
-                  const char *name, const char *stem)
+/* Names that statements which failed to parse were defining: their uses
+ * stay quiet. */
+static void note_unparsed(Resolver *r, const char *const *failed, int n)
 {
-    r->ir->model = model_name(r, name, stem);
-    check_model_name(r);
-    for (int i = 0; i < nfailed; i++)
+    for (int i = 0; i < n; i++)
         if (!table_find(&r->unparsed, failed[i])) {
             Span none = {0, 0};
             table_insert(r->arena, &r->unparsed, failed[i], none);
         }
 }
 
+/* Between the passes: the model's name, and the names of statements that
+ * failed to parse. */
+static void start(Resolver *r, const char *const *failed, int nfailed,
+                  const char *name, const char *stem)
+{
+    r->ir->model = model_name(r, name, stem);
+    check_model_name(r);
+    note_unparsed(r, failed, nfailed);
+}
+
+static void resolve_stmt(Resolver *r, const AstStmt *s);
+
+static void visit_names(void *r, const AstStmt *s)
+{
+    outline_names(r, s);
+}
+
+static void visit_stmt(void *r, const AstStmt *s)
+{
+    resolve_stmt(r, s);
+}
+
+/* Both passes over SRC: the first with VISIT, reporting syntax errors;
+ * the second, silent about the syntax, resolving each statement. */
+static void read_twice(Resolver *r, const Source *src,
+                       void (*visit)(void *, const AstStmt *),
+                       const char *name, const char *stem)
+{
+    ParseVisitor first = {visit, r, NULL, 0};
+    parse_each(r->arena, r->diag, src, &first);
+    if (visit == visit_names)
+        note_unparsed(r, first.failed, first.nfailed);
+    else
+        start(r, first.failed, first.nfailed, name, stem);
+    Diag quiet;
+    diag_init(&quiet, r->diag->src, NULL);
+    quiet.files = r->diag->files;
+    quiet.max_errors = r->diag->max_errors;
+    ParseVisitor second = {visit_stmt, r, NULL, 0};
+    parse_each(r->arena, &quiet, src, &second);
+}
+
+/* ---------------------------------------------------------- used files */
+
+/* PATH's identity, if it names an existing file. */
+static FileId file_id(const char *path, Span used_at)
+{
+    FileId f;
+    struct stat st;
+    memset(&f, 0, sizeof f);
+    if (stat(path, &st) == 0) {
+        f.dev = st.st_dev;
+        f.ino = st.st_ino;
+        f.known = 1;
+    }
+    f.path = path;
+    f.used_at = used_at;
+    return f;
+}
+
+static int same_file(const FileId *a, const FileId *b)
+{
+    return a->known && b->known && a->dev == b->dev && a->ino == b->ino;
+}
+
+/* NAME in the directory the first N bytes of DIR name ("" is the current
+ * directory). */
+static const char *join_path(Resolver *r, const char *dir, size_t n,
+                             const char *name)
+{
+    return arena_printf(r->arena, "%.*s%s%s", (int)n, dir,
+                        n > 0 && dir[n - 1] != '/' ? "/" : "", name);
+}
+
+/* Where a file named NAME used by the file FROM may be, in the order they
+ * are tried: beside FROM, then in each -I directory (an absolute NAME is
+ * only itself).  *n gets the count. */
+static const char **search_paths(Resolver *r, const char *from,
+                                 const char *name, int *n)
+{
+    const SourceSet *set = r->diag->files;
+    const char **list = arena_alloc(r->arena, (size_t)(set->ndirs + 1) *
+                                                  sizeof *list);
+    *n = 0;
+    if (name[0] == '/') {
+        list[(*n)++] = name;
+        return list;
+    }
+    const char *slash = strrchr(from, '/');
+    list[(*n)++] = join_path(r, from, slash ? (size_t)(slash - from) + 1 : 0,
+                             name);
+    for (int i = 0; i < set->ndirs; i++)
+        list[(*n)++] = join_path(r, set->dirs[i], strlen(set->dirs[i]), name);
+    return list;
+}
+
+/* use "FILE": find the file and read its statements here, unless it was
+ * read already (each file is read once) or is being read (a cycle).
+ * Returns 0 after reporting why it cannot be read. */
+static int use_file(Resolver *r, const AstStmt *s)
+{
+    if (!r->diag->files)
+        DV_UNREACHABLE();   /* resolve.h: the caller gives the file set */
+    const FileId *from = &r->reading.items[r->reading.len - 1];
+    if (!s->path[0]) {
+        diag_error(r->diag, s->path_span,
+                   "'use' needs a file name between the quotes");
+        return 0;
+    }
+    int n, k = 0;
+    const char **paths = search_paths(r, from->path, s->path, &n);
+    struct stat st;
+    while (k < n && stat(paths[k], &st) != 0)
+        k++;
+    if (k == n) {
+        char *tried = arena_printf(r->arena, "%s", paths[0]);
+        for (int i = 1; i < n; i++)
+            tried = arena_printf(r->arena, "%s, %s", tried, paths[i]);
+        diag_error(r->diag, s->path_span, "cannot find '%s' (tried %s)",
+                   s->path, tried);
+        return 0;
+    }
+    if (!S_ISREG(st.st_mode) && !S_ISDIR(st.st_mode)) {
+        /* a device or a pipe may never end (a directory fails to read) */
+        diag_error(r->diag, s->path_span,
+                   "'%s' is not a regular file, so it cannot be used",
+                   paths[k]);
+        return 0;
+    }
+    FileId id = file_id(paths[k], s->path_span);
+    for (int i = 0; i < r->reading.len; i++)
+        if (same_file(&r->reading.items[i], &id)) {
+            char *chain = arena_printf(r->arena, "%s",
+                                       r->reading.items[i].path);
+            for (int j = i + 1; j < r->reading.len; j++)
+                chain = arena_printf(r->arena, "%s uses %s", chain,
+                                     r->reading.items[j].path);
+            diag_error(r->diag, s->path_span,
+                       "the files use each other in a cycle: %s uses %s",
+                       chain, r->reading.items[i].path);
+            return 0;
+        }
+    for (int i = 0; i < r->read.len; i++)
+        if (same_file(&r->read.items[i], &id))
+            return 1;
+    if (r->reading.len > MAX_USE_DEPTH) {
+        diag_error(r->diag, s->path_span,
+                   "used files nest more than %d deep", MAX_USE_DEPTH);
+        return 0;
+    }
+    size_t len;
+    char *text = fileio_read(id.path, &len);
+    if (!text) {
+        diag_error(r->diag, s->path_span,
+                   "cannot read '%s', the file used here", id.path);
+        return 0;
+    }
+    SourceFile *f = source_set_add(r->diag->files, id.path, text, len);
+    if (!f) {
+        diag_error(r->diag, s->path_span,
+                   "the model and the files it uses come to more than "
+                   "4 GiB of text");
+        return 0;
+    }
+    VEC_PUSH(r->arena, r->read, id);
+    VEC_PUSH(r->arena, r->reading, id);
+    read_twice(r, &f->src, visit_names, NULL, NULL);
+    r->reading.len--;
+    return 1;
+}
+
+/* A file that cannot be read may define names used later: their uses
+ * stay quiet. */
+static void resolve_use_stmt(Resolver *r, const AstStmt *s)
+{
+    if (!use_file(r, s))
+        r->lost_file = 1;
+}
+
+/* A statement other than const, def and use in a used file: refused, and
+ * the names it defines stay quiet. */
+static void refuse_in_used(Resolver *r, const AstStmt *s)
+{
+    static const char *const kinds[] = {
+        [STMT_MODEL] = "'model'", [STMT_INPUT] = "'input'",
+        [STMT_PARAM] = "'param'", [STMT_SIZE] = "'size'",
+        [STMT_DEFINE] = "a definition", [STMT_OUTPUT] = "'output'",
+    };
+    const FileId *f = &r->reading.items[r->reading.len - 1];
+    diag_error(r->diag, s->span,
+               "a used file may hold only const, def and use statements, "
+               "not %s", kinds[s->kind]);
+    diag_note(r->diag, f->used_at, "'%s' is used here", f->path);
+    if (s->kind == STMT_DEFINE)
+        insert_failed(r, s->name, s->name_span);
+    for (int k = 0; k < s->ndecls; k++)
+        insert_failed(r, s->decls[k].name, s->decls[k].span);
+    for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
+        insert_failed(r, s->names[k]->name, s->names[k]->span);
+}
+
+/* ---------------------------------------------------------- statements */
+
 /* Second pass: resolve a statement. */
 static void resolve_stmt(Resolver *r, const AstStmt *s)
 {
     if (r->diag->errors > r->diag->max_errors)
         return;
+    if (r->reading.len > 1 && s->kind != STMT_CONST && s->kind != STMT_DEF &&
+        s->kind != STMT_USE) {
+        refuse_in_used(r, s);
+        return;
+    }
     switch (s->kind) {
     case STMT_MODEL:
         break;
@@ -1386,6 +2192,12 @@ static void resolve_stmt(Resolver *r, const AstStmt *s)
         r->has_output = 1;
         r->last_output = s->span;
         break;
+    case STMT_DEF:
+        resolve_def(r, s);
+        break;
+    case STMT_USE:
+        resolve_use_stmt(r, s);
+        break;
     }
 }
 
@@ -1402,6 +2214,10 @@ static void release_resolver(Resolver *r)
                   (size_t)r->binders.cap * sizeof *r->binders.items);
     arena_release(r->arena, r->scope.items,
                   (size_t)r->scope.cap * sizeof *r->scope.items);
+    arena_release(r->arena, r->reading.items,
+                  (size_t)r->reading.cap * sizeof *r->reading.items);
+    arena_release(r->arena, r->read.items,
+                  (size_t)r->read.cap * sizeof *r->read.items);
 }
 
 /* After the last statement: what the whole model lacks, then pruning. */
@@ -1434,11 +2250,6 @@ static void visit_outline(void *r, const AstStmt *s)
     outline(r, s);
 }
 
-static void visit_stmt(void *r, const AstStmt *s)
-{
-    resolve_stmt(r, s);
-}
-
 Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
                   const AstModel *m, const char *name, const char *stem)
 {
@@ -1448,6 +2259,8 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     r.diag = diag;
     r.src = src;
     r.ir = ir_new(arena, src);
+    Span none = {0, 0};
+    VEC_PUSH(arena, r.reading, file_id(src->path, none));
     if (m) {
         for (int i = 0; i < m->nstmts; i++)
             outline(&r, m->stmts[i]);
@@ -1457,16 +2270,7 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
         return finish(&r);
     }
     /* No tree given: parse src twice, each statement's tree freed once it
-     * is visited, so a model of any length is never held as a tree.  The
-     * first pass reports the syntax errors and outlines the model; the
-     * second, silent about the syntax, resolves. */
-    ParseVisitor first = {visit_outline, &r, NULL, 0};
-    parse_each(arena, diag, src, &first);
-    start(&r, first.failed, first.nfailed, name, stem);
-    Diag quiet;
-    diag_init(&quiet, src, NULL);
-    quiet.max_errors = diag->max_errors;
-    ParseVisitor second = {visit_stmt, &r, NULL, 0};
-    parse_each(arena, &quiet, src, &second);
+     * is visited, so a model of any length is never held as a tree. */
+    read_twice(&r, src, visit_outline, name, stem);
     return finish(&r);
 }

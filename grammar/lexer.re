@@ -39,10 +39,18 @@ static int continues(int code)
     }
 }
 
+/* The span offset of a byte of the source: its offset in the file plus
+ * the file's base, so spans tell the files of a compilation apart. */
+static uint32_t offset_of(const Lexer *lx, const unsigned char *at)
+{
+    return diag_base(lx->diag, lx->src) +
+           (uint32_t)(at - (const unsigned char *)lx->src->text);
+}
+
 static Span span_of(const Lexer *lx, const unsigned char *start)
 {
     Span s;
-    s.off = (uint32_t)(start - (const unsigned char *)lx->src->text);
+    s.off = offset_of(lx, start);
     s.len = (uint32_t)(lx->cur - start);
     return s;
 }
@@ -92,7 +100,7 @@ static Token scan(Lexer *lx)
     t.num = 0;
     for (;;) {
         const unsigned char *start = lx->cur;
-        t.span.off = (uint32_t)(start - (const unsigned char *)lx->src->text);
+        t.span.off = offset_of(lx, start);
         t.span.len = 0;
         /*!re2c
         re2c:define:YYCTYPE = "unsigned char";
@@ -203,7 +211,8 @@ Token lex_next(Lexer *lx)
             if (lx->open.len > 0 && !lx->failed_at_end) {
                 Span open = lx->open.items[lx->open.len - 1];
                 diag_error(lx->diag, open, "'%c' is never closed",
-                           lx->src->text[open.off]);
+                           lx->src->text[open.off -
+                                         diag_base(lx->diag, lx->src)]);
                 lx->error_in_stmt = 1;
                 lx->failed_at_end = 1;
             }

@@ -78,10 +78,10 @@ stmt(S) ::= NAME(N) LBRACKET exprs(L) RBRACKET ASSIGN expr(E).
     { S = parse_define_indexed(ps, N, L, E); }
 stmt(S) ::= SIZE(K) exprs(L).
     { S = parse_names(ps, STMT_SIZE, K, L); }
-stmt(S) ::= DEF(K) NAME LPAREN exprs RPAREN ASSIGN expr.
-    { S = parse_later(ps, K, "'def' functions are"); }
-stmt(S) ::= USE(K) STRING.
-    { S = parse_later(ps, K, "'use' (reading another model file) is"); }
+stmt(S) ::= DEF(K) NAME(N) LPAREN exprs(L) RPAREN ASSIGN expr(E).
+    { S = parse_def(ps, K, N, L, E); }
+stmt(S) ::= USE(K) STRING(P).
+    { S = parse_use(ps, K, P); }
 
 decls(D) ::= decl(A).                   { D = parse_decls(ps, NULL, A); }
 decls(D) ::= decls(L) COMMA decl(A).    { D = parse_decls(ps, &L, A); }

@@ -33,6 +33,12 @@
  * errors (limit is 20); stopping" right after the 20th, and such a case
  * gives "expect-summary: more than 20 errors; nothing written".
  *
+ * A model may use the files in tests/bad/used (each run gets a copy of
+ * that directory beside the model, as used/), as in `use "used/x.dvs"`.
+ * An expect line for a message about one of them names it first:
+ * "# expect: used/x.dvs:L:C: KIND: MESSAGE"; its line numbers are the
+ * file's own.
+ *
  * Other comment lines are free text; "# fixed:" lines record how dervish
  * once fell short of the expectation, so the case guards against a
  * regression.  Line numbers count the header lines, as dervish does.
@@ -48,6 +54,7 @@
 
 #define BAD_DIR "tests/bad"
 #define INDEX_PATH BAD_DIR "/INDEX"
+#define USED "used/"        /* the files models may use, in BAD_DIR */
 #define MIN_CASES 80
 #define MAX_EXPECT 8
 #define ERROR_LIMIT 20      /* dervish shows at most this many errors */
@@ -239,6 +246,17 @@ static int past_limit(const Expect *x)
 
 /* ---------------------------------------------------------- diagnostics */
 
+/* The file a message line "FILE:L:C: ..." is about, when it is the
+ * case's model FILE or a file in used/, or NULL (malloc'd). */
+static char *message_file(const char *line, const char *file)
+{
+    size_t n = strcspn(line, ":");
+    if ((n == strlen(file) && strncmp(line, file, n) == 0) ||
+        (after(line, USED) && line[n] == ':'))
+        return tu_format("%.*s", (int)n, line);
+    return NULL;
+}
+
 /* The parts of a message line "FILE:L:C: KIND: text"; 0 if it is not one. */
 static int message_parts(const char *line, const char *file, int *l, int *c,
                          const char **kind)
@@ -345,18 +363,32 @@ static void check_diagnostics(char *err, const Expect *x, const char *src,
     for (; i < n; i++) {
         int l, c;
         const char *kind;
-        if (!message_parts(lines[i], file, &l, &c, &kind))
+        char *about = message_file(lines[i], file);
+        if (!about || !message_parts(lines[i], about, &l, &c, &kind)) {
+            free(about);
             break;
+        }
         if (nmsg < x->nmsg) {
-            char *want = tu_format("%s:%s", file, x->msg[nmsg]);
+            char *want = after(x->msg[nmsg], USED)
+                             ? tu_format("%s", x->msg[nmsg])
+                             : tu_format("%s:%s", file, x->msg[nmsg]);
             ck_assert_msg(strcmp(lines[i], want) == 0,
                           "%s: message %d: expected\n%s\nfound\n%s", file,
                           nmsg + 1, want, lines[i]);
             free(want);
         }
-        check_excerpt(src, len, l, c, i + 1 < n ? lines[i + 1] : NULL,
+        /* a message about a used file shows that file's line */
+        size_t used_len = 0;
+        char *used_path = tu_format("%s/%s", BAD_DIR, about);
+        char *used_src = strcmp(about, file) != 0
+                             ? read_bytes(used_path, &used_len) : NULL;
+        check_excerpt(used_src ? used_src : src, used_src ? used_len : len,
+                      l, c, i + 1 < n ? lines[i + 1] : NULL,
                       i + 2 < n ? lines[i + 2] : NULL,
-                      nmsg == 0 ? x->caret : NULL, file);
+                      nmsg == 0 ? x->caret : NULL, about);
+        free(used_src);
+        free(used_path);
+        free(about);
         nerr += strcmp(kind, "error: ") == 0;
         nwarn += strcmp(kind, "warning: ") == 0;
         nmsg++;
@@ -418,6 +450,29 @@ static int holds(const char *dir, const char *name, const char *text)
     return same;
 }
 
+/* A copy of BAD_DIR/used in DIR, for the models that use its files. */
+static void copy_used(const char *dir)
+{
+    int n;
+    char **names = list_dir(BAD_DIR "/" USED, NULL, &n);
+    ck_assert_msg(names != NULL, "%s/%s is missing", BAD_DIR, USED);
+    char *to = tu_format("%s/%s", dir, USED);
+    ck_assert_int_eq(mkdir(to, 0700), 0);
+    for (int i = 0; i < n; i++) {
+        size_t len;
+        char *from = tu_format("%s/%s%s", BAD_DIR, USED, names[i]);
+        char *text = read_bytes(from, &len);
+        char *copy = tu_format("%s%s", to, names[i]);
+        write_bytes(copy, text, len);
+        free(copy);
+        free(text);
+        free(from);
+        free(names[i]);
+    }
+    free(names);
+    free(to);
+}
+
 START_TEST(bad_model)
 {
     const char *file = case_names[_i];
@@ -435,9 +490,11 @@ START_TEST(bad_model)
     ck_assert_int_eq(mkdir(dir, 0700), 0);
     char *copy = tu_format("%s/%s", dir, file);
     write_bytes(copy, src, len);
-    const char *only_model[] = {file};
-    const char *with_outputs[] = {file, "out.c", "out.h"};
-    qsort(with_outputs, 3, sizeof with_outputs[0], by_name);
+    copy_used(dir);
+    const char *only_model[] = {file, "used"};
+    const char *with_outputs[] = {file, "out.c", "out.h", "used"};
+    qsort(only_model, 2, sizeof only_model[0], by_name);
+    qsort(with_outputs, 4, sizeof with_outputs[0], by_name);
 
     /* First run: outputs appear only when the model builds. */
     char *err = NULL;
@@ -447,13 +504,13 @@ START_TEST(bad_model)
     char *first = tu_format("%s", err);
     check_diagnostics(err, &x, src, len, file, closing);
     if (builds) {
-        assert_dir_holds(dir, with_outputs, 3, file);
+        assert_dir_holds(dir, with_outputs, 4, file);
         char *c_text = tu_read_in(dir, "out.c");
         ck_assert_msg(c_text && strstr(c_text, "#include \"out.h\""),
                       "%s: out.c is not the emitted source", file);
         free(c_text);
     } else {
-        assert_dir_holds(dir, only_model, 1, file);
+        assert_dir_holds(dir, only_model, 2, file);
     }
 
     /* Second run over older outputs: replaced when the model builds, kept
@@ -470,7 +527,7 @@ START_TEST(bad_model)
     ck_assert_msg(holds(dir, "out.h", sentinel_h) == !builds,
                   "%s: out.h was %s", file,
                   builds ? "not replaced" : "changed by a failed build");
-    assert_dir_holds(dir, with_outputs, 3, file);
+    assert_dir_holds(dir, with_outputs, 4, file);
 
     /* Warnings refused by --fail-on-warning: the same messages, status 1,
      * and nothing written. */
@@ -485,7 +542,7 @@ START_TEST(bad_model)
         ck_assert_msg(holds(dir, "out.c", sentinel_c) &&
                           holds(dir, "out.h", sentinel_h),
                       "%s: --fail-on-warning wrote an output", file);
-        assert_dir_holds(dir, with_outputs, 3, file);
+        assert_dir_holds(dir, with_outputs, 4, file);
     }
 
     free(err);
@@ -544,7 +601,10 @@ static char **asserted_lines(const char *file, int *n)
     *n = 0;
     int nwarn = 0;
     for (int k = 0; k < x.nmsg; k++) {
-        const char *m = x.msg[k] + strspn(x.msg[k], "0123456789:");
+        const char *m = x.msg[k];
+        if (after(m, USED))
+            m = strchr(m, ':');     /* the file's name */
+        m += strspn(m, "0123456789:");
         lines[(*n)++] = tu_format("%s", m + strspn(m, " "));
         nwarn += after(lines[*n - 1], "warning: ") != NULL;
     }

@@ -24,16 +24,23 @@ static const char *const roles_model =
     "y    = u - bias\n"
     "output y\n";
 
-/* The DOT for model TEXT (malloc'd), through the library. */
-static char *graph_of(const char *text, int sweep)
+/* The DOT for model TEXT read as the file PATH (malloc'd), through the
+ * library. */
+static char *graph_of_file(const char *path, const char *text, int sweep)
 {
     DvCompilation c;
-    tu_compile(&c, "m.dvs", text);
+    tu_compile(&c, path, text);
     Buf out = {0};
-    GraphOptions o = {"m.dvs", sweep};
+    GraphOptions o = {path, sweep};
     graph_write(c.ir, &o, &out);
     dv_free(&c);
     return out.data;
+}
+
+/* The DOT for model TEXT (malloc'd). */
+static char *graph_of(const char *text, int sweep)
+{
+    return graph_of_file("m.dvs", text, sweep);
 }
 
 /* The line declaring the one node labelled exactly LABEL (as written in
@@ -387,8 +394,9 @@ START_TEST(samples_are_acyclic_and_swept_against_the_flow)
     char **models = sample_models();
     Parsed *p = calloc(1, sizeof *p);
     for (int m = 0; models[m]; m++) {
+        /* read as that file, so the files it uses are found beside it */
         char *text = tu_read(models[m]);
-        char *dot = graph_of(text, 1);
+        char *dot = graph_of_file(models[m], text, 1);
         parse_graph(dot, p);
         ck_assert_msg(acyclic(p), "%s: the graph has a cycle", models[m]);
         int numbered = 0;

@@ -446,11 +446,11 @@ START_TEST(statement_level_messages)
                  "t.dvs:1:9: error: 'size' takes names, as in 'size n, m'\n"
                  "    size N, 2\n"
                  "            ^\n");
-    check_errors("def f(x) = x\n", 1,
-                 "t.dvs:1:1: error: 'def' functions are not supported by "
-                 "this version of dervish\n"
-                 "    def f(x) = x\n"
-                 "    ^~~\n");
+    check_errors("def f(x, 2) = x\n", 1,
+                 "t.dvs:1:10: error: a def's parameters are names, as in "
+                 "'def f(x, y) = ...'\n"
+                 "    def f(x, 2) = x\n"
+                 "             ^\n");
 }
 END_TEST
 
