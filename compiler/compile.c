@@ -6,6 +6,7 @@
 #include "resolve.h"
 #include "reverse.h"
 #include "stream.h"
+#include "tangent.h"
 
 #include <string.h>
 
@@ -27,6 +28,18 @@ const char *dv_stem(Arena *a, const char *path)
     return arena_strndup(a, base, n);
 }
 
+/* c->paths from the model and the files its uses read. */
+static void list_paths(DvCompilation *c)
+{
+    int n = 1;
+    for (const SourceFile *f = c->files.first; f; f = f->next)
+        n++;
+    c->paths = arena_alloc(&c->arena, (size_t)n * sizeof *c->paths);
+    c->paths[c->npaths++] = c->src.path;
+    for (const SourceFile *f = c->files.first; f; f = f->next)
+        c->paths[c->npaths++] = f->src.path;
+}
+
 int dv_compile(DvCompilation *c, const char *path, const char *text,
                size_t len, const DvOptions *opt)
 {
@@ -40,17 +53,23 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->src.len = len;
     source_index_lines(&c->src);
     diag_init(&c->diag, &c->src, opt->diag_out);
+    source_set_init(&c->files, &c->src, opt->include_dirs, opt->ninclude);
+    c->diag.files = &c->files;
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
     c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
+    c->emit = opt->emit ? opt->emit : DV_EMIT_DEFAULT;
 
     /* resolve parses the source itself, one statement's tree at a time */
     Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, NULL, opt->name,
                            dv_stem(&c->arena, path));
+    list_paths(c);
     if (c->diag.errors)
         return 1;
     ir_verify(ir);
     stream_plan(ir);
     reverse_pass(ir);
+    if (c->emit & (DV_EMIT_TANGENT | DV_EMIT_HESSVEC))
+        tangent_pass(ir, c->emit & DV_EMIT_TANGENT, c->emit & DV_EMIT_HESSVEC);
     /* the passes that make nodes are done: give the node table back */
     arena_release(&c->arena, ir->node_hash,
                   (size_t)ir->node_hash_cap * sizeof *ir->node_hash);
@@ -71,6 +90,7 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.version = DERVISH_VERSION;
     o.stack_limit = c->stack_limit;
     o.part_size = c->part_size;
+    o.emit = c->emit;
     emit_c(c->ir, &o, c_out, h_out);
 }
 
@@ -109,6 +129,7 @@ void dv_explain(const DvCompilation *c, FILE *out)
 
 void dv_free(DvCompilation *c)
 {
+    source_set_free(&c->files);
     source_free_lines(&c->src);
     arena_free(&c->arena);
 }

@@ -17,11 +17,22 @@
  * many statements is written as parts of about this many. */
 #define DV_PART_SIZE 100
 
+/* The functions dervish build emits (DvOptions.emit, --emit), as bits. */
+enum { DV_EMIT_VALUE = 1, DV_EMIT_GRADIENT = 2, DV_EMIT_TANGENT = 4,
+       DV_EMIT_HESSVEC = 8 };
+#define DV_EMIT_DEFAULT (DV_EMIT_VALUE | DV_EMIT_GRADIENT)
+
 typedef struct DvOptions {
     const char *name;       /* --name: symbol prefix, or NULL */
     FILE *diag_out;         /* where diagnostics go; NULL: nowhere */
     long stack_limit;       /* --stack-limit; 0 means DV_STACK_LIMIT */
     long part_size;         /* --part-size; 0 means DV_PART_SIZE */
+    int emit;               /* --emit: DV_EMIT_* bits; 0 means the default */
+    /* -I: where 'use' looks for a file after the directory of the file
+     * that uses it, in this order (the strings must outlive the
+     * compilation) */
+    const char *const *include_dirs;
+    int ninclude;
 } DvOptions;
 
 typedef struct DvCompilation {
@@ -31,6 +42,14 @@ typedef struct DvCompilation {
     Ir *ir;                 /* after the reverse pass; NULL on errors */
     long stack_limit;       /* for the emitter */
     long part_size;         /* for the emitter */
+    int emit;               /* DV_EMIT_* bits: what is emitted and checked */
+    SourceSet files;        /* the files 'use' statements read */
+    /* Every file the compilation read, for the dependencies of its
+     * outputs: the model's path as given, then each used file's as found
+     * (relative to the current directory unless absolute), in the order
+     * first read, each once.  Set whether or not the model has errors. */
+    const char **paths;
+    int npaths;
 } DvCompilation;
 
 /* Compile model text (len bytes; a copy is taken) read from PATH.

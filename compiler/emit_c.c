@@ -16,7 +16,9 @@
 #include <stdlib.h>
 #include <string.h>
 
-typedef enum Function { FN_VALUE, FN_GRADIENT } Function;
+typedef enum Function {
+    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_COUNT
+} Function;
 
 typedef struct Emitter {
     const Ir *ir;
@@ -24,8 +26,14 @@ typedef struct Emitter {
     Buf *out;
     Function fn;
     char *declared;     /* per array: declared in the current function */
-    char *argpos_read;  /* per array: a reverse statement reads it */
-    int uses_p, uses_in, uses_grad, uses_frame;
+    char *argpos_read[FN_COUNT];    /* per function, per array: a statement
+                                       of that function reads it (the winner
+                                       of a max or min is found only when
+                                       it is read) */
+    const IrStmtList *fwd;  /* the function's forward statements */
+    const IrStmtList *rev;  /* and its reverse sweep, or NULL */
+    const IrStmtList *lists[FN_COUNT][2];   /* fwd and rev of each */
+    int uses_p, uses_in, uses_grad, uses_dir, uses_hv, uses_frame;
     uint32_t last_origin;
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
@@ -168,17 +176,22 @@ static int precedence(const Ir *ir, NodeId id)
 static void emit_access(Emitter *e, int32_t array, int32_t tuple)
 {
     const IrArray *a = &e->ir->arrays.items[array];
-    const IrArray *base = a->role == ROLE_ADJOINT
-                              ? &e->ir->arrays.items[a->primal] : a;
-    if (a->role == ROLE_PARAM) {
+    IrHome home = ir_home(e->ir, a);
+    if (home == HOME_P) {
         buf_put(e->out, DV_PREFIX "p->");
         e->uses_p = 1;
     } else if (a->role == ROLE_INPUT) {
         buf_put(e->out, DV_PREFIX "in->");
         e->uses_in = 1;
-    } else if (a->role == ROLE_ADJOINT && base->role == ROLE_PARAM) {
+    } else if (home == HOME_GRAD) {
         buf_put(e->out, DV_PREFIX "grad->");
         e->uses_grad = 1;
+    } else if (home == HOME_DIR) {
+        buf_put(e->out, DV_PREFIX "dir->");
+        e->uses_dir = 1;
+    } else if (home == HOME_HV) {
+        buf_put(e->out, DV_PREFIX "hv->");
+        e->uses_hv = 1;
     } else if (e->dry) {
         if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
             e->framed[array] = 1;
@@ -344,10 +357,7 @@ static int has_shared(Emitter *e, NodeId id)
 
 static int is_external(const IrArray *a, const Ir *ir)
 {
-    if (a->role == ROLE_PARAM || a->role == ROLE_INPUT)
-        return 1;
-    return a->role == ROLE_ADJOINT &&
-           ir->arrays.items[a->primal].role == ROLE_PARAM;
+    return a->role == ROLE_INPUT || ir_home(ir, a) != HOME_LOCAL;
 }
 
 static const char *c_type(const IrArray *a)
@@ -360,8 +370,7 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
 {
     const Ir *ir = e->ir;
     const IrArray *t = &ir->arrays.items[s->target];
-    int needs_argpos = s->argpos >= 0 && e->fn == FN_GRADIENT &&
-                       e->argpos_read[s->argpos];
+    int needs_argpos = s->argpos >= 0 && e->argpos_read[e->fn][s->argpos];
     indent(e, depth);
     const IrNode *x = ir_at(ir, s->expr);
     switch (s->kind) {
@@ -555,9 +564,8 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     const Ir *ir = e->ir;
     const IrStmt *s0 = s[0];
     const IrArray *t0 = &ir->arrays.items[s0->target];
-    if (t0->role == ROLE_ARGPOS && !(e->fn == FN_GRADIENT &&
-                                     e->argpos_read[s0->target]))
-        return;     /* only the reverse sweep reads a winner's position */
+    if (t0->role == ROLE_ARGPOS && !e->argpos_read[e->fn][s0->target])
+        return;     /* only derivatives read a winner's position */
 
     if (s0->origin.off != e->last_origin) {
         int line, col;
@@ -787,6 +795,13 @@ static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
     buf_printf(h, "} %s;\n\n", type);
 }
 
+static const char *fn_name(Function fn)
+{
+    static const char *const names[] = {"value", "gradient", "tangent",
+                                        "hessvec"};
+    return names[fn];
+}
+
 /* Prototypes, shared by the header and the definitions.  The header names
  * the arguments plainly; definitions use the reserved prefix so that model
  * names such as p or in cannot collide with them. */
@@ -794,15 +809,80 @@ static void signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
                       const char *prefix)
 {
     const char *m = ir->model;
-    buf_printf(b, "double %s_%s(const %s_param *%sp", m,
-               fn == FN_VALUE ? "value" : "gradient", m, prefix);
+    buf_printf(b, "double %s_%s(const %s_param *%sp", m, fn_name(fn), m,
+               prefix);
     if (has_inputs(ir))
         buf_printf(b, ", const %s_input *%sin", m, prefix);
-    if (fn == FN_GRADIENT)
+    if (fn == FN_TANGENT || fn == FN_HESSVEC)
+        buf_printf(b, ", const %s_param *%sdir", m, prefix);
+    if (fn == FN_TANGENT)
+        buf_printf(b, ", double *%sdvalue", prefix);
+    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
         buf_printf(b, ", %s_param *%sgrad", m, prefix);
+    if (fn == FN_HESSVEC)
+        buf_printf(b, ", %s_param *%shv", m, prefix);
     if (st->uses_work)
         buf_printf(b, ", double *%swork", prefix);
     buf_put(b, ")");
+}
+
+/* "value and gradient", "value, gradient and tangent", ...: the banner's
+ * words for what is emitted. */
+static const char *what_is_emitted(const Ir *ir, int emit)
+{
+    const char *words = "";
+    int n = 0, total = 0;
+    for (int fn = 0; fn < FN_COUNT; fn++)
+        total += (emit >> fn) & 1;
+    for (int fn = 0; fn < FN_COUNT; fn++)
+        if (emit & (1 << fn)) {
+            n++;
+            words = arena_printf(ir->arena, "%s%s%s", words,
+                                 n == 1 ? "" : n == total ? " and " : ", ",
+                                 fn_name((Function)fn));
+        }
+    return words;
+}
+
+/* What a function does, for the header. */
+static void function_comment(Buf *h, const Ir *ir, Function fn, int sized)
+{
+    const char *m = ir->model, *out = ir->arrays.items[ir->output].name;
+    switch (fn) {
+    case FN_VALUE:
+        buf_printf(h, "/* Returns the model's output, %s%s. */\n", out,
+                   sized ? " (NaN when a size is negative or too large)" : "");
+        break;
+    case FN_GRADIENT:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does and overwrites every member "
+                   "of\n * *grad with the derivative of %s with respect to that "
+                   "param%s. */\n", out, m, out,
+                   sized ? "\n * (leaving *grad unchanged when it returns NaN "
+                           "for invalid sizes)" : "");
+        break;
+    case FN_TANGENT:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does and sets *dvalue to its "
+                   "derivative along\n * dir: the gradient times dir, the "
+                   "sum over all params of the\n * derivative with respect "
+                   "to it times its member of *dir%s. */\n", out, m,
+                   sized ? "\n * (leaving *dvalue unchanged when it returns "
+                           "NaN for invalid sizes)" : "");
+        break;
+    case FN_HESSVEC:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does, writes its gradient into "
+                   "*grad as\n * %s_gradient does, and overwrites every member "
+                   "of *hv with the\n * Hessian of %s times dir: the "
+                   "derivative of that member of the\n * gradient along "
+                   "dir%s. */\n", out, m, m, out,
+                   sized ? "\n * (leaving *grad and *hv unchanged when it "
+                           "returns NaN for invalid sizes)" : "");
+        break;
+    case FN_COUNT:
+        break;
+    }
 }
 
 static void emit_header(const Ir *ir, const EmitOptions *opt,
@@ -810,13 +890,13 @@ static void emit_header(const Ir *ir, const EmitOptions *opt,
 {
     const char *m = ir->model;
     char *M = upper(m);
-    const char *out = ir->arrays.items[ir->output].name;
     buf_printf(h,
-               "/* %s - value and gradient of the model %s (%s).\n"
+               "/* %s - %s of the model %s (%s).\n"
                " * Generated by dervish %s; edit the model, not this file. */\n"
                "#ifndef DVS_%s_H\n#define DVS_%s_H\n\n%s"
                "#ifdef __cplusplus\nextern \"C\" {\n#endif\n\n",
-               opt->header_name, m, opt->model_file, opt->version, M, M,
+               opt->header_name, what_is_emitted(ir, opt->emit), m,
+               opt->model_file, opt->version, M, M,
                st->uses_work ? "#include <stddef.h>\n\n" : "");
     buf_printf(h, "#define %s_PARAM_COUNT %ld   /* doubles in %s_param */\n\n",
                M, param_count(ir), m);
@@ -833,27 +913,20 @@ static void emit_header(const Ir *ir, const EmitOptions *opt,
         emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
                     "The inputs: data, not differentiated.");
     if (st->uses_work) {
-        buf_printf(h,
-                   "/* The doubles the work argument of %s_value and %s_gradient "
-                   "must\n * hold (0 allowed: then work may be NULL); 0 also "
-                   "when a size is\n * negative or the count overflows. */\n",
-                   m, m);
+        buf_put(h, "/* The doubles the work argument of the functions below "
+                   "must hold\n * (0 allowed: then work may be NULL); 0 also "
+                   "when a size is\n * negative or the count overflows. */\n");
         layout_prototype(h, ir, st, "");
         buf_put(h, ";\n\n");
     }
-    buf_printf(h, "/* Returns the model's output, %s%s. */\n", out,
-               st->uses_work ? " (NaN when a size is negative or too large)"
-                             : "");
-    signature(h, ir, st, FN_VALUE, "");
-    buf_put(h, ";\n\n");
-    buf_printf(h,
-               "/* Returns %s as %s_value does and overwrites every member of\n"
-               " * *grad with the derivative of %s with respect to that param%s. */\n",
-               out, m, out,
-               st->uses_work ? "\n * (leaving *grad unchanged when it returns NaN "
-                               "for invalid sizes)" : "");
-    signature(h, ir, st, FN_GRADIENT, "");
-    buf_put(h, ";\n\n#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
+    for (int fn = 0; fn < FN_COUNT; fn++) {
+        if (!(opt->emit & (1 << fn)))
+            continue;
+        function_comment(h, ir, (Function)fn, st->uses_work);
+        signature(h, ir, st, (Function)fn, "");
+        buf_put(h, ";\n\n");
+    }
+    buf_put(h, "#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
     free(M);
 }
 
@@ -934,8 +1007,8 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
     e->base = 2;
     e->last_origin = UINT32_MAX;
     for (int i = fwd_from; i >= 0 && i < fwd_to; i++) {
-        e->row_var = ir->forward.items[i].row_var;
-        emit_stmt(e, &ir->forward.items[i], "");
+        e->row_var = e->fwd->items[i].row_var;
+        emit_stmt(e, &e->fwd->items[i], "");
     }
     if (fwd_from >= 0 && fwd_from < fwd_to) {
         /* the row's adjoints start a new paragraph with their own labels */
@@ -944,14 +1017,14 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
     }
     if (recompute) {
         char *need = calloc((size_t)ir->arrays.len + 1, 1);
-        char *redo = calloc((size_t)ir->forward.len + 1, 1);
+        char *redo = calloc((size_t)e->fwd->len + 1, 1);
         if (!need || !redo)
             exit(3);
         for (int i = from; i < to; i++)
             if (list->items[i].row_var >= 0)
                 mark_reads(ir, list->items[i].expr, need);
-        for (int i = ir->forward.len - 1; i >= 0; i--) {
-            const IrStmt *s = &ir->forward.items[i];
+        for (int i = e->fwd->len - 1; i >= 0; i--) {
+            const IrStmt *s = &e->fwd->items[i];
             if (s->row_var >= 0 && ir->arrays.items[s->target].row_local &&
                 need[s->target]) {
                 redo[i] = 1;
@@ -959,10 +1032,10 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
             }
         }
         int any = 0;
-        for (int i = 0; i < ir->forward.len; i++)
+        for (int i = 0; i < e->fwd->len; i++)
             if (redo[i]) {
-                e->row_var = ir->forward.items[i].row_var;
-                emit_stmt(e, &ir->forward.items[i], "");
+                e->row_var = e->fwd->items[i].row_var;
+                emit_stmt(e, &e->fwd->items[i], "");
                 any = 1;
             }
         free(need);
@@ -1054,33 +1127,35 @@ static int reads_marked(const Ir *ir, NodeId id, const char *marked)
  * reads anything that needs all the rows (a sum over them, or a value
  * computed after them): then each row's adjoints are known while the row
  * is at hand, and the rows are not read twice. */
-static int one_pass(const Ir *ir, OnePass *op)
+static int one_pass(const Emitter *e, OnePass *op)
 {
-    if (ir->row_size < 0)
+    const Ir *ir = e->ir;
+    const IrStmtList *fwd = e->fwd, *rev = e->rev;
+    if (ir->row_size < 0 || !rev)
         return 0;
     int f = 0;
-    while (f < ir->forward.len && ir->forward.items[f].row_var < 0)
+    while (f < fwd->len && fwd->items[f].row_var < 0)
         f++;
     int fend = f;
-    while (fend < ir->forward.len && ir->forward.items[fend].row_var >= 0)
+    while (fend < fwd->len && fwd->items[fend].row_var >= 0)
         fend++;
     int r = 0;
-    while (r < ir->reverse.len && ir->reverse.items[r].row_var < 0)
+    while (r < rev->len && rev->items[r].row_var < 0)
         r++;
-    if (f == ir->forward.len || r == ir->reverse.len)
+    if (f == fwd->len || r == rev->len)
         return 0;
     /* the zeroing statements just before the run belong to it */
-    while (r > 0 && is_zeroing(ir, &ir->reverse.items[r - 1]))
+    while (r > 0 && is_zeroing(ir, &rev->items[r - 1]))
         r--;
-    int rend = row_run_end(ir, &ir->reverse, r);
-    for (int i = rend; i < ir->reverse.len; i++)
-        if (ir->reverse.items[i].row_var >= 0)
+    int rend = row_run_end(ir, rev, r);
+    for (int i = rend; i < rev->len; i++)
+        if (rev->items[i].row_var >= 0)
             return 0;       /* a second run */
     char *late = calloc((size_t)ir->arrays.len + 1, 1);
     if (!late)
         exit(3);
-    for (int i = f; i < ir->forward.len; i++) {
-        const IrStmt *s = &ir->forward.items[i];
+    for (int i = f; i < fwd->len; i++) {
+        const IrStmt *s = &fwd->items[i];
         if (i >= fend || !ir->arrays.items[s->target].row_local)
             late[s->target] = 1;
         if (s->argpos >= 0)
@@ -1088,7 +1163,7 @@ static int one_pass(const Ir *ir, OnePass *op)
     }
     int ok = 1;
     for (int i = 0; i < rend && ok; i++)
-        ok = !reads_marked(ir, ir->reverse.items[i].expr, late);
+        ok = !reads_marked(ir, rev->items[i].expr, late);
     free(late);
     op->fwd_from = f;
     op->fwd_to = fend;
@@ -1105,11 +1180,6 @@ static int one_pass(const Ir *ir, OnePass *op)
  * over thousands of values live at once), linear over many short ones.
  * The values one part computes and another reads live in a frame struct
  * the parts share. */
-static const char *fn_name(Function fn)
-{
-    return fn == FN_VALUE ? "value" : "gradient";
-}
-
 /* The parameter list a part takes: the function's own arguments, but
  * work (whose arrays the frame points into), and the frame. */
 static void part_params(Buf *b, const Emitter *e, Function fn, int named)
@@ -1118,8 +1188,12 @@ static void part_params(Buf *b, const Emitter *e, Function fn, int named)
     buf_printf(b, "(const %s_param *%s", m, named ? DV_PREFIX "p" : "");
     if (e->storage.has_input)
         buf_printf(b, ", const %s_input *%s", m, named ? DV_PREFIX "in" : "");
-    if (fn == FN_GRADIENT)
+    if (fn == FN_TANGENT || fn == FN_HESSVEC)
+        buf_printf(b, ", const %s_param *%s", m, named ? DV_PREFIX "dir" : "");
+    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
         buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "grad" : "");
+    if (fn == FN_HESSVEC)
+        buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "hv" : "");
     buf_printf(b, ", struct " DV_PREFIX "%s_frame *%s)", fn_name(fn),
                named ? DV_PREFIX "f" : "");
 }
@@ -1141,15 +1215,20 @@ static void close_part(Emitter *e)
             buf_put(t, "    (void)" DV_PREFIX "p;\n");
         if (e->storage.has_input && !e->uses_in)
             buf_put(t, "    (void)" DV_PREFIX "in;\n");
-        if (e->fn == FN_GRADIENT && !e->uses_grad)
+        if ((e->fn == FN_TANGENT || e->fn == FN_HESSVEC) && !e->uses_dir)
+            buf_put(t, "    (void)" DV_PREFIX "dir;\n");
+        if ((e->fn == FN_GRADIENT || e->fn == FN_HESSVEC) && !e->uses_grad)
             buf_put(t, "    (void)" DV_PREFIX "grad;\n");
+        if (e->fn == FN_HESSVEC && !e->uses_hv)
+            buf_put(t, "    (void)" DV_PREFIX "hv;\n");
         if (!e->uses_frame)
             buf_put(t, "    (void)" DV_PREFIX "f;\n");
         buf_putn(t, body->data, body->len);
         buf_put(t, "}\n");
     }
     body->len = 0;
-    e->uses_p = e->uses_in = e->uses_grad = e->uses_frame = 0;
+    e->uses_p = e->uses_in = e->uses_grad = e->uses_dir = e->uses_hv = 0;
+    e->uses_frame = 0;
 }
 
 static void new_part(Emitter *e)
@@ -1176,17 +1255,18 @@ static void sweep_heading(Emitter *e, const char *text)
 {
     if (e->parted && e->part_stmts > 0)
         new_part(e);
-    else if (!e->parted && e->ir->forward.len > 0)
+    else if (!e->parted && e->fwd->len > 0)
         buf_put(e->out, "\n");
     buf_put(e->out, text);
     e->last_origin = UINT32_MAX;
 }
 
 /* The statements of a function, in order, to e->out (or its parts). */
-static void emit_sweeps(Emitter *e, Function fn)
+static void emit_sweeps(Emitter *e)
 {
     const Ir *ir = e->ir;
-    e->uses_p = e->uses_in = e->uses_grad = e->uses_frame = 0;
+    e->uses_p = e->uses_in = e->uses_grad = e->uses_dir = e->uses_hv = 0;
+    e->uses_frame = 0;
     e->ntemps = 0;
     e->base = 1;
     e->row_var = -1;
@@ -1194,34 +1274,34 @@ static void emit_sweeps(Emitter *e, Function fn)
     e->part = 1;
     e->part_stmts = 0;
     memset(e->declared, 0, (size_t)ir->arrays.len);
+    const IrStmtList *fwd = e->fwd, *rev = e->rev;
     OnePass op;
-    if (fn == FN_GRADIENT && one_pass(ir, &op)) {
+    if (one_pass(e, &op)) {
         /* forward before the rows; the adjoints that need nothing from
          * the rows; one loop doing each row's value and adjoints; the
          * forward after the rows; the rest of the reverse sweep */
-        emit_list(e, &ir->forward, 0, op.fwd_from, 0, "");
+        emit_list(e, fwd, 0, op.fwd_from, 0, "");
         sweep_heading(e, "    /* The reverse sweep, last statement first; the "
                          "rows' values and\n     * adjoints share one pass. */\n");
-        emit_list(e, &ir->reverse, 0, op.rev_from, 0, "adjoint of: ");
-        emit_rows(e, &ir->reverse, op.rev_from, op.rev_to, 0, op.fwd_from,
-                  op.fwd_to, "adjoint of: ");
-        emit_list(e, &ir->forward, op.fwd_to, ir->forward.len, 0, "");
-        e->last_origin = UINT32_MAX;
-        emit_list(e, &ir->reverse, op.rev_to, ir->reverse.len, 0,
+        emit_list(e, rev, 0, op.rev_from, 0, "adjoint of: ");
+        emit_rows(e, rev, op.rev_from, op.rev_to, 0, op.fwd_from, op.fwd_to,
                   "adjoint of: ");
+        emit_list(e, fwd, op.fwd_to, fwd->len, 0, "");
+        e->last_origin = UINT32_MAX;
+        emit_list(e, rev, op.rev_to, rev->len, 0, "adjoint of: ");
     } else {
-        emit_list(e, &ir->forward, 0, ir->forward.len, 0, "");
-        if (fn == FN_GRADIENT) {
+        emit_list(e, fwd, 0, fwd->len, 0, "");
+        if (rev) {
             sweep_heading(e, "    /* The reverse sweep: adjoints, last "
                              "statement first. */\n");
-            emit_list(e, &ir->reverse, 0, ir->reverse.len, 1, "adjoint of: ");
+            emit_list(e, rev, 0, rev->len, 1, "adjoint of: ");
         }
     }
 }
 
 /* A dry run of a function written in parts marks in e->framed the arrays
- * the frame must hold: those referred to in two parts, the output (the
- * function returns it), and those in work (the function points to them
+ * the frame must hold: those referred to in two parts, the output and
+ * its tangent (the function returns them), and those in work (the function points to them
  * once).  A row's own arrays are the row block's locals. */
 static void plan_frame(Emitter *e, Function fn)
 {
@@ -1231,10 +1311,12 @@ static void plan_frame(Emitter *e, Function fn)
         e->ref_part[i] = 0;
     e->dry = 1;
     e->out = &e->part_body;
-    emit_sweeps(e, fn);
+    emit_sweeps(e);
     close_part(e);
     e->dry = 0;
     e->framed[ir->output] = 1;
+    if (fn == FN_TANGENT && ir->arrays.items[ir->output].varied)
+        e->framed[ir->arrays.items[ir->output].tangent] = 1;
     for (int i = 0; i < ir->arrays.len; i++) {
         const IrArray *a = &ir->arrays.items[i];
         if (e->storage.slot[i] >= 0)
@@ -1295,9 +1377,14 @@ static void emit_part_calls(Emitter *e, Function fn, Buf *body)
                      DV_PREFIX "k++)\n        " DV_PREFIX "%s_parts[" DV_PREFIX
                      "k](" DV_PREFIX "p, %s%s&" DV_PREFIX "frame);\n",
                e->part, f, e->storage.has_input ? DV_PREFIX "in, " : "",
-               fn == FN_GRADIENT ? DV_PREFIX "grad, " : "");
+               fn == FN_GRADIENT  ? DV_PREFIX "grad, "
+               : fn == FN_TANGENT ? DV_PREFIX "dir, "
+               : fn == FN_HESSVEC ? DV_PREFIX "dir, " DV_PREFIX "grad, "
+                                    DV_PREFIX "hv, "
+                                  : "");
     e->uses_p = 1;
     e->uses_in = 1;
+    e->uses_dir = 1;
     e->part = 0;        /* the return reads the frame itself */
 }
 
@@ -1308,22 +1395,32 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     e->fn = fn;
     e->text = c;
     e->row_name = ir->row_size >= 0 ? row_counter(ir) : NULL;
-    e->parted = ir->forward.len + (fn == FN_GRADIENT ? ir->reverse.len : 0) >
-                4 * e->opt->part_size;
+    e->fwd = e->lists[fn][0];
+    e->rev = e->lists[fn][1];
+    int nstmts = e->fwd->len + (e->rev ? e->rev->len : 0);
+    e->parted = nstmts > 4 * e->opt->part_size;
     if (e->parted) {
         plan_frame(e, fn);
         emit_frame(e, fn);
         e->out = &e->part_body;
-        emit_sweeps(e, fn);
+        emit_sweeps(e);
         close_part(e);
         emit_part_calls(e, fn, &body);
         e->out = &body;
     } else {
         e->out = &body;
-        emit_sweeps(e, fn);
+        emit_sweeps(e);
+    }
+    int32_t none = ir_tuple((Ir *)ir, NULL, 0);
+    if (fn == FN_TANGENT) {
+        buf_put(&body, "\n    *" DV_PREFIX "dvalue = ");
+        if (ir->arrays.items[ir->output].varied)
+            emit_access(e, ir->arrays.items[ir->output].tangent, none);
+        else
+            buf_put(&body, "0.0");  /* the output does not depend on p */
+        buf_put(&body, ";");
     }
     buf_put(&body, "\n    return ");
-    int32_t none = ir_tuple((Ir *)ir, NULL, 0);
     emit_access(e, ir->output, none);
     buf_put(&body, ";\n}\n");
 
@@ -1332,6 +1429,8 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     buf_put(c, "\n{\n");
     if (!e->uses_p)
         buf_put(c, "    (void)" DV_PREFIX "p;\n");
+    if ((fn == FN_TANGENT || fn == FN_HESSVEC) && !e->uses_dir)
+        buf_put(c, "    (void)" DV_PREFIX "dir;\n");   /* no param matters */
     if (e->storage.uses_work) {
         /* sizes are checked before anything is computed or written */
         int work_read = 0;
@@ -1359,7 +1458,6 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     emit_header(ir, opt, &e.storage, h);
 
     e.declared = calloc((size_t)ir->arrays.len + 1, 1);
-    e.argpos_read = calloc((size_t)ir->arrays.len + 1, 1);
     char *reached = calloc((size_t)ir->nodes.len + 1, 1);
     e.seen = calloc((size_t)ir->nodes.len + 1, sizeof *e.seen);
     e.uses = calloc((size_t)ir->nodes.len + 1, sizeof *e.uses);
@@ -1367,20 +1465,35 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     e.visit = calloc((size_t)ir->nodes.len + 1, sizeof *e.visit);
     e.ref_part = calloc((size_t)ir->arrays.len + 1, sizeof *e.ref_part);
     e.framed = calloc((size_t)ir->arrays.len + 1, 1);
-    if (!e.declared || !e.argpos_read || !reached || !e.seen || !e.uses ||
-        !e.temp || !e.visit || !e.ref_part || !e.framed)
+    if (!e.declared || !reached || !e.seen || !e.uses || !e.temp ||
+        !e.visit || !e.ref_part || !e.framed)
         exit(3);
-    ir_mark_reached(ir, &ir->reverse, reached);
-    for (int i = 0; i < ir->nodes.len; i++) {
-        const IrNode *n = &ir->nodes.items[i];
-        if (reached[i] && n->op == IR_READ &&
-            ir->arrays.items[n->array].role == ROLE_ARGPOS)
-            e.argpos_read[n->array] = 1;
+    /* what each function reads: the runtime helpers of the emitted ones
+     * are copied, and winners found where they are read */
+    const IrStmtList *const lists[FN_COUNT][2] = {
+        {&ir->forward, NULL}, {&ir->forward, &ir->reverse},
+        {&ir->tangent, NULL}, {&ir->hv_forward, &ir->hv_reverse}};
+    memcpy(e.lists, lists, sizeof lists);
+    for (int fn = 0; fn < FN_COUNT; fn++) {
+        e.argpos_read[fn] = calloc((size_t)ir->arrays.len + 1, 1);
+        char *mine = calloc((size_t)ir->nodes.len + 1, 1);
+        if (!e.argpos_read[fn] || !mine)
+            exit(3);
+        for (int l = 0; l < 2 && lists[fn][l]; l++)
+            ir_mark_reached(ir, lists[fn][l], mine);
+        for (int i = 0; i < ir->nodes.len; i++) {
+            const IrNode *n = &ir->nodes.items[i];
+            if (mine[i] && n->op == IR_READ &&
+                ir->arrays.items[n->array].role == ROLE_ARGPOS)
+                e.argpos_read[fn][n->array] = 1;
+            if (opt->emit & (1 << fn))
+                reached[i] |= mine[i];
+        }
+        free(mine);
     }
-    ir_mark_reached(ir, &ir->forward, reached);
 
     buf_printf(c,
-               "/* %s - value and gradient of the model %s (%s).\n"
+               "/* %s - %s of the model %s (%s).\n"
                " * Generated by dervish %s; edit the model, not this file.\n"
                " * Needs only <math.h> (link with -lm); no globals, no heap. */\n"
                "#include \"%s\"\n\n#include <math.h>\n\n"
@@ -1388,15 +1501,17 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
                " * %s_PARAM_COUNT doubles, with no padding. */\n"
                "typedef char " DV_PREFIX "param_is_flat[sizeof(%s_param) == "
                "%s_PARAM_COUNT * sizeof(double) ? 1 : -1];\n",
-               opt->source_name, m, opt->model_file, opt->version,
-               opt->header_name, m, M, m, M);
+               opt->source_name, what_is_emitted(ir, opt->emit), m,
+               opt->model_file, opt->version, opt->header_name, m, M, m, M);
     emit_helpers(ir, reached, &e.storage, c);
     if (e.storage.uses_work)
         layout_emit(c, ir, &e.storage);
-    emit_function(&e, FN_VALUE, c);
-    emit_function(&e, FN_GRADIENT, c);
+    for (int fn = 0; fn < FN_COUNT; fn++) {
+        if (opt->emit & (1 << fn))
+            emit_function(&e, (Function)fn, c);
+        free(e.argpos_read[fn]);
+    }
     free(e.declared);
-    free(e.argpos_read);
     free(reached);
     free(e.seen);
     free(e.uses);

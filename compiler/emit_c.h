@@ -14,6 +14,9 @@ typedef struct EmitOptions {
     long stack_limit;           /* most doubles in one local array; larger
                                    arrays go to the caller's work buffer */
     long part_size;             /* statements in a part of a long function */
+    int emit;                   /* the functions emitted: bit 0 value, bit 1
+                                   gradient, bit 2 tangent (DV_EMIT_* in
+                                   dervish.h) */
 } EmitOptions;
 
 /* Append the source to c and the header to h. */

@@ -9,10 +9,7 @@
  * the gradient, which the caller owns). */
 static int is_local(const Ir *ir, const IrArray *a)
 {
-    if (a->role == ROLE_PARAM || a->role == ROLE_INPUT)
-        return 0;
-    return !(a->role == ROLE_ADJOINT &&
-             ir->arrays.items[a->primal].role == ROLE_PARAM);
+    return a->role != ROLE_INPUT && ir_home(ir, a) == HOME_LOCAL;
 }
 
 static void mark_targets(const IrStmtList *list, char *written)
@@ -31,6 +28,9 @@ Storage layout_plan(const Ir *ir, long stack_limit)
         exit(3);
     mark_targets(&ir->forward, written);
     mark_targets(&ir->reverse, written);
+    mark_targets(&ir->tangent, written);
+    mark_targets(&ir->hv_forward, written);
+    mark_targets(&ir->hv_reverse, written);
     for (int i = 0; i < ir->arrays.len; i++) {
         const IrArray *a = &ir->arrays.items[i];
         st.slot[i] = -1;

@@ -41,6 +41,8 @@ struct Evaluation {
     long *idx;          /* per index var: its value at the current point */
     Plan *fplan;        /* per forward statement */
     Plan *rplan;        /* per reverse statement */
+    Plan *tplan;        /* per statement of the tangent list */
+    Plan *hfplan, *hrplan;  /* per statement of the Hessian-vector lists */
     long nparams;
     double **param;     /* per flat param entry: where it is stored */
     int blocked;        /* complex step: first op without a complex form that
@@ -176,6 +178,9 @@ Evaluation *eval_new_sized(const Ir *ir, const long *sizes)
     int now = 0;
     ev->fplan = make_plans(ir, &ir->forward, stamp, &now, stack);
     ev->rplan = make_plans(ir, &ir->reverse, stamp, &now, stack);
+    ev->tplan = make_plans(ir, &ir->tangent, stamp, &now, stack);
+    ev->hfplan = make_plans(ir, &ir->hv_forward, stamp, &now, stack);
+    ev->hrplan = make_plans(ir, &ir->hv_reverse, stamp, &now, stack);
     free(stamp);
     free(stack);
     return ev;
@@ -208,6 +213,9 @@ void eval_free(Evaluation *ev)
     free(ev->param);
     free_plans(ev->fplan, ev->ir->forward.len);
     free_plans(ev->rplan, ev->ir->reverse.len);
+    free_plans(ev->tplan, ev->ir->tangent.len);
+    free_plans(ev->hfplan, ev->ir->hv_forward.len);
+    free_plans(ev->hrplan, ev->ir->hv_reverse.len);
     free(ev);
 }
 
@@ -364,6 +372,53 @@ double eval_gradient(Evaluation *ev, double *grad)
             grad[k++] = a->adjoint >= 0 ? ev->data[a->adjoint][e] : 0.0;
     }
     return y;
+}
+
+/* The direction into the params' tangents (flat param order). */
+static void set_direction(Evaluation *ev, const double *dir)
+{
+    const Ir *ir = ev->ir;
+    long k = 0;
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (a->role != ROLE_PARAM)
+            continue;
+        for (long e = 0; e < ev->count[i]; e++, k++)
+            if (a->tangent >= 0)
+                ev->data[a->tangent][e] = dir[k];
+    }
+}
+
+double eval_hessvec(Evaluation *ev, const double *dir, double *grad,
+                    double *hv)
+{
+    const Ir *ir = ev->ir;
+    set_direction(ev, dir);
+    run_list(ev, &ir->hv_forward, ev->hfplan);
+    run_list(ev, &ir->hv_reverse, ev->hrplan);
+    long k = 0;
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (a->role != ROLE_PARAM)
+            continue;
+        const IrArray *adj = &ir->arrays.items[a->adjoint];
+        for (long e = 0; e < ev->count[i]; e++, k++) {
+            grad[k] = ev->data[a->adjoint][e];
+            hv[k] = ev->data[adj->tangent][e];
+        }
+    }
+    return ev->data[ir->output][0];
+}
+
+double eval_tangent(Evaluation *ev, const double *dir, double *dvalue)
+{
+    const Ir *ir = ev->ir;
+    set_direction(ev, dir);
+    run_list(ev, &ir->tangent, ev->tplan);
+    const IrArray *out = &ir->arrays.items[ir->output];
+    *dvalue = out->varied && out->tangent >= 0 ? ev->data[out->tangent][0]
+                                               : 0.0;
+    return ev->data[ir->output][0];
 }
 
 /* ------------------------------------------------------- complex step */
@@ -573,7 +628,7 @@ EvalStep eval_complex_step(Evaluation *ev, long k, double h)
     for (int i = 0; i < ir->arrays.len; i++) {
         const IrArray *a = &ir->arrays.items[i];
         long n = ev->count[i];
-        if (a->role == ROLE_ADJOINT)
+        if (a->role == ROLE_ADJOINT || a->role == ROLE_TANGENT)
             continue;
         if (!ev->cdata[i])
             ev->cdata[i] = xcalloc((size_t)n, sizeof(Cplx));

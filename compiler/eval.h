@@ -49,6 +49,17 @@ double eval_value(Evaluation *ev);
  * (forward statements, then the reverse sweep). */
 double eval_gradient(Evaluation *ev, double *grad);
 
+/* The output, and in *dvalue its derivative along dir[count] (flat param
+ * order): the tangent statements, which must have been made
+ * (tangent_pass). */
+double eval_tangent(Evaluation *ev, const double *dir, double *dvalue);
+
+/* The output, its gradient in grad[count] and the Hessian times dir[count]
+ * in hv[count] (flat param order): the Hessian-vector lists, which must
+ * have been made (tangent_pass). */
+double eval_hessvec(Evaluation *ev, const double *dir, double *grad,
+                    double *hv);
+
 /* A complex-step evaluation: the forward statements in complex arithmetic
  * with param entry k moved by i*h. */
 typedef struct EvalStep {

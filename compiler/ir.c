@@ -1,6 +1,7 @@
 /* ir.c - construction of IR nodes, tuples, arrays and statements, with
  * hash-consing, plus the IR's printer and verifier; see ir.h. */
 #include "ir.h"
+#include "names.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -195,6 +196,22 @@ NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c)
     return intern(ir, &n);
 }
 
+NodeId ir_flat_point(Ir *ir, int32_t reduced)
+{
+    int n = ir_tuple_len(ir, reduced);
+    const int32_t *v = ir_tuple_vars(ir, reduced);
+    NodeId pos = ir_index(ir, v[0]);
+    for (int k = 1; k < n; k++) {
+        int extent = ir->vars.items[v[k]].extent;
+        NodeId e = IR_EXTENT_IS_SIZE(extent)
+                       ? ir_size(ir, IR_EXTENT_SIZE(extent))
+                       : ir_const(ir, extent);
+        pos = ir_node(ir, IR_ADD, ir_node(ir, IR_MUL, pos, e, NO_NODE),
+                      ir_index(ir, v[k]), NO_NODE);
+    }
+    return pos;
+}
+
 /* ------------------------------------------------------------- tuples */
 
 static uint64_t tuple_key(int n, const int32_t *vars)
@@ -274,9 +291,49 @@ int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
     }
     a.span = span;
     a.adjoint = -1;
+    a.tangent = -1;
     a.primal = -1;
     VEC_PUSH(ir->arena, ir->arrays, a);
     return ir->arrays.len - 1;
+}
+
+int32_t ir_whole_tuple(Ir *ir, int32_t array)
+{
+    static const char *const names[] = {DV_PREFIX "i0", DV_PREFIX "i1",
+                                        DV_PREFIX "i2", DV_PREFIX "i3",
+                                        DV_PREFIX "i4", DV_PREFIX "i5",
+                                        DV_PREFIX "i6", DV_PREFIX "i7"};
+    int32_t vars[IR_MAX_RANK];
+    int rank = ir->arrays.items[array].rank;
+    for (int k = 0; k < rank; k++)
+        vars[k] = ir_add_var(ir, names[k], ir->arrays.items[array].dim[k]);
+    return ir_tuple(ir, vars, rank);
+}
+
+IrHome ir_home(const Ir *ir, const IrArray *a)
+{
+    if (a->role == ROLE_PARAM)
+        return HOME_P;
+    if (a->role != ROLE_ADJOINT && a->role != ROLE_TANGENT)
+        return HOME_LOCAL;
+    IrHome of = ir_home(ir, &ir->arrays.items[a->primal]);
+    if (of == HOME_P)
+        return a->role == ROLE_ADJOINT ? HOME_GRAD : HOME_DIR;
+    return of == HOME_GRAD && a->role == ROLE_TANGENT ? HOME_HV : HOME_LOCAL;
+}
+
+int32_t ir_add_derived(Ir *ir, int32_t array, IrRole role, const char *kind)
+{
+    const IrArray *a = &ir->arrays.items[array];
+    size_t skip = a->role == ROLE_TEMP ? strlen(DV_PREFIX) : 0;
+    const char *name = ir_home(ir, a) != HOME_LOCAL
+                           ? a->name
+                           : arena_printf(ir->arena, DV_PREFIX "%s_%s", kind,
+                                          a->name + skip);
+    int32_t d = ir_add_array(ir, name, role, a->rank, a->dim, a->span);
+    ir->arrays.items[d].primal = array;
+    ir->arrays.items[d].row_local = ir->arrays.items[array].row_local;
+    return d;
 }
 
 int32_t ir_add_var(Ir *ir, const char *name, int extent)
@@ -412,6 +469,9 @@ void ir_verify(const Ir *ir)
         DV_UNREACHABLE();
     verify_list(ir, &ir->forward, seen, &stamp);
     verify_list(ir, &ir->reverse, seen, &stamp);
+    verify_list(ir, &ir->tangent, seen, &stamp);
+    verify_list(ir, &ir->hv_forward, seen, &stamp);
+    verify_list(ir, &ir->hv_reverse, seen, &stamp);
     free(seen);
 }
 
@@ -514,5 +574,9 @@ void ir_print(const Ir *ir, FILE *out)
     if (ir->reverse.len) {
         fputs("reverse:\n", out);
         print_list(ir, &ir->reverse, out);
+    }
+    if (ir->tangent.len) {
+        fputs("tangent:\n", out);
+        print_list(ir, &ir->tangent, out);
     }
 }

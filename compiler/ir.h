@@ -82,7 +82,9 @@ typedef enum IrRole {
     ROLE_VALUE,         /* a value the model defines */
     ROLE_TEMP,          /* a compiler temporary (reduction accumulator) */
     ROLE_ARGPOS,        /* position of a max/min reduction's winner (long) */
-    ROLE_ADJOINT        /* the adjoint of another array */
+    ROLE_ADJOINT,       /* the adjoint of another array */
+    ROLE_TANGENT        /* the tangent (directional derivative) of another
+                           array; of a param, the direction */
 } IrRole;
 
 typedef struct IrArray {
@@ -93,7 +95,9 @@ typedef struct IrArray {
     IrRole role;
     int rank;
     int32_t adjoint;    /* its adjoint array, or -1 */
-    int32_t primal;     /* ROLE_ADJOINT: the array it is the adjoint of */
+    int32_t tangent;    /* its tangent array, or -1 */
+    int32_t primal;     /* ROLE_ADJOINT, ROLE_TANGENT: the array it is the
+                           adjoint or tangent of */
     uint8_t used;       /* some kept statement or the output reads it */
     uint8_t varied;     /* depends on a param (activity analysis) */
     uint8_t useful;     /* an output depends on it (activity analysis) */
@@ -142,6 +146,14 @@ typedef struct Ir {
     VEC(int32_t) tuple_data;    /* tuples: [len, v0, v1, ...] at tuple id */
     IrStmtList forward;         /* the model's statements in order */
     IrStmtList reverse;         /* adjoint statements, in sweep order */
+    IrStmtList tangent;         /* the forward statements, each followed by
+                                   its tangent statements (tangent.c); empty
+                                   unless asked for */
+    IrStmtList hv_forward;      /* for a Hessian times a direction: the
+                                   forward statements with the tangents the
+                                   reverse sweep's tangents read, */
+    IrStmtList hv_reverse;      /* and the reverse statements, each followed
+                                   by its tangent (empty unless asked for) */
     int32_t output;             /* the output array */
     int32_t row_size;           /* row by row over this size, or -1 */
     const char *row_plan;       /* why row by row was or was not chosen */
@@ -166,6 +178,11 @@ NodeId ir_index(Ir *ir, int32_t var);
 NodeId ir_size(Ir *ir, int32_t size);
 NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c);
 
+/* The row-major position of the current point among the REDUCED vars (a
+ * tuple), as a max or min statement stores its winner's in its argpos
+ * array. */
+NodeId ir_flat_point(Ir *ir, int32_t reduced);
+
 int32_t ir_tuple(Ir *ir, const int32_t *vars, int n);
 int ir_tuple_len(const Ir *ir, int32_t tuple);
 const int32_t *ir_tuple_vars(const Ir *ir, int32_t tuple);
@@ -173,6 +190,22 @@ const int32_t *ir_tuple_vars(const Ir *ir, int32_t tuple);
 int32_t ir_add_array(Ir *ir, const char *name, IrRole role, int rank,
                      const int *dim, Span span);
 int32_t ir_add_var(Ir *ir, const char *name, int extent);
+
+/* A tuple of fresh vars (dvs_i0, dvs_i1, ...) covering every element of
+ * ARRAY, for statements over all of it. */
+int32_t ir_whole_tuple(Ir *ir, int32_t array);
+
+/* The caller's struct an array lives in: a param (in *p), its adjoint (the
+ * gradient, *grad), its tangent (the direction, *dir), or the tangent of
+ * its adjoint (a Hessian times the direction, *hv); else a local. */
+typedef enum IrHome { HOME_LOCAL, HOME_P, HOME_GRAD, HOME_DIR, HOME_HV } IrHome;
+IrHome ir_home(const Ir *ir, const IrArray *a);
+
+/* A new array of ROLE (ROLE_ADJOINT, ROLE_TANGENT) derived from ARRAY, of
+ * its shape, row-local as it is: named as the param when it lives in a
+ * caller's struct, else "dvs_KIND_name" (a temporary's name loses its own
+ * reserved prefix first). */
+int32_t ir_add_derived(Ir *ir, int32_t array, IrRole role, const char *kind);
 /* Append s to list.  A statement boundary: the node array may move here,
  * so no IrNode pointer may be held across this call. */
 void ir_add_stmt(Ir *ir, IrStmtList *list, IrStmt s);

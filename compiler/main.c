@@ -25,12 +25,19 @@ static const char usage[] =
     "         -o FILE          C source path (default: MODEL's stem + .c here)\n"
     "         --header FILE    header path (default: the C path with .h)\n"
     "         --name NAME      symbol prefix (overrides the model statement)\n"
+    "         -I DIR           look in DIR for files 'use' names that are not\n"
+    "                          beside the file using them (repeatable, in order)\n"
     "         --fail-on-warning  treat warnings as errors (exit 1, write nothing)\n"
     "         --stack-limit N  most doubles in one local array (default 4096);\n"
     "                          larger arrays live in the caller's work buffer\n"
     "         --part-size N    write functions of over 4N statements as parts\n"
     "                          of about N statements each (default 100)\n"
+    "         --emit LIST      the functions to write, of value, gradient,\n"
+    "                          tangent and hessvec (default: value,gradient)\n"
     "         --explain        say how the gradient uses memory, and why\n"
+    "         --deps FILE      also write a make rule naming the outputs and\n"
+    "                          every model file read (for make, ninja, cmake)\n"
+    "         --always-write   replace outputs that already hold the same bytes\n"
     "       dervish check [options] MODEL.dvs    compare the gradient with\n"
     "                                            numerical derivatives\n"
     "         --at FILE        values of params and inputs (name = numbers...)\n"
@@ -39,6 +46,9 @@ static const char usage[] =
     "         --tolerance X    largest accepted relative error (default 1e-6)\n"
     "         --size NAME=N    a runtime size (else taken from the values given)\n"
     "         --name NAME      symbol prefix\n"
+    "         -I DIR           look in DIR for used files, as for build\n"
+    "         --emit LIST      also check these functions' derivatives\n"
+    "                          (tangent, hessvec)\n"
     "         --fail-on-warning  treat warnings as errors\n"
     "       dervish graph [options] MODEL.dvs    write the computation graph\n"
     "                                            in Graphviz DOT\n"
@@ -46,6 +56,7 @@ static const char usage[] =
     "                          standard output)\n"
     "         --sweep          number the values in adjoint sweep order\n"
     "         --name NAME      symbol prefix (the graph's title)\n"
+    "         -I DIR           look in DIR for used files, as for build\n"
     "         --fail-on-warning  treat warnings as errors\n"
     "       dervish --help | --version\n"
     "exit status: 0 success, 1 model errors or a derivative mismatch,\n"
@@ -69,10 +80,16 @@ typedef struct Args {
     const char *tolerance;
     int fail_on_warning;
     int explain;
+    const char *deps_path;  /* build --deps */
+    int always_write;       /* build --always-write */
     const char *stack_limit;
     const char *part_size;
+    const char *emit_list;  /* --emit */
+    int emit;               /* its DV_EMIT_* bits, 0 for the default */
     const char *sizes[16];  /* --size NAME=N */
     int nsizes;
+    const char *include[64];    /* -I DIR, in order */
+    int ninclude;
     const char *dot_path;   /* graph -o: NULL or "-" for standard output */
     int sweep;              /* graph --sweep */
 } Args;
@@ -84,6 +101,27 @@ static int is_count(const char *s)
     errno = 0;
     long n = strtol(s, &end, 10);
     return *s >= '0' && *s <= '9' && !*end && n >= 1 && errno != ERANGE;
+}
+
+/* The DV_EMIT_* bits of an --emit list such as "value,tangent", or 0 when
+ * the list names something else or nothing. */
+static int emit_bits(const char *list)
+{
+    static const char *const kinds[] = {"value", "gradient", "tangent",
+                                        "hessvec"};
+    int bits = 0;
+    for (const char *p = list;; p++) {
+        size_t n = strcspn(p, ",");
+        int k = 0;
+        while (k < 4 && !(strlen(kinds[k]) == n && strncmp(p, kinds[k], n) == 0))
+            k++;
+        if (k == 4)
+            return 0;
+        bits |= 1 << k;
+        p += n;
+        if (!*p)
+            return bits;
+    }
 }
 
 /* Parse the options after the command word; returns 0 or an exit status. */
@@ -105,6 +143,8 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->stack_limit;
         else if (is_build && strcmp(opt, "--part-size") == 0)
             slot = &a->part_size;
+        else if (is_build && strcmp(opt, "--deps") == 0)
+            slot = &a->deps_path;
         else if (is_check && strcmp(opt, "--at") == 0)
             slot = &a->at;
         else if (is_check && strcmp(opt, "--seed") == 0)
@@ -113,6 +153,8 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->tolerance;
         else if (is_graph && strcmp(opt, "-o") == 0)
             slot = &a->dot_path;
+        else if (!is_graph && strcmp(opt, "--emit") == 0)
+            slot = &a->emit_list;
         if (strcmp(opt, "--fail-on-warning") == 0) {
             a->fail_on_warning = 1;
             continue;
@@ -121,8 +163,21 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             a->explain = 1;
             continue;
         }
+        if (is_build && strcmp(opt, "--always-write") == 0) {
+            a->always_write = 1;
+            continue;
+        }
         if (is_graph && strcmp(opt, "--sweep") == 0) {
             a->sweep = 1;
+            continue;
+        }
+        if (strncmp(opt, "-I", 2) == 0) {
+            /* -I DIR or -IDIR */
+            if (!opt[2] && i + 1 >= argc)
+                return usage_error("option %s needs a value", opt);
+            if (a->ninclude == 64)
+                return usage_error("%s", "at most 64 -I options");
+            a->include[a->ninclude++] = opt[2] ? opt + 2 : argv[++i];
             continue;
         }
         if (is_check && strcmp(opt, "--size") == 0) {
@@ -150,6 +205,10 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
     if (a->stack_limit && !is_count(a->stack_limit))
         return usage_error("--stack-limit takes a whole number of "
                            "doubles, at least 1, not '%s'", a->stack_limit);
+    if (a->emit_list && !(a->emit = emit_bits(a->emit_list)))
+        return usage_error("--emit takes a comma-separated list of value, "
+                           "gradient, tangent and hessvec, not '%s'",
+                           a->emit_list);
     if (a->part_size && !is_count(a->part_size))
         return usage_error("--part-size takes a whole number of "
                            "statements, at least 1, not '%s'", a->part_size);
@@ -172,9 +231,15 @@ static int compile_file(const Args *a, DvCompilation *c,
     char *text = fileio_read(a->model, &len);
     if (!text)
         return EXIT_IO;
-    DvOptions o = {a->name, stderr,
-                   a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0,
-                   a->part_size ? strtol(a->part_size, NULL, 10) : 0};
+    DvOptions o;
+    memset(&o, 0, sizeof o);
+    o.name = a->name;
+    o.diag_out = stderr;
+    o.stack_limit = a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0;
+    o.part_size = a->part_size ? strtol(a->part_size, NULL, 10) : 0;
+    o.emit = a->emit;
+    o.include_dirs = a->include;
+    o.ninclude = a->ninclude;
     int failed = dv_compile(c, a->model, text, len, &o);
     free(text);
     if (failed) {
@@ -210,17 +275,43 @@ static char *with_extension(const char *path, const char *ext, int here)
     return out;
 }
 
+/* Whether two output paths name one file, by spelling or on disk. */
+static int same_output(const char *x, const char *y)
+{
+    return strcmp(x, y) == 0 || fileio_same_file(x, y);
+}
+
+/* 0 when a make rule can name each of the n paths, else EXIT_IO after
+ * saying why the dependency file DP cannot be written. */
+static int check_rule_paths(const char *dp, const char *const *paths, int n)
+{
+    for (int i = 0; i < n; i++) {
+        const char *why = fileio_rule_refuses(paths[i]);
+        if (why) {
+            fprintf(stderr, "dervish: cannot write %s: a make rule cannot "
+                    "name '%s', which holds %s\n", dp, paths[i], why);
+            return EXIT_IO;
+        }
+    }
+    return 0;
+}
+
 static int build(const Args *a)
 {
     char *c_path = a->c_path ? NULL : with_extension(a->model, ".c", 1);
     const char *cp = a->c_path ? a->c_path : c_path;
     char *h_path = a->h_path ? NULL : with_extension(cp, ".h", 0);
     const char *hp = a->h_path ? a->h_path : h_path;
+    const char *dp = a->deps_path;
     int status = 0;
-    if (strcmp(cp, hp) == 0 || fileio_same_file(cp, hp)) {
+    if (same_output(cp, hp)) {
         status = usage_error("the C source and the header are both '%s'", cp);
+    } else if (dp && (same_output(dp, cp) || same_output(dp, hp))) {
+        status = usage_error("the dependency file '%s' is also the C source "
+                             "or the header", dp);
     } else if (fileio_same_file(a->model, cp) ||
-               fileio_same_file(a->model, hp)) {
+               fileio_same_file(a->model, hp) ||
+               (dp && fileio_same_file(a->model, dp))) {
         status = usage_error("refusing to overwrite the model file '%s'",
                              a->model);
     }
@@ -230,18 +321,34 @@ static int build(const Args *a)
         status = compile_file(a, &c, "; nothing written");
     if (!status && a->explain)
         dv_explain(&c, stdout);
+    /* the dependency file's rule: the outputs, and every model file read
+     * (the one named first) */
+    const char *const targets[] = {cp, hp};
+    const char *const inputs[] = {a->model};
+    int ninputs = 1;
+    if (!status && dp)
+        status = check_rule_paths(dp, targets, 2);
+    if (!status && dp)
+        status = check_rule_paths(dp, inputs, ninputs);
     if (!status) {
         /* the header first: a source is never newer than its header; the
-         * text streams to the files as it is emitted */
-        StreamedOutput out[2];
+         * dependency file last, after the files it names; the text streams
+         * to the files as it is emitted */
+        StreamedOutput out[3];
+        int nout = dp ? 3 : 2;
         out[0].path = hp;
         out[1].path = cp;
-        if (fileio_open_outputs(out, 2) != 0) {
+        out[2].path = dp;
+        for (int i = 0; i < 3; i++)
+            out[i].keep_same = !a->always_write;
+        if (fileio_open_outputs(out, nout) != 0) {
             status = EXIT_IO;
         } else {
             dv_emit(&c, dv_basename(cp), dv_basename(hp), &out[1].text,
                     &out[0].text);
-            if (fileio_commit_outputs(out, 2) != 0)
+            if (dp)
+                fileio_make_rule(&out[2].text, targets, 2, inputs, ninputs);
+            if (fileio_commit_outputs(out, nout) != 0)
                 status = EXIT_IO;
         }
     }

@@ -18,27 +18,9 @@ typedef struct Reverse {
                            reversed, or -1 */
     char *written;      /* adjoint array has received a contribution */
     NodeList reads;  /* scratch: distinct active reads of one expression */
-    NodeList seen;   /* scratch: nodes collect_reads has visited */
+    NodeList seen;   /* scratch: nodes rules_active_reads has visited */
     DeriveMemo memo;
 } Reverse;
-
-/* Visit every READ node below n once (a small DAG walk with a seen list). */
-static void collect_reads(Reverse *rv, NodeId n, NodeList *seen)
-{
-    for (int i = 0; i < seen->len; i++)
-        if (seen->items[i] == n)
-            return;
-    VEC_PUSH(rv->ir->arena, *seen, n);
-    const IrNode *nd = ir_at(rv->ir, n);
-    if (nd->op == IR_READ) {
-        const IrArray *a = &rv->ir->arrays.items[nd->array];
-        if (a->varied && a->useful)
-            VEC_PUSH(rv->ir->arena, rv->reads, n);
-        return;
-    }
-    for (int i = 0; i < nd->nargs; i++)
-        collect_reads(rv, nd->arg[i], seen);
-}
 
 static int reads_varied(const Ir *ir, NodeId n)
 {
@@ -84,35 +66,11 @@ static void activity(Ir *ir)
 static int32_t adjoint_of(Reverse *rv, int32_t array)
 {
     Ir *ir = rv->ir;
-    IrArray *a = &ir->arrays.items[array];
-    if (a->adjoint >= 0)
-        return a->adjoint;
-    const char *name = a->role == ROLE_PARAM
-                           ? a->name
-                           : arena_printf(ir->arena, DV_PREFIX "adj_%s",
-                                          a->name + (a->role == ROLE_TEMP
-                                                         ? strlen(DV_PREFIX)
-                                                         : 0));
-    int32_t adj = ir_add_array(ir, name, ROLE_ADJOINT, a->rank, a->dim,
-                               a->span);
-    ir->arrays.items[array].adjoint = adj;
-    ir->arrays.items[adj].primal = array;
-    ir->arrays.items[adj].row_local = ir->arrays.items[array].row_local;
-    return adj;
-}
-
-/* A tuple of fresh vars covering every element of array a. */
-static int32_t whole_tuple(Ir *ir, int32_t array)
-{
-    const IrArray *a = &ir->arrays.items[array];
-    int32_t vars[IR_MAX_RANK];
-    static const char *const names[] = {DV_PREFIX "i0", DV_PREFIX "i1",
-                                        DV_PREFIX "i2", DV_PREFIX "i3",
-                                        DV_PREFIX "i4", DV_PREFIX "i5",
-                                        DV_PREFIX "i6", DV_PREFIX "i7"};
-    for (int k = 0; k < a->rank; k++)
-        vars[k] = ir_add_var(ir, names[k], a->dim[k]);
-    return ir_tuple(ir, vars, a->rank);
+    if (ir->arrays.items[array].adjoint < 0) {
+        int32_t adj = ir_add_derived(ir, array, ROLE_ADJOINT, "adj");
+        ir->arrays.items[array].adjoint = adj;
+    }
+    return ir->arrays.items[array].adjoint;
 }
 
 static void emit_stmt(Reverse *rv, IrStmtKind kind, int32_t target,
@@ -159,7 +117,7 @@ static void accumulate(Reverse *rv, int32_t adj, int32_t tuple,
             emit_stmt(rv, SK_SET, adj, tuple, domain, e, origin);
             return;
         }
-        int32_t whole = whole_tuple(ir, adj);
+        int32_t whole = ir_whole_tuple(ir, adj);
         if (in_rows && row_local) {
             /* only the current row: the row var in the first place */
             int n = ir_tuple_len(ir, whole);
@@ -171,24 +129,6 @@ static void accumulate(Reverse *rv, int32_t adj, int32_t tuple,
         emit_stmt(rv, SK_SET, adj, whole, whole, ir_const(ir, 0), origin);
     }
     emit_stmt(rv, SK_ADD, adj, tuple, domain, e, origin);
-}
-
-/* The flat position of the current point of the reduced vars, matching
- * what the forward max/min statement stores in its argpos array. */
-static NodeId flat_point(Ir *ir, int32_t reduced)
-{
-    int n = ir_tuple_len(ir, reduced);
-    const int32_t *v = ir_tuple_vars(ir, reduced);
-    NodeId pos = ir_index(ir, v[0]);
-    for (int k = 1; k < n; k++) {
-        int extent = ir->vars.items[v[k]].extent;
-        NodeId e = IR_EXTENT_IS_SIZE(extent)
-                       ? ir_size(ir, IR_EXTENT_SIZE(extent))
-                       : ir_const(ir, extent);
-        pos = ir_node(ir, IR_ADD, ir_node(ir, IR_MUL, pos, e, NO_NODE),
-                      ir_index(ir, v[k]), NO_NODE);
-    }
-    return pos;
 }
 
 static void reverse_stmt(Reverse *rv, const IrStmt *s)
@@ -205,13 +145,11 @@ static void reverse_stmt(Reverse *rv, const IrStmt *s)
     NodeId y = ir_read(ir, s->target, s->tuple);
     NodeId winner = NO_NODE;
     if (s->kind == SK_MAX || s->kind == SK_MIN)
-        winner = ir_node(ir, IR_EQ, flat_point(ir, s->reduced),
+        winner = ir_node(ir, IR_EQ, ir_flat_point(ir, s->reduced),
                          ir_read(ir, s->argpos, s->tuple), NO_NODE);
     NodeId self = s->kind == SK_SET ? y : s->expr;
 
-    rv->seen.len = 0;
-    rv->reads.len = 0;
-    collect_reads(rv, s->expr, &rv->seen);
+    rules_active_reads(ir, s->expr, &rv->seen, &rv->reads);
     for (int i = 0; i < rv->reads.len; i++) {
         NodeId leaf = rv->reads.items[i];
         NodeId d = rules_derivative(ir, &rv->memo, s->expr, leaf, self);
@@ -284,7 +222,7 @@ void reverse_pass(Ir *ir)
             continue;
         int32_t adj = adjoint_of(&rv, i);
         if (!rv.written[adj]) {
-            int32_t whole = whole_tuple(ir, adj);
+            int32_t whole = ir_whole_tuple(ir, adj);
             emit_stmt(&rv, SK_SET, adj, whole, whole, ir_const(ir, 0),
                       ir->arrays.items[i].span);
             ir->reverse.items[ir->reverse.len - 1].note = arena_printf(

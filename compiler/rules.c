@@ -37,6 +37,31 @@ static NodeId select(Ir *ir, NodeId cond, NodeId a, NodeId b)
                    b == NO_NODE ? num(ir, 0) : b);
 }
 
+/* A small DAG walk with a seen list. */
+static void active_reads(Ir *ir, NodeId n, NodeList *seen, NodeList *reads)
+{
+    for (int i = 0; i < seen->len; i++)
+        if (seen->items[i] == n)
+            return;
+    VEC_PUSH(ir->arena, *seen, n);
+    const IrNode *nd = ir_at(ir, n);
+    if (nd->op == IR_READ) {
+        const IrArray *a = &ir->arrays.items[nd->array];
+        if (a->varied && a->useful)
+            VEC_PUSH(ir->arena, *reads, n);
+        return;
+    }
+    for (int i = 0; i < nd->nargs; i++)
+        active_reads(ir, nd->arg[i], seen, reads);
+}
+
+void rules_active_reads(Ir *ir, NodeId root, NodeList *seen, NodeList *reads)
+{
+    seen->len = 0;
+    reads->len = 0;
+    active_reads(ir, root, seen, reads);
+}
+
 /* cond ? d : 0 or cond ? 0 : d */
 static int is_selector(const Ir *ir, NodeId n)
 {
@@ -243,9 +268,17 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
     case IR_TRUNC:
     case IR_SIGN:
         return NO_NODE;
+    case IR_HYPOTSLOPE: {
+        /* s = x / h, t = y / h with h = hypot(x, y): ds/dx = t^2 / h,
+         * ds/dy = -s t / h (second derivatives of hypot) */
+        NodeId h = op2(ir, IR_HYPOT, x, y);
+        NodeId t = op2(ir, IR_HYPOTSLOPE, y, x);
+        return arg == 0 ? divide(ir, rules_mul(ir, t, t), h)
+                        : op1(ir, IR_NEG, divide(ir, rules_mul(ir, value, t),
+                                                 h));
+    }
     case IR_SELECT:         /* handled by rules_derivative */
     case IR_DIGAMMA:        /* second derivatives come later */
-    case IR_HYPOTSLOPE:
     case IR_LT: case IR_LE: case IR_GT: case IR_GE: case IR_EQ: case IR_NE:
     case IR_AND: case IR_OR: case IR_NOT:
     case IR_CONST: case IR_READ: case IR_INDEX: case IR_SIZE:

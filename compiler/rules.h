@@ -31,6 +31,12 @@ typedef struct DeriveMemo {
     int now;
 } DeriveMemo;
 
+/* Set *reads to the distinct reads below ROOT of arrays that depend on a
+ * param and that the output depends on (activity analysis), the leaves a
+ * derivative of ROOT needs; *seen is scratch.  Both lists are emptied
+ * first and grow in the IR's arena. */
+void rules_active_reads(Ir *ir, NodeId root, NodeList *seen, NodeList *reads);
+
 /* d ROOT / d LEAF.  ROOT_VALUE stands for ROOT's value in the rules (the
  * statement's target when ROOT is a whole right side). */
 NodeId rules_derivative(Ir *ir, DeriveMemo *memo, NodeId root, NodeId leaf,

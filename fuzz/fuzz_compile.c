@@ -5,13 +5,15 @@
 
 #include <stddef.h>
 #include <stdint.h>
+#include <string.h>
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
     DvCompilation c;
-    DvOptions opt = {NULL, NULL, 0, 0};
+    DvOptions opt;
+    memset(&opt, 0, sizeof opt);   /* the defaults, no diagnostics */
     if (dv_compile(&c, "fuzz.dvs", (const char *)data, size, &opt) == 0) {
         Buf src = {0}, hdr = {0};
         dv_emit(&c, "fuzz.c", "fuzz.h", &src, &hdr);

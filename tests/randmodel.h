@@ -11,6 +11,7 @@
 
 #include "dervish.h"
 #include "eval.h"
+#include "splitmix.h"
 
 #include <complex.h>
 #include <math.h>
@@ -18,23 +19,17 @@
 
 /* ================================================================ PRNG */
 
-/* splitmix64 (Steele, Lea and Flood 2014): tiny, and every seed is good. */
-static inline uint64_t rm_next(uint64_t *s)
-{
-    uint64_t z = (*s += 0x9E3779B97F4A7C15u);
-    z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9u;
-    z = (z ^ (z >> 27)) * 0x94D049BB133111EBu;
-    return z ^ (z >> 31);
-}
+/* splitmix64 (Steele, Lea and Flood 2014; compiler/splitmix.h) drives
+ * everything: tiny, and every seed is good. */
 
 static inline double rm_unit(uint64_t *s)      /* uniform in [0, 1) */
 {
-    return (double)(rm_next(s) >> 11) * 0x1.0p-53;
+    return (double)(splitmix64(s) >> 11) * 0x1.0p-53;
 }
 
 static inline int rm_below(uint64_t *s, int n)  /* uniform in 0..n-1 */
 {
-    return (int)(rm_next(s) % (uint64_t)n);
+    return (int)(splitmix64(s) % (uint64_t)n);
 }
 
 static inline int rm_chance(uint64_t *s, double p)
@@ -1483,6 +1478,8 @@ static inline double complex rm_eval(RmModel *m, long k, double complex delta)
 #define RM_STEP 1e-100      /* complex step: far below every value */
 #define RM_TOL_SAME 1e-12   /* emitted C against the IR evaluator */
 #define RM_TOL_CS 1e-10     /* against a complex-step derivative */
+/* entry k of the direction the driver takes the tangent along */
+#define RM_DIRECTION(k) (((k) * 7 % 11 - 5) / 4.0)
 #define RM_CFLAGS "-std=c99 -Wall -Wextra -Wpedantic -Wshadow -Werror -O1"
 
 typedef struct RmCase {
@@ -1501,6 +1498,8 @@ typedef struct RmCase {
     int compiled;
     int ran;
     double c_value, c_gvalue, *c_grad;
+    double c_tvalue, c_dvalue;  /* the tangent function's value, and its
+                                   derivative along RM_DIRECTION */
     long c_count;
 } RmCase;
 
@@ -1598,8 +1597,13 @@ static inline void rm_driver_case(FILE *f, RmCase *c, int k)
                "    double y = m%d_gradient(&p.p%s, &g.p);\n"
                "    printf(\"%d %%a %%a %%d\", value, y, M%d_PARAM_COUNT);\n"
                "    for (int k = 0; k < M%d_PARAM_COUNT; k++)\n"
-               "        printf(\" %%a\", g.v[k]);\n"
-               "    printf(\"\\n\");\n}\n\n", k, in, k, in, k, k, k);
+               "        printf(\" %%a\", g.v[k]);\n", k, in, k, in, k, k, k);
+    /* the tangent along RM_DIRECTION(k) */
+    fprintf(f, "    m%d_param_flat d;\n"
+               "    for (int k = 0; k < M%d_PARAM_COUNT; k++)\n"
+               "        d.v[k] = ((k * 7) %% 11 - 5) / 4.0;\n"
+               "    double dv, ty = m%d_tangent(&p.p%s, &d.p, &dv);\n"
+               "    printf(\" %%a %%a\\n\", ty, dv);\n}\n\n", k, k, k, in);
     free(store);
 }
 
@@ -1680,6 +1684,8 @@ static inline void rm_read_output(RmCase *cs, int n, const char *text)
         c->c_grad = calloc((size_t)c->c_count + 1, sizeof *c->c_grad);
         for (long e = 0; e < c->c_count; e++)
             c->c_grad[e] = strtod(end, &end);
+        c->c_tvalue = strtod(end, &end);
+        c->c_dvalue = strtod(end, &end);
         c->ran = 1;
         p = strchr(end, '\n');
         if (p)
@@ -1775,6 +1781,20 @@ static inline void rm_judge(RmCase *c)
         if (rm_err(c->c_gvalue, c->c_value) > RM_TOL_SAME)
             rm_fail(c, "the gradient function returns %.17g, the value "
                     "function %.17g", c->c_gvalue, c->c_value);
+        if (rm_err(c->c_tvalue, c->c_value) > RM_TOL_SAME)
+            rm_fail(c, "the tangent function returns %.17g, the value "
+                    "function %.17g", c->c_tvalue, c->c_value);
+        /* the tangent is the gradient (checked below against complex
+         * steps) times the direction; rounding is relative to the sum of
+         * the products' magnitudes */
+        double dot = 0, scale = 0;
+        for (long k = 0; k < np; k++) {
+            dot += c->c_grad[k] * RM_DIRECTION(k);
+            scale += fabs(c->c_grad[k] * RM_DIRECTION(k));
+        }
+        if (fabs(c->c_dvalue - dot) > RM_TOL_SAME * scale)
+            rm_fail(c, "tangent %.17g, the gradient times the direction "
+                    "%.17g", c->c_dvalue, dot);
         if (c->tree) {
             double mine = creal(rm_eval(c->tree, -1, 0));
             if (rm_err(c->c_value, mine) > RM_TOL_CS)
@@ -1832,7 +1852,8 @@ static inline int rm_check_batch(RmCase *cs, int n, const char *dir,
         list = l;
     }
     rm_sh("cd '%s' && printf '%%s\\n' %s | xargs -P 2 -I@ sh -c "
-          "\"'%s' build %s --name m@ m@.dvs 2>m@.err; echo \\$? >m@.rc\"",
+          "\"'%s' build --emit value,gradient,tangent %s --name m@ m@.dvs "
+          "2>m@.err; echo \\$? >m@.rc\"",
           dir, list, tu_abs_dervish(), build_options);
     free(list);
     for (int k = 0; k < n; k++) {

@@ -160,7 +160,9 @@ static void run_everywhere(Run *r, const struct rr_function *fns, int nfns,
     free(dir);
 
     DvCompilation comp;
-    DvOptions opt = {NULL, stderr, 0, 0};
+    DvOptions opt;
+    memset(&opt, 0, sizeof opt);   /* the defaults */
+    opt.diag_out = stderr;
     char *path = tu_format("%s.dvs", name);
     rc = dv_compile(&comp, path, r->text.data, r->text.len, &opt);
     ck_assert_msg(rc == 0, "the model does not compile");

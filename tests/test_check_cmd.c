@@ -127,6 +127,34 @@ START_TEST(correct_models_pass)
 }
 END_TEST
 
+/* The tangents of the same models and of every sample agree with their
+ * gradients: status 0 and the agreement line last. */
+static const char *const samples[] = {
+    "samples/arm/arm.dvs", "samples/cooling/cooling.dvs",
+    "samples/greeks/greeks.dvs", "samples/kiln/kiln.dvs",
+    "samples/pump/pump.dvs", "samples/pumps/pumps.dvs",
+};
+#define NGOOD ((int)(sizeof good_models / sizeof good_models[0]))
+
+START_TEST(tangents_agree_with_gradients)
+{
+    char *text = _i < NGOOD ? tu_format("%s", good_models[_i])
+                            : tu_read(samples[_i - NGOOD]);
+    ck_assert_ptr_nonnull(text);
+    char *out = NULL, *err = NULL;
+    ck_assert_int_eq(run_check(text, NULL, "--emit value,gradient,tangent",
+                               &out, &err), 0);
+    char *last = last_line(out);
+    ck_assert_msg(strstr(last, "check: the tangent agrees with the gradient "
+                               "(relative difference ") == last,
+                  "%s", out);
+    free(last);
+    free(out);
+    free(err);
+    free(text);
+}
+END_TEST
+
 /* ------------------------------------------------------ the --at file */
 
 static const char *const small_model =
@@ -720,6 +748,22 @@ START_TEST(tolerance_is_honoured)
 }
 END_TEST
 
+/* Scale by 1.001 the statements of LIST that write TARGET, as a wrong rule
+ * would; returns how many there were. */
+static int spoil(Ir *ir, IrStmtList *list, int32_t target)
+{
+    int changed = 0;
+    for (int i = 0; i < list->len; i++) {
+        IrStmt *s = &list->items[i];
+        if (s->target == target) {
+            s->expr = ir_node(ir, IR_MUL, s->expr, ir_const(ir, 1.001),
+                              NO_NODE);
+            changed++;
+        }
+    }
+    return changed;
+}
+
 /* A wrong derivative rule, simulated by scaling the reverse statement that
  * writes a's gradient: the complex step exposes it. */
 START_TEST(a_wrong_gradient_is_named_first)
@@ -727,18 +771,7 @@ START_TEST(a_wrong_gradient_is_named_first)
     const char *text = "param a, b, c\ny = a * sin(b) + c * c\noutput y\n";
     DvCompilation c;
     tu_compile(&c, "w.dvs", text);
-    Ir *ir = c.ir;
-    int32_t adj_a = ir->arrays.items[0].adjoint;
-    int changed = 0;
-    for (int i = 0; i < ir->reverse.len; i++) {
-        IrStmt *s = &ir->reverse.items[i];
-        if (s->target == adj_a) {
-            s->expr = ir_node(ir, IR_MUL, s->expr, ir_const(ir, 1.001),
-                              NO_NODE);
-            changed = 1;
-        }
-    }
-    ck_assert(changed);
+    ck_assert(spoil(c.ir, &c.ir->reverse, c.ir->arrays.items[0].adjoint));
     TuCapture report;
     CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
     ck_assert_int_eq(check_run(&c, &opt), 1);
@@ -751,6 +784,65 @@ START_TEST(a_wrong_gradient_is_named_first)
     ck_assert_int_eq(rows_ending(out, "ok"), 2);
     ck_assert_str_eq(last, "check: 1 derivative disagrees");
     free(row);
+    free(last);
+    free(out);
+    dv_free(&c);
+}
+END_TEST
+
+/* With --emit ...,tangent, check also compares the tangent along a random
+ * direction with the gradient times that direction: on a correct model
+ * (a max over an index, a row of a sum, transcendental calls) they agree
+ * to rounding. */
+START_TEST(the_tangent_is_checked_against_the_gradient)
+{
+    const char *model = "param w[4], b\ninput x[4]\n"
+                        "z[i] = tanh(w[i] * x[i] + b)\n"
+                        "y = max(i: z[i]) + log(1 + sum(i: z[i]^2))\n"
+                        "output y\n";
+    char *out, *err;
+    ck_assert_int_eq(run_check(model, NULL, "--emit value,gradient,tangent",
+                               &out, &err), 0);
+    ck_assert_str_eq(err, "");
+    double t, g;
+    const char *at = strstr(out, "tangent along a random direction (seed 1):");
+    ck_assert_msg(at && sscanf(strchr(at, ':') + 1, "%lf", &t) == 1, "%s",
+                  out);
+    at = strstr(out, "the gradient times that direction:");
+    ck_assert_msg(at && sscanf(strchr(at, ':') + 1, "%lf", &g) == 1, "%s",
+                  out);
+    ck_assert_msg(t != 0 && fabs(t - g) <= 1e-14 * fabs(g), "%.17g %.17g",
+                  t, g);
+    char *last = last_line(out);
+    ck_assert_msg(strstr(last, "check: the tangent agrees with the gradient "
+                               "(relative difference ") == last &&
+                      strstr(last, ", tolerance 1e-06)"), "%s", last);
+    free(last);
+    free(out);
+    free(err);
+}
+END_TEST
+
+/* A wrong tangent statement (scaled by 1.001) is reported and fails the
+ * check, though every gradient entry agrees. */
+START_TEST(a_wrong_tangent_is_a_mismatch)
+{
+    const char *text = "param a, b\ny = a * sin(b)\noutput y\n";
+    DvCompilation c;
+    DvOptions o;
+    memset(&o, 0, sizeof o);
+    o.emit = DV_EMIT_DEFAULT | DV_EMIT_TANGENT;
+    ck_assert_int_eq(dv_compile(&c, "t.dvs", text, strlen(text), &o), 0);
+    Ir *ir = c.ir;
+    ck_assert(spoil(ir, &ir->tangent, ir->arrays.items[ir->output].tangent));
+    TuCapture report;
+    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
+    ck_assert_int_eq(check_run(&c, &opt), 1);
+    char *out = tu_capture_close(&report);
+    ck_assert_msg(strstr(out, "check: 2 of 2 derivatives agree"), "%s", out);
+    char *last = last_line(out);
+    ck_assert_msg(strstr(last, "check: the tangent disagrees with the "
+                               "gradient (") == last, "%s", last);
     free(last);
     free(out);
     dv_free(&c);
@@ -791,8 +883,9 @@ int main(void)
 {
     Suite *s = suite_create("check command");
     TCase *tc = tu_case(s, "check", 60);
-    tcase_add_loop_test(tc, correct_models_pass, 0,
-                        (int)(sizeof good_models / sizeof good_models[0]));
+    tcase_add_loop_test(tc, correct_models_pass, 0, NGOOD);
+    tcase_add_loop_test(tc, tangents_agree_with_gradients, 0,
+                        NGOOD + (int)(sizeof samples / sizeof samples[0]));
     TU_ADD_TESTS(tc,
                  at_file_sets_the_point, missing_names_stay_random,
                  at_file_errors_are_reported_in_place,
@@ -800,6 +893,8 @@ int main(void)
                  unreadable_at_file_is_status_3, seeds_are_reproducible,
                  printed_values_reproduce_the_point, a_jump_is_a_mismatch,
                  tolerance_is_honoured, a_wrong_gradient_is_named_first,
+                 the_tangent_is_checked_against_the_gradient,
+                 a_wrong_tangent_is_a_mismatch,
                  a_value_that_is_not_finite_is_reported,
                  an_entry_without_numerical_derivative_is_unchecked);
     TU_ADD_TESTS(tu_case(s, "sizes", 60),

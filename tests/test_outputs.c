@@ -167,6 +167,18 @@ START_TEST(usage_errors)
          "--part-size takes a whole number of statements, at least 1, not "
          "'99999999999999999999'"},
         {"check --part-size 64 m.dvs", "unknown option '--part-size'"},
+        {"build m.dvs --emit", "option --emit needs a value"},
+        {"build --emit hessian m.dvs", "--emit takes a comma-separated list "
+                                       "of value, gradient, tangent and "
+                                       "hessvec, not 'hessian'"},
+        {"build --emit value,,tangent m.dvs", "--emit takes a "
+                                              "comma-separated list of value, "
+                                              "gradient, tangent and hessvec, "
+                                              "not 'value,,tangent'"},
+        {"check --emit '' m.dvs", "--emit takes a comma-separated list of "
+                                  "value, gradient, tangent and hessvec, not "
+                                  "''"},
+        {"graph --emit value m.dvs", "unknown option '--emit'"},
         {"check m.dvs --size", "option --size needs a value"},
         {"build --size n=4 m.dvs", "unknown option '--size'"},
         {"check " SIZE_OPTS_16 SIZE_OPT "m.dvs", "at most 16 --size options"},
@@ -175,6 +187,16 @@ START_TEST(usage_errors)
         /* the default header of m.h is m.h itself */
         {"build -o m.h m.dvs", "the C source and the header are both "
                                "'m.h'"},
+        {"build m.dvs --deps", "option --deps needs a value"},
+        {"check --deps m.d m.dvs", "unknown option '--deps'"},
+        {"graph --always-write m.dvs", "unknown option '--always-write'"},
+        {"build --deps m.c m.dvs", "the dependency file 'm.c' is also the "
+                                   "C source or the header"},
+        {"build -o x.c --deps ./x.h m.dvs", "the dependency file './x.h' "
+                                            "is also the C source or the "
+                                            "header"},
+        {"build --deps ./m.dvs m.dvs", "refusing to overwrite the model "
+                                       "file 'm.dvs'"},
     };
     char *dir = tu_tmpdir();
     tu_write_in(dir, "m.dvs", model);
@@ -713,6 +735,83 @@ START_TEST(failure_while_streaming_keeps_outputs)
 }
 END_TEST
 
+/* The --deps file is one more output with the same guarantee: a model
+ * error, or any of the three outputs failing, leaves the three older
+ * files and no temporary. */
+START_TEST(deps_failures_keep_outputs)
+{
+    static const char old_d[] = "m.c m.h: an-earlier.dvs\n";
+    static const struct { const char *args, *err; } cases[] = {
+        {"build --deps /dev/full m.dvs",
+         "dervish: cannot write /dev/full: No space left on device\n"},
+        {"build -o /dev/full --header m.h --deps m.d m.dvs",
+         "dervish: cannot write /dev/full: No space left on device\n"},
+        {"build --deps out m.dvs", "dervish: cannot write out: it is a "
+                                   "directory\n"},
+        {"build --deps none/m.d m.dvs", "dervish: cannot write none/m.d: No "
+                                        "such file or directory\n"},
+    };
+    char *dir = project();
+    tu_write_in(dir, "m.d", old_d);
+    char *sub = tu_format("%s/out", dir);
+    ck_assert_int_eq(mkdir(sub, 0700), 0);
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        expect_run(dir, cases[i].args, 3, cases[i].err);
+        expect_file(dir, "m.c", old_c);
+        expect_file(dir, "m.h", old_h);
+        expect_file(dir, "m.d", old_d);
+        expect_listing(dir, "m.c\nm.d\nm.dvs\nm.h\nout\n");
+    }
+    tu_write_in(dir, "m.dvs", "param k\ne = k * q\noutput e\n");
+    expect_run(dir, "build --deps m.d m.dvs", 1,
+               "m.dvs:2:9: error: unknown name 'q': define it before this "
+               "line\n    e = k * q\n            ^\n"
+               "m.dvs: 1 error; nothing written\n");
+    expect_file(dir, "m.d", old_d);
+    expect_listing(dir, "m.c\nm.d\nm.dvs\nm.h\nout\n");
+    tu_rmdir(dir);
+    free(dir);
+    free(sub);
+}
+END_TEST
+
+/* A path that no make rule can hold, among the outputs or the models
+ * read, stops a build with --deps before anything is written. */
+START_TEST(deps_path_refused)
+{
+    static const struct { const char *args, *path, *why; } cases[] = {
+        {"build -o 'a=b.c' --header m.h --deps m.d m.dvs", "a=b.c", "'='"},
+        {"build --header 'x;y.h' --deps m.d m.dvs", "x;y.h", "';'"},
+        {"build -o m.c --deps m.d 'p|q.dvs'", "p|q.dvs", "'|'"},
+        {"build -o m.c --deps m.d \"$(printf 'tab\\there.dvs')\"",
+         "tab\there.dvs", "a tab"},
+        {"build -o m.c --deps m.d \"$(printf 'two\\nlines.dvs')\"",
+         "two\nlines.dvs", "a line break"},
+        {"build -o m.c --deps m.d 'end\\'", "end\\",
+         "a backslash at its end"},
+    };
+    char *dir = project();
+    static const char *const models[] = {"p|q.dvs", "tab\there.dvs",
+                                         "two\nlines.dvs", "end\\"};
+    for (size_t i = 0; i < sizeof models / sizeof models[0]; i++)
+        tu_write_in(dir, models[i], model);
+    char *before = listing(dir);
+    for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
+        char *want = tu_format("dervish: cannot write m.d: a make rule "
+                               "cannot name '%s', which holds %s\n",
+                               cases[i].path, cases[i].why);
+        expect_run(dir, cases[i].args, 3, want);
+        expect_file(dir, "m.c", old_c);
+        expect_file(dir, "m.h", old_h);
+        expect_listing(dir, before);
+        free(want);
+    }
+    tu_rmdir(dir);
+    free(dir);
+    free(before);
+}
+END_TEST
+
 int main(void)
 {
     Suite *s = suite_create("outputs");
@@ -727,6 +826,7 @@ int main(void)
                  success_replaces_both, stdout_as_the_source,
                  symlink_output_stays_a_link, stdout_redirected_to_a_file,
                  long_source_streams_whole,
-                 failure_while_streaming_keeps_outputs);
+                 failure_while_streaming_keeps_outputs,
+                 deps_failures_keep_outputs, deps_path_refused);
     return tu_main(s);
 }

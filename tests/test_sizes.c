@@ -47,7 +47,7 @@ static char *read_model(const char *file)
 }
 
 /* Write TEXT to DIR/NAME.dvs and build it there with --name NAME --explain
- * and OPTIONS; returns what --explain printed (malloc'd).  Fails the test
+ * --emit value,gradient,tangent and OPTIONS; returns what --explain printed (malloc'd).  Fails the test
  * on any message from dervish. */
 static char *build(const char *dir, const char *name, const char *text,
                    const char *options)
@@ -55,8 +55,9 @@ static char *build(const char *dir, const char *name, const char *text,
     char *file = tu_format("%s.dvs", name);
     tu_write_in(dir, file, text);
     char *out = NULL, *err = NULL;
-    int rc = tu_run_dervish(dir, &out, &err, "build --explain --name %s %s %s",
-                            name, options, file);
+    int rc = tu_run_dervish(dir, &out, &err, "build --explain --emit "
+                            "value,gradient,tangent --name %s %s %s", name,
+                            options, file);
     ck_assert_msg(rc == 0 && err && !*err,
                   "dervish build %s %s exited with %d:\n%s", options, name, rc,
                   err ? err : "");
@@ -154,7 +155,7 @@ static void run_valgrind(const char *dir, const char *driver,
 }
 
 /* The doubles of the arrays --explain lists after "in work: ", at sizes
- * n and m: "z[n], dvs_adj_z[n]" is 2 n. */
+ * n and m: "z[n], dvs_adj_z[n], dvs_tan_z[n]" is 3 n. */
 static size_t explain_count(const char *explain, long n, long m)
 {
     const char *at = strstr(explain, "in work: ");
@@ -209,15 +210,18 @@ typedef struct Common {
 static int common_line(const char *line, Common *c)
 {
     long n, m;
-    int value_nan, grad_nan, untouched;
+    int value_nan, grad_nan, untouched, tangent_nan, dvalue_untouched;
     size_t count;
-    if (sscanf(line, "invalid %ld %ld %d %d %d %zu", &n, &m, &value_nan,
-               &grad_nan, &untouched, &count) == 6) {
-        ck_assert_msg(value_nan && grad_nan,
-                      "%s: n = %ld, m = %ld: value and gradient must be NaN",
-                      c->label, n, m);
+    if (sscanf(line, "invalid %ld %ld %d %d %d %zu %d %d", &n, &m, &value_nan,
+               &grad_nan, &untouched, &count, &tangent_nan,
+               &dvalue_untouched) == 8) {
+        ck_assert_msg(value_nan && grad_nan && tangent_nan,
+                      "%s: n = %ld, m = %ld: value, gradient and tangent "
+                      "must be NaN", c->label, n, m);
         ck_assert_msg(untouched, "%s: n = %ld, m = %ld: *grad was written",
                       c->label, n, m);
+        ck_assert_msg(dvalue_untouched, "%s: n = %ld, m = %ld: *dvalue was "
+                      "written", c->label, n, m);
         ck_assert_msg(count == 0, "%s: n = %ld, m = %ld: work count %zu, "
                       "want 0", c->label, n, m, count);
         c->invalid++;
@@ -304,9 +308,19 @@ static void rows_line(const char *line, void *ctx)
     int same;
     if (common_line(line, &seen->common))
         return;
-    ck_assert_msg(sscanf(line, "case %ld %ld %zu %lf %lf %lf %lf %d %lf", &n,
-                         &m, &count, &value, &comb, &verr, &gerr, &same,
-                         &gmax) == 9, "%s: unexpected line '%s'", label, line);
+    double terr;
+    int tsame;
+    ck_assert_msg(sscanf(line, "case %ld %ld %zu %lf %lf %lf %lf %d %lf %lf %d",
+                         &n, &m, &count, &value, &comb, &verr, &gerr, &same,
+                         &gmax, &terr, &tsame) == 11,
+                  "%s: unexpected line '%s'", label, line);
+    /* the tangent from its own pass (tangent.c) is the gradient times
+     * the direction, to rounding */
+    ck_assert_msg(terr <= 1e-12, "%s: n = %ld, m = %ld: the tangent is off "
+                  "the gradient times the direction by %.3g", label, n, m,
+                  terr);
+    ck_assert_msg(tsame, "%s: n = %ld: the tangent function returned another "
+                  "value", label, n);
     seen->cases++;
     ck_assert_msg(verr <= ROWS_TOL, "%s: n = %ld, m = %ld: value %.17g, the "
                   "rows give %.17g (error %.3g)", label, n, m, value, comb,
@@ -427,8 +441,8 @@ static void centred_line(const char *line, void *ctx)
         ck_assert_msg(value == 0.0, "centred: no rows, value %.17g", value);
 }
 
-/* The mean-centred model keeps z and its adjoint in work (exactly 2 n
- * doubles, as --explain lists); value and gradient against the closed
+/* The mean-centred model keeps z, its adjoint and its tangent in work
+ * (exactly 3 n doubles, as --explain lists); value and gradient against the closed
  * form; invalid n; once under valgrind. */
 START_TEST(rows_in_work_match_closed_form)
 {
@@ -438,8 +452,8 @@ START_TEST(rows_in_work_match_closed_form)
     ck_assert_str_eq(explain, "sz: not row by row over n: a row needs a value "
                               "computed from all the rows; the arrays of rows "
                               "are kept in work.\n"
-                              "  in work: z[n], dvs_adj_z[n]\n");
-    ck_assert_uint_eq(explain_count(explain, 10000, 0), 20000);
+                              "  in work: z[n], dvs_adj_z[n], dvs_tan_z[n]\n");
+    ck_assert_uint_eq(explain_count(explain, 10000, 0), 30000);
     char *out[NWAYS];
     run_ways(dir, "centred_driver.c", "sz.c", "", out);
     for (int w = 0; w < NWAYS; w++) {
@@ -450,8 +464,8 @@ START_TEST(rows_in_work_match_closed_form)
         ck_assert_int_eq(seen.cases, 4);
         ck_assert_int_eq(seen.common.invalid, 1);
         ck_assert_int_eq(seen.common.works, 2);
-        ck_assert_uint_eq(seen.common.work[0], 2);
-        ck_assert_uint_eq(seen.common.work[1], 200000);
+        ck_assert_uint_eq(seen.common.work[0], 3);
+        ck_assert_uint_eq(seen.common.work[1], 300000);
     }
     run_valgrind(dir, "centred_driver.c", "sz.c");
     free_outputs(out);
@@ -553,7 +567,7 @@ START_TEST(stack_limit_moves_big_arrays_to_work)
     char *on_stack = build(dir, "onstack", text, "--stack-limit 2000000");
     ck_assert_str_eq(in_work, "inwork: the model has no size.\n"
                               "  in work: P[1000,1000], "
-                              "dvs_adj_P[1000,1000]\n");
+                              "dvs_adj_P[1000,1000], dvs_tan_P[1000,1000]\n");
     ck_assert_str_eq(on_stack, "onstack: the model has no size.\n"
                                "  no arrays in work.\n");
     char *h = tu_read_in(dir, "inwork.h");

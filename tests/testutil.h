@@ -290,7 +290,9 @@ static inline void tu_compile(DvCompilation *c, const char *path,
                               const char *text)
 {
     TuCapture cap;
-    DvOptions opt = {NULL, tu_capture_open(&cap), 0, 0};
+    DvOptions opt;
+    memset(&opt, 0, sizeof opt);   /* the defaults */
+    opt.diag_out = tu_capture_open(&cap);
     int rc = dv_compile(c, path, text, strlen(text), &opt);
     char *diag = tu_capture_close(&cap);
     c->diag.out = NULL;     /* the capture is closed: say nothing more */

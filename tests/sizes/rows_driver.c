@@ -60,10 +60,12 @@ static void free_data(Data *d)
 }
 
 /* Evaluates both models on data of n rows (and m columns) and prints
- * "case N M WORK VALUE COMBINED VALUE_ERR GRAD_ERR SAME_RETURN GRAD_MAX":
- * the errors of the sized model against the combined rows, scaled by the
- * terms combined; SAME_RETURN is 1 when the gradient function returned the
- * value; GRAD_MAX the largest |gradient| member. */
+ * "case N M WORK VALUE COMBINED VALUE_ERR GRAD_ERR SAME_RETURN GRAD_MAX
+ * TANGENT_ERR TANGENT_SAME_RETURN": the errors of the sized model against
+ * the combined rows, scaled by the terms combined; SAME_RETURN is 1 when
+ * the gradient function returned the value; GRAD_MAX the largest
+ * |gradient| member; TANGENT_ERR the tangent's error against the gradient
+ * times the direction, scaled by the products' magnitudes. */
 static void run_case(long n, long m)
 {
     const long width = SZ_TWO_SIZES ? m : 1;    /* cells per row */
@@ -82,6 +84,15 @@ static void run_case(long n, long m)
         g.v[k] = nan("");
     double value = sz_value(&p.p, &in, work);
     double ret = sz_gradient(&p.p, &in, &g.p, work);
+    /* the tangent along dir against the gradient times dir */
+    sz_param_flat dir;
+    double dot = 0.0, dscale = 0.0, dv;
+    for (int k = 0; k < SZ_PARAM_COUNT; k++) {
+        dir.v[k] = sin(0.7 * k + 0.2);
+        dot += g.v[k] * dir.v[k];
+        dscale += fabs(g.v[k] * dir.v[k]);
+    }
+    double tret = sz_tangent(&p.p, &in, &dir.p, &dv, work);
 
     one_param_flat q, h;
     memcpy(q.v, p.v, sizeof q.v);
@@ -119,9 +130,9 @@ static void run_case(long n, long m)
         gerr = fmax(gerr, du_err(g.v[j], cg[j], gscale[j]));
         gmax = isnan(g.v[j]) ? HUGE_VAL : fmax(gmax, fabs(g.v[j]));
     }
-    printf("case %ld %ld %zu %.17g %.17g %.3e %.3e %d %.17g\n", n, width,
-           count, value, comb, du_err(value, comb, vscale), gerr,
-           ret == value, gmax);
+    printf("case %ld %ld %zu %.17g %.17g %.3e %.3e %d %.17g %.3e %d\n", n,
+           width, count, value, comb, du_err(value, comb, vscale), gerr,
+           ret == value, gmax, du_err(dv, dot, dscale), tret == value);
     free(work);
     free_data(&d);
 }

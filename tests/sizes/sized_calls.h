@@ -1,7 +1,8 @@
 /* sized_calls.h - what every driver of a sized model (built with --name sz)
  * reports besides its values: the work count at given sizes, and calls with
  * invalid sizes, which must return NaN, count 0 doubles of work and leave
- * *grad untouched without reading any array (all of them are NULL here). */
+ * *grad and *dvalue untouched without reading any array (all of them are
+ * NULL here).  Every sized model is built with its tangent. */
 #ifndef SIZES_SIZED_CALLS_H
 #define SIZES_SIZED_CALLS_H
 
@@ -34,7 +35,8 @@ static inline void sz_print_work(long n, long m)
     printf("work %ld %ld %zu\n", n, m, sz_work_count(&in));
 }
 
-/* Prints "invalid N M VALUE_IS_NAN GRADIENT_IS_NAN GRAD_UNTOUCHED COUNT". */
+/* Prints "invalid N M VALUE_IS_NAN GRADIENT_IS_NAN GRAD_UNTOUCHED COUNT
+ * TANGENT_IS_NAN DVALUE_UNTOUCHED". */
 static inline void sz_print_invalid(long n, long m)
 {
     static sz_input zero;
@@ -46,8 +48,12 @@ static inline void sz_print_invalid(long n, long m)
     du_poison(&g, sizeof g);
     double v = sz_value(&p.p, &in, NULL);
     double r = sz_gradient(&p.p, &in, &g, NULL);
-    printf("invalid %ld %ld %d %d %d %zu\n", n, m, isnan(v) != 0,
-           isnan(r) != 0, du_poisoned(&g, sizeof g), sz_work_count(&in));
+    double dv;
+    du_poison(&dv, sizeof dv);
+    double t = sz_tangent(&p.p, &in, &p.p, &dv, NULL);
+    printf("invalid %ld %ld %d %d %d %zu %d %d\n", n, m, isnan(v) != 0,
+           isnan(r) != 0, du_poisoned(&g, sizeof g), sz_work_count(&in),
+           isnan(t) != 0, du_poisoned(&dv, sizeof dv));
 }
 
 #endif

@@ -1,0 +1,123 @@
+/* products.c - checks of the tangent and of the Hessian times a direction
+ * against the gradient; see products.h.  The tangent and the gradient come
+ * from separate passes (tangent.c, reverse.c) over the same rules, so
+ * their agreement checks each pass's bookkeeping: which reads contribute,
+ * the winners of max and min, rows.  The Hessian times a direction is
+ * compared with differences of the gradient along it. */
+#include "products.h"
+#include "splitmix.h"
+
+#include <math.h>
+#include <stdlib.h>
+
+static double *doubles(long n)
+{
+    double *v = calloc((size_t)(n ? n : 1), sizeof *v);
+    if (!v) {
+        fputs("dervish: out of memory\n", stderr);
+        exit(3);
+    }
+    return v;
+}
+
+/* A random direction from SEED and SALT: uniform in [-1, 1), 2^-20 apart,
+ * so exact in print and in sums. */
+static double *random_direction(long n, unsigned long seed, uint64_t salt)
+{
+    double *dir = doubles(n);
+    uint64_t state = seed ^ salt;
+    for (long k = 0; k < n; k++)
+        dir[k] = (double)(splitmix64(&state) >> 43) / 1048576.0 - 1.0;
+    return dir;
+}
+
+int products_check_tangent(Evaluation *ev, const double *grad,
+                           unsigned long seed, double tolerance, FILE *out)
+{
+    long n = eval_param_count(ev);
+    double *dir = random_direction(n, seed, 0x7461676e65746e61ULL);
+    double dot = 0, scale = 0;
+    for (long k = 0; k < n; k++) {
+        dot += grad[k] * dir[k];
+        scale += fabs(grad[k] * dir[k]);
+    }
+    double dvalue;
+    eval_tangent(ev, dir, &dvalue);
+    free(dir);
+    double diff = fabs(dvalue - dot);
+    double rel = diff == 0 ? 0 : scale > 0 ? diff / scale : HUGE_VAL;
+    int bad = !(rel <= tolerance);
+    fprintf(out, "tangent along a random direction (seed %lu): %.15g\n"
+                 "the gradient times that direction:          %.15g\n"
+                 "check: the tangent %s the gradient (relative difference "
+                 "%.1e, tolerance %g)\n",
+            seed, dvalue, dot, bad ? "disagrees with" : "agrees with", rel,
+            tolerance);
+    return bad;
+}
+
+/* The gradient at the params moved by t along dir, into g. */
+static void gradient_along(Evaluation *ev, const double *p0, const double *dir,
+                           double t, double *g)
+{
+    long n = eval_param_count(ev);
+    for (long k = 0; k < n; k++)
+        *eval_param(ev, k) = p0[k] + t * dir[k];
+    eval_gradient(ev, g);
+}
+
+int products_check_hessvec(Evaluation *ev, const double *grad,
+                           unsigned long seed, double tolerance, FILE *out)
+{
+    long n = eval_param_count(ev);
+    double *dir = random_direction(n, seed, 0x6865737376656321ULL);
+    double *g = doubles(n), *hv = doubles(n), *p0 = doubles(n);
+    double *d[2], *gp = doubles(n), *gm = doubles(n);
+    eval_hessvec(ev, dir, g, hv);
+    int same_grad = 1;
+    for (long k = 0; k < n; k++) {
+        same_grad &= g[k] == grad[k] || (g[k] != g[k] && grad[k] != grad[k]);
+        p0[k] = *eval_param(ev, k);
+    }
+    /* central differences of the gradient at steps h and h/2, combined
+     * by Richardson extrapolation as for the gradient's own check */
+    double h = 1e-3;
+    for (int s = 0; s < 2; s++) {
+        double t = s ? h / 2 : h;
+        d[s] = doubles(n);
+        gradient_along(ev, p0, dir, t, gp);
+        gradient_along(ev, p0, dir, -t, gm);
+        for (long k = 0; k < n; k++)
+            d[s][k] = (gp[k] - gm[k]) / (2 * t);
+    }
+    for (long k = 0; k < n; k++)
+        *eval_param(ev, k) = p0[k];
+    long agree = 0;
+    double worst = 0;
+    for (long k = 0; k < n; k++) {
+        double r = (4 * d[1][k] - d[0][k]) / 3;
+        double err = fabs(hv[k] - r) / fmax(1, fabs(r));
+        if (!(err <= worst))
+            worst = err;
+        agree += err <= tolerance;
+    }
+    fprintf(out, "Hessian times a random direction (seed %lu): %ld of %ld "
+                 "entries agree with\n  differences of the gradient (largest "
+                 "error %.1e, tolerance %g)\n", seed, agree, n, worst,
+            tolerance);
+    if (!same_grad)
+        fputs("check: the Hessian-vector function's gradient differs from "
+              "the gradient's\n", out);
+    int bad = agree < n || !same_grad;
+    fprintf(out, "check: the Hessian times the direction %s\n",
+            bad ? "disagrees" : "agrees");
+    free(dir);
+    free(g);
+    free(hv);
+    free(p0);
+    free(gp);
+    free(gm);
+    free(d[0]);
+    free(d[1]);
+    return bad;
+}

@@ -1,0 +1,26 @@
+/* products.h - dervish check's checks of the derivative products a model
+ * emits besides the gradient: the tangent and the Hessian times a
+ * direction, each against the gradient. */
+#ifndef DERVISH_PRODUCTS_H
+#define DERVISH_PRODUCTS_H
+
+#include "eval.h"
+
+#include <stdio.h>
+
+/* The tangent along a random direction (from SEED) against the gradient
+ * GRAD times that direction, relative to the sum of the magnitudes of the
+ * products; reported on OUT.  Returns 1 when they differ by more than
+ * TOLERANCE, else 0. */
+int products_check_tangent(Evaluation *ev, const double *grad,
+                           unsigned long seed, double tolerance, FILE *out);
+
+/* The Hessian times a random direction (from SEED) against Richardson
+ * differences of the gradient along it, entry by entry as the gradient is
+ * checked (relative above 1, absolute below), and its gradient against
+ * GRAD; reported on OUT.  Returns 1 when any entry is off by more than
+ * TOLERANCE, else 0.  The params are left as they were. */
+int products_check_hessvec(Evaluation *ev, const double *grad,
+                           unsigned long seed, double tolerance, FILE *out);
+
+#endif
