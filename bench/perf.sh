@@ -18,7 +18,7 @@ mkdir -p "$out"
 cc=${CC:-cc}
 flags="-std=c99 -Wall -Wextra -Wpedantic -Wshadow -Werror -O2 -I$out -I$here -I$repo/samples/common"
 
-"$dervish" build -o "$out/net2.c" "$here/net2.dvs"
+"$dervish" build --emit value,gradient,hessvec -o "$out/net2.c" "$here/net2.dvs"
 $cc $flags -o "$out/perf_net" "$here/perf_net.c" "$here/perf_net_hand.c" \
     "$here/perf_timing.c" "$out/net2.c" "$repo/samples/common/sample_util.c" -lm
 "$out/perf_net"

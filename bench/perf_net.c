@@ -1,6 +1,7 @@
 /* perf_net.c - benchmark 1: the generated gradient of net2.dvs against the
- * hand-written one (perf_net_hand.c) and against the generated value, all
- * timed in one process. Exits 1 if the two gradients disagree. */
+ * hand-written one (perf_net_hand.c) and against the generated value, and
+ * the generated Hessian times a direction against the gradient, all timed
+ * in one process. Exits 1 if the two gradients disagree. */
 #include "net2.h"
 #include "perf_net_hand.h"
 #include "perf_timing.h"
@@ -13,7 +14,7 @@
 #define AGREE 1e-12 /* |generated - hand| allowed, relative to max(1, |hand|) */
 
 typedef struct net_case {
-    net2_param_flat p, grad;
+    net2_param_flat p, grad, dir, hv;
     net2_input in;
 } net_case;
 
@@ -29,6 +30,12 @@ static void call_hand_gradient(void *ctx)
     perf_sink = net_hand_gradient(&c->p.p, &c->in, &c->grad.p);
 }
 
+static void call_generated_hessvec(void *ctx)
+{
+    net_case *c = ctx;
+    perf_sink = net2_hessvec(&c->p.p, &c->in, &c->dir.p, &c->grad.p, &c->hv.p);
+}
+
 static void call_generated_value(void *ctx)
 {
     net_case *c = ctx;
@@ -40,8 +47,10 @@ static void make_case(net_case *c)
 {
     sample_rng rng;
     sample_rng_seed(&rng, 640256010u);
-    for (int k = 0; k < NET2_PARAM_COUNT; k++)
+    for (int k = 0; k < NET2_PARAM_COUNT; k++) {
         c->p.v[k] = sample_normal(&rng, 0.0, 0.15);
+        c->dir.v[k] = sample_uniform(&rng, -1.0, 1.0);
+    }
     for (int i = 0; i < 64; i++)
         c->in.x[i] = sample_uniform(&rng, -1.0, 1.0);
     for (int k = 0; k < 10; k++)
@@ -69,14 +78,17 @@ int main(void)
            NET2_PARAM_COUNT);
     if (!gradients_agree(&c))
         return 1;
-    perf_side sides[3] = {{"generated gradient", call_generated_gradient, &c},
+    perf_side sides[4] = {{"generated gradient", call_generated_gradient, &c},
                           {"hand-written gradient", call_hand_gradient, &c},
-                          {"generated value", call_generated_value, &c}};
-    double ns[3];
-    perf_time_sides(sides, 3, REPS, ns);
-    for (int k = 0; k < 3; k++)
+                          {"generated value", call_generated_value, &c},
+                          {"generated Hessian times a direction",
+                           call_generated_hessvec, &c}};
+    double ns[4];
+    perf_time_sides(sides, 4, REPS, ns);
+    for (int k = 0; k < 4; k++)
         printf("  %-44s %9.0f ns (median of %d)\n", sides[k].name, ns[k], REPS);
     perf_ratio("generated gradient / hand-written gradient", ns[0], ns[1], "<= 1.1");
     perf_ratio("generated gradient / generated value", ns[0], ns[2], "<= 3");
+    perf_ratio("Hessian times a direction / gradient", ns[3], ns[0], "<= 2.5");
     return 0;
 }

@@ -58,6 +58,8 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
     c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
     c->emit = opt->emit ? opt->emit : DV_EMIT_DEFAULT;
+    if (c->emit & DV_EMIT_HESSIAN)
+        c->emit |= DV_EMIT_HESSVEC;     /* the Hessian calls it */
 
     /* resolve parses the source itself, one statement's tree at a time */
     Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, NULL, opt->name,

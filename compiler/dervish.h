@@ -19,7 +19,7 @@
 
 /* The functions dervish build emits (DvOptions.emit, --emit), as bits. */
 enum { DV_EMIT_VALUE = 1, DV_EMIT_GRADIENT = 2, DV_EMIT_TANGENT = 4,
-       DV_EMIT_HESSVEC = 8 };
+       DV_EMIT_HESSVEC = 8, DV_EMIT_HESSIAN = 16 };
 #define DV_EMIT_DEFAULT (DV_EMIT_VALUE | DV_EMIT_GRADIENT)
 
 typedef struct DvOptions {

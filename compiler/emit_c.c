@@ -17,7 +17,7 @@
 #include <string.h>
 
 typedef enum Function {
-    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_COUNT
+    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN, FN_COUNT
 } Function;
 
 typedef struct Emitter {
@@ -798,7 +798,7 @@ static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
 static const char *fn_name(Function fn)
 {
     static const char *const names[] = {"value", "gradient", "tangent",
-                                        "hessvec"};
+                                        "hessvec", "hessian"};
     return names[fn];
 }
 
@@ -821,6 +821,12 @@ static void signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
         buf_printf(b, ", %s_param *%sgrad", m, prefix);
     if (fn == FN_HESSVEC)
         buf_printf(b, ", %s_param *%shv", m, prefix);
+    if (fn == FN_HESSIAN) {
+        char *M = upper(m);
+        buf_printf(b, ", %s_param *%sgrad, double %shess[%s_PARAM_COUNT]"
+                      "[%s_PARAM_COUNT]", m, prefix, prefix, M, M);
+        free(M);
+    }
     if (st->uses_work)
         buf_printf(b, ", double *%swork", prefix);
     buf_put(b, ")");
@@ -873,11 +879,20 @@ static void function_comment(Buf *h, const Ir *ir, Function fn, int sized)
     case FN_HESSVEC:
         buf_printf(h,
                    "/* Returns %s as %s_value does, writes its gradient into "
-                   "*grad as\n * %s_gradient does, and overwrites every member "
-                   "of *hv with the\n * Hessian of %s times dir: the "
-                   "derivative of that member of the\n * gradient along "
-                   "dir%s. */\n", out, m, m, out,
+                   "*grad, and\n * overwrites every member of *hv with the "
+                   "Hessian of %s times dir:\n * the derivative of that "
+                   "member of the gradient along dir%s. */\n", out, m, out,
                    sized ? "\n * (leaving *grad and *hv unchanged when it "
+                           "returns NaN for invalid sizes)" : "");
+        break;
+    case FN_HESSIAN:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does, writes its gradient into "
+                   "*grad, and\n * fills hess with its Hessian, hess[j][k] "
+                   "the second derivative with\n * respect to params j and k "
+                   "in flat order, exactly symmetric: one\n * %s_hessvec "
+                   "per param%s. */\n", out, m, m,
+                   sized ? "\n * (leaving *grad and hess unchanged when it "
                            "returns NaN for invalid sizes)" : "");
         break;
     case FN_COUNT:
@@ -1446,6 +1461,58 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     buf_free(&body);
 }
 
+/* The dense Hessian: a Hessian-vector product with each unit vector gives
+ * a column; the mean of the two computed halves makes it exactly
+ * symmetric (they differ by rounding). */
+static void emit_hessian(Emitter *e, Function fn, Buf *c)
+{
+    const Ir *ir = e->ir;
+    const char *m = ir->model;
+    char *M = upper(m);
+    int in = e->storage.has_input, work = e->storage.uses_work;
+    buf_put(c, "\n");
+    signature(c, ir, &e->storage, fn, DV_PREFIX);
+    buf_put(c, "\n{\n");
+    if (work) {
+        /* invalid sizes: NaN before anything is written */
+        layout_emit_pointers(c, ir, &e->storage);
+        buf_put(c, "    (void)" DV_PREFIX "at;\n");
+    }
+    buf_printf(c,
+               "    %s_param_flat " DV_PREFIX "dir, " DV_PREFIX "col;\n"
+               "    double " DV_PREFIX "y = 0.0;\n"
+               "    for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
+               DV_PREFIX "j++)\n"
+               "        " DV_PREFIX "dir.v[" DV_PREFIX "j] = 0.0;\n"
+               "    for (int " DV_PREFIX "k = 0; " DV_PREFIX "k < %s_PARAM_COUNT; "
+               DV_PREFIX "k++) {\n"
+               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 1.0;\n"
+               "        " DV_PREFIX "y = %s_hessvec(" DV_PREFIX "p, %s&" DV_PREFIX
+               "dir.p, " DV_PREFIX "grad, &" DV_PREFIX "col.p%s);\n"
+               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 0.0;\n"
+               "        for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
+               DV_PREFIX "j++)\n"
+               "            " DV_PREFIX "hess[" DV_PREFIX "j][" DV_PREFIX "k] = "
+               DV_PREFIX "col.v[" DV_PREFIX "j];\n"
+               "    }\n"
+               "    for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
+               DV_PREFIX "j++)\n"
+               "        for (int " DV_PREFIX "k = " DV_PREFIX "j + 1; " DV_PREFIX
+               "k < %s_PARAM_COUNT; " DV_PREFIX "k++) {\n"
+               "            double " DV_PREFIX "mean = 0.5 * (" DV_PREFIX "hess["
+               DV_PREFIX "j][" DV_PREFIX "k] + " DV_PREFIX "hess[" DV_PREFIX "k]["
+               DV_PREFIX "j]);\n"
+               "            " DV_PREFIX "hess[" DV_PREFIX "j][" DV_PREFIX "k] = "
+               DV_PREFIX "mean;\n"
+               "            " DV_PREFIX "hess[" DV_PREFIX "k][" DV_PREFIX "j] = "
+               DV_PREFIX "mean;\n"
+               "        }\n"
+               "    return " DV_PREFIX "y;\n}\n",
+               m, M, M, m, in ? DV_PREFIX "in, " : "",
+               work ? ", " DV_PREFIX "work" : "", M, M, M);
+    free(M);
+}
+
 void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
 {
     const char *m = ir->model;
@@ -1472,7 +1539,8 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
      * are copied, and winners found where they are read */
     const IrStmtList *const lists[FN_COUNT][2] = {
         {&ir->forward, NULL}, {&ir->forward, &ir->reverse},
-        {&ir->tangent, NULL}, {&ir->hv_forward, &ir->hv_reverse}};
+        {&ir->tangent, NULL}, {&ir->hv_forward, &ir->hv_reverse},
+        {NULL, NULL}};
     memcpy(e.lists, lists, sizeof lists);
     for (int fn = 0; fn < FN_COUNT; fn++) {
         e.argpos_read[fn] = calloc((size_t)ir->arrays.len + 1, 1);
@@ -1508,7 +1576,8 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
         layout_emit(c, ir, &e.storage);
     for (int fn = 0; fn < FN_COUNT; fn++) {
         if (opt->emit & (1 << fn))
-            emit_function(&e, (Function)fn, c);
+            (fn == FN_HESSIAN ? emit_hessian : emit_function)(&e, (Function)fn,
+                                                              c);
         free(e.argpos_read[fn]);
     }
     free(e.declared);

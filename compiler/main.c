@@ -33,7 +33,8 @@ static const char usage[] =
     "         --part-size N    write functions of over 4N statements as parts\n"
     "                          of about N statements each (default 100)\n"
     "         --emit LIST      the functions to write, of value, gradient,\n"
-    "                          tangent and hessvec (default: value,gradient)\n"
+    "                          tangent, hessvec and hessian\n"
+    "                          (default: value,gradient)\n"
     "         --explain        say how the gradient uses memory, and why\n"
     "         --deps FILE      also write a make rule naming the outputs and\n"
     "                          every model file read (for make, ninja, cmake)\n"
@@ -108,14 +109,14 @@ static int is_count(const char *s)
 static int emit_bits(const char *list)
 {
     static const char *const kinds[] = {"value", "gradient", "tangent",
-                                        "hessvec"};
+                                        "hessvec", "hessian"};
     int bits = 0;
     for (const char *p = list;; p++) {
         size_t n = strcspn(p, ",");
         int k = 0;
-        while (k < 4 && !(strlen(kinds[k]) == n && strncmp(p, kinds[k], n) == 0))
+        while (k < 5 && !(strlen(kinds[k]) == n && strncmp(p, kinds[k], n) == 0))
             k++;
-        if (k == 4)
+        if (k == 5)
             return 0;
         bits |= 1 << k;
         p += n;
@@ -207,7 +208,7 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
                            "doubles, at least 1, not '%s'", a->stack_limit);
     if (a->emit_list && !(a->emit = emit_bits(a->emit_list)))
         return usage_error("--emit takes a comma-separated list of value, "
-                           "gradient, tangent and hessvec, not '%s'",
+                           "gradient, tangent, hessvec and hessian, not '%s'",
                            a->emit_list);
     if (a->part_size && !is_count(a->part_size))
         return usage_error("--part-size takes a whole number of "

@@ -54,7 +54,10 @@ run_one() {
         return 1
     fi
     mkdir -p "$out" || return 1
-    "$dervish" build -o "$out/$name.c" "$src/$name.dvs" || {
+    # a sample's own build options, if it has any, in NAME/build-options
+    opts=$(cat "$src/build-options" 2>/dev/null || true)
+    # shellcheck disable=SC2086 # the options are a word list
+    "$dervish" build $opts -o "$out/$name.c" "$src/$name.dvs" || {
         echo "dervish build failed"
         return 1
     }

@@ -1500,6 +1500,8 @@ typedef struct RmCase {
     double c_value, c_gvalue, *c_grad;
     double c_tvalue, c_dvalue;  /* the tangent function's value, and its
                                    derivative along RM_DIRECTION */
+    double c_hvalue, *c_hv;     /* the Hessian-vector function's value, and
+                                   the Hessian times RM_DIRECTION */
     long c_count;
 } RmCase;
 
@@ -1603,7 +1605,14 @@ static inline void rm_driver_case(FILE *f, RmCase *c, int k)
                "    for (int k = 0; k < M%d_PARAM_COUNT; k++)\n"
                "        d.v[k] = ((k * 7) %% 11 - 5) / 4.0;\n"
                "    double dv, ty = m%d_tangent(&p.p%s, &d.p, &dv);\n"
-               "    printf(\" %%a %%a\\n\", ty, dv);\n}\n\n", k, k, k, in);
+               "    printf(\" %%a %%a\", ty, dv);\n", k, k, k, in);
+    /* the Hessian times the same direction */
+    fprintf(f, "    m%d_param_flat hg, hv;\n"
+               "    double hy = m%d_hessvec(&p.p%s, &d.p, &hg.p, &hv.p);\n"
+               "    printf(\" %%a\", hy);\n"
+               "    for (int k = 0; k < M%d_PARAM_COUNT; k++)\n"
+               "        printf(\" %%a\", hv.v[k]);\n"
+               "    printf(\"\\n\");\n}\n\n", k, k, in, k);
     free(store);
 }
 
@@ -1667,6 +1676,45 @@ static inline void rm_write_driver(RmCase *cs, int n, const char *dir)
     free(path);
 }
 
+/* The Hessian times a direction: the emitted C's equals the IR
+ * evaluator's, which is symmetric: u.(H v) = v.(H u) for a second
+ * direction u, to rounding relative to the sizes of the terms. */
+static inline void rm_check_hessvec(RmCase *c, Evaluation *ev, long np)
+{
+    double *dir = calloc((size_t)np + 1, sizeof *dir);
+    double *u = calloc((size_t)np + 1, sizeof *u);
+    double *g = calloc((size_t)np + 1, sizeof *g);
+    double *hv = calloc((size_t)np + 1, sizeof *hv);
+    double *hu = calloc((size_t)np + 1, sizeof *hu);
+    for (long k = 0; k < np; k++) {
+        dir[k] = RM_DIRECTION(k);
+        u[k] = sin(1.7 * (double)k + 0.3);
+    }
+    double hy = eval_hessvec(ev, dir, g, hv);
+    if (rm_err(c->c_hvalue, hy) > RM_TOL_SAME)
+        rm_fail(c, "the Hessian-vector function returns %.17g, the IR "
+                "evaluator %.17g", c->c_hvalue, hy);
+    for (long k = 0; k < np; k++)
+        if (rm_err(c->c_hv[k], hv[k]) > RM_TOL_SAME)
+            rm_fail(c, "Hessian times the direction, entry %ld: emitted C "
+                    "%.17g, IR evaluator %.17g", k, c->c_hv[k], hv[k]);
+    eval_hessvec(ev, u, g, hu);
+    double uhv = 0, vhu = 0, scale = 0;
+    for (long k = 0; k < np; k++) {
+        uhv += u[k] * hv[k];
+        vhu += dir[k] * hu[k];
+        scale += fabs(u[k] * hv[k]) + fabs(dir[k] * hu[k]);
+    }
+    if (fabs(uhv - vhu) > 1e-10 * scale + 1e-300)
+        rm_fail(c, "the Hessian is not symmetric: u.(H v) = %.17g, v.(H u) = "
+                "%.17g", uhv, vhu);
+    free(dir);
+    free(u);
+    free(g);
+    free(hv);
+    free(hu);
+}
+
 /* Parse the driver's lines into the cases. */
 static inline void rm_read_output(RmCase *cs, int n, const char *text)
 {
@@ -1686,6 +1734,11 @@ static inline void rm_read_output(RmCase *cs, int n, const char *text)
             c->c_grad[e] = strtod(end, &end);
         c->c_tvalue = strtod(end, &end);
         c->c_dvalue = strtod(end, &end);
+        c->c_hvalue = strtod(end, &end);
+        free(c->c_hv);
+        c->c_hv = calloc((size_t)c->c_count + 1, sizeof *c->c_hv);
+        for (long e = 0; e < c->c_count; e++)
+            c->c_hv[e] = strtod(end, &end);
         c->ran = 1;
         p = strchr(end, '\n');
         if (p)
@@ -1795,6 +1848,7 @@ static inline void rm_judge(RmCase *c)
         if (fabs(c->c_dvalue - dot) > RM_TOL_SAME * scale)
             rm_fail(c, "tangent %.17g, the gradient times the direction "
                     "%.17g", c->c_dvalue, dot);
+        rm_check_hessvec(c, ev, np);
         if (c->tree) {
             double mine = creal(rm_eval(c->tree, -1, 0));
             if (rm_err(c->c_value, mine) > RM_TOL_CS)
@@ -1852,8 +1906,8 @@ static inline int rm_check_batch(RmCase *cs, int n, const char *dir,
         list = l;
     }
     rm_sh("cd '%s' && printf '%%s\\n' %s | xargs -P 2 -I@ sh -c "
-          "\"'%s' build --emit value,gradient,tangent %s --name m@ m@.dvs "
-          "2>m@.err; echo \\$? >m@.rc\"",
+          "\"'%s' build --emit value,gradient,tangent,hessvec %s --name m@ "
+          "m@.dvs 2>m@.err; echo \\$? >m@.rc\"",
           dir, list, tu_abs_dervish(), build_options);
     free(list);
     for (int k = 0; k < n; k++) {
@@ -1867,6 +1921,7 @@ static inline int rm_check_batch(RmCase *cs, int n, const char *dir,
         else {
             DvOptions o;
             memset(&o, 0, sizeof o);    /* no name, no diagnostics */
+            o.emit = DV_EMIT_DEFAULT | DV_EMIT_TANGENT | DV_EMIT_HESSVEC;
             c->have_comp = 1;
             if (dv_compile(&c->comp, c->label, c->text, strlen(c->text), &o))
                 rm_fail(c, "the dervish library rejects what the binary built");
@@ -1981,6 +2036,7 @@ static inline void rm_case_free(RmCase *c)
     free(c->label);
     free(c->why);
     free(c->c_grad);
+    free(c->c_hv);
 }
 
 /* Totals over many batches. */

@@ -849,6 +849,56 @@ START_TEST(a_wrong_tangent_is_a_mismatch)
 }
 END_TEST
 
+/* With --emit ...,hessvec, check compares the Hessian times a random
+ * direction with differences of the gradient, entry by entry. */
+START_TEST(the_hessian_vector_product_is_checked)
+{
+    const char *model = "param w[3], b\ninput x[3]\n"
+                        "z[i] = tanh(w[i] * x[i] + b) * exp(-w[i]^2)\n"
+                        "y = log(1 + sum(i: z[i]^2)) + hypot(b, 2 * b + 1)\n"
+                        "output y\n";
+    char *out, *err;
+    ck_assert_int_eq(run_check(model, NULL, "--emit value,gradient,hessvec",
+                               &out, &err), 0);
+    ck_assert_str_eq(err, "");
+    ck_assert_msg(strstr(out, "Hessian times a random direction (seed 1): 4 of "
+                              "4 entries agree with\n  differences of the "
+                              "gradient (largest error "), "%s", out);
+    char *last = last_line(out);
+    ck_assert_str_eq(last, "check: the Hessian times the direction agrees");
+    free(last);
+    free(out);
+    free(err);
+}
+END_TEST
+
+/* A wrong second derivative (the statement writing one entry of the
+ * Hessian-vector product, scaled by 1.001) is reported. */
+START_TEST(a_wrong_hessian_vector_product_is_a_mismatch)
+{
+    const char *text = "param a, b\ny = a * sin(b) + a^3\noutput y\n";
+    DvCompilation c;
+    DvOptions o;
+    memset(&o, 0, sizeof o);
+    o.emit = DV_EMIT_DEFAULT | DV_EMIT_HESSVEC;
+    ck_assert_int_eq(dv_compile(&c, "h.dvs", text, strlen(text), &o), 0);
+    Ir *ir = c.ir;
+    int32_t hv_a = ir->arrays.items[ir->arrays.items[0].adjoint].tangent;
+    ck_assert(spoil(ir, &ir->hv_reverse, hv_a));
+    TuCapture report;
+    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
+    ck_assert_int_eq(check_run(&c, &opt), 1);
+    char *out = tu_capture_close(&report);
+    ck_assert_msg(strstr(out, "check: 2 of 2 derivatives agree"), "%s", out);
+    ck_assert_msg(strstr(out, "): 1 of 2 entries agree with"), "%s", out);
+    char *last = last_line(out);
+    ck_assert_str_eq(last, "check: the Hessian times the direction disagrees");
+    free(last);
+    free(out);
+    dv_free(&c);
+}
+END_TEST
+
 START_TEST(a_value_that_is_not_finite_is_reported)
 {
     char *out = NULL;
@@ -895,6 +945,8 @@ int main(void)
                  tolerance_is_honoured, a_wrong_gradient_is_named_first,
                  the_tangent_is_checked_against_the_gradient,
                  a_wrong_tangent_is_a_mismatch,
+                 the_hessian_vector_product_is_checked,
+                 a_wrong_hessian_vector_product_is_a_mismatch,
                  a_value_that_is_not_finite_is_reported,
                  an_entry_without_numerical_derivative_is_unchecked);
     TU_ADD_TESTS(tu_case(s, "sizes", 60),

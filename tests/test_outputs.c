@@ -168,16 +168,17 @@ START_TEST(usage_errors)
          "'99999999999999999999'"},
         {"check --part-size 64 m.dvs", "unknown option '--part-size'"},
         {"build m.dvs --emit", "option --emit needs a value"},
-        {"build --emit hessian m.dvs", "--emit takes a comma-separated list "
-                                       "of value, gradient, tangent and "
-                                       "hessvec, not 'hessian'"},
+        {"build --emit jacobian m.dvs", "--emit takes a comma-separated "
+                                        "list of value, gradient, tangent, "
+                                        "hessvec and hessian, not "
+                                        "'jacobian'"},
         {"build --emit value,,tangent m.dvs", "--emit takes a "
                                               "comma-separated list of value, "
-                                              "gradient, tangent and hessvec, "
-                                              "not 'value,,tangent'"},
+                                              "gradient, tangent, hessvec and "
+                                              "hessian, not 'value,,tangent'"},
         {"check --emit '' m.dvs", "--emit takes a comma-separated list of "
-                                  "value, gradient, tangent and hessvec, not "
-                                  "''"},
+                                  "value, gradient, tangent, hessvec and "
+                                  "hessian, not ''"},
         {"graph --emit value m.dvs", "unknown option '--emit'"},
         {"check m.dvs --size", "option --size needs a value"},
         {"build --size n=4 m.dvs", "unknown option '--size'"},

@@ -1,5 +1,6 @@
 /* main.c - fits the Arrhenius law (arrhenius.dvs) to invented cure rates
- * of an adhesive with Newton's method on the generated gradient, then
+ * of an adhesive with Newton's method on the generated gradient and
+ * Hessian (built with --emit value,gradient,hessian), then
  * checks the fit against the straight-line least-squares solution for
  * ln k against 1/T, which this loss has in closed form, and against the
  * constants that made the data.  Prints the time to 95 % cure at 80 degC. */
@@ -38,26 +39,15 @@ static double value_flat(const double *x, const void *ctx)
     return arrhenius_value(&p.p, ctx);
 }
 
-/* Newton steps with the Hessian taken by central differences of the
- * gradient: the loss is quadratic in (lnA, Ea_kJ), so these differences
- * are exact up to rounding and one step lands on the minimum; a second
- * only polishes. */
+/* Newton steps with the generated Hessian: the loss is quadratic in
+ * (lnA, Ea_kJ), so one step lands on the minimum; a second only
+ * polishes. */
 static void newton(flat *x, const arrhenius_input *in)
 {
     for (int iter = 0; iter < 2; iter++) {
-        flat g, gp, gm, xs;
-        double H[2][2];
-        arrhenius_gradient(&x->p, in, &g.p);
-        for (int j = 0; j < 2; j++) {
-            double h = 1e-3 * fmax(1.0, fabs(x->v[j]));
-            xs = *x;
-            xs.v[j] += h;
-            arrhenius_gradient(&xs.p, in, &gp.p);
-            xs.v[j] -= 2 * h;
-            arrhenius_gradient(&xs.p, in, &gm.p);
-            for (int i = 0; i < 2; i++)
-                H[i][j] = (gp.v[i] - gm.v[i]) / (2 * h);
-        }
+        flat g;
+        double H[ARRHENIUS_PARAM_COUNT][ARRHENIUS_PARAM_COUNT];
+        arrhenius_hessian(&x->p, in, &g.p, H);
         double det = H[0][0] * H[1][1] - H[0][1] * H[1][0];
         x->v[0] -= (H[1][1] * g.v[0] - H[0][1] * g.v[1]) / det;
         x->v[1] -= (H[0][0] * g.v[1] - H[1][0] * g.v[0]) / det;
