@@ -823,29 +823,43 @@ START_TEST(the_tangent_is_checked_against_the_gradient)
 }
 END_TEST
 
+/* The report of check on TEXT compiled with the products EMIT (besides
+ * value and gradient), after spoil() on the statements of one product:
+ * the tangent of the output, or the Hessian-vector product's entry for
+ * the first param.  Check must fail. */
+static char *spoiled_check(const char *text, int emit)
+{
+    DvCompilation c;
+    DvOptions o;
+    memset(&o, 0, sizeof o);
+    o.emit = DV_EMIT_DEFAULT | emit;
+    ck_assert_int_eq(dv_compile(&c, "s.dvs", text, strlen(text), &o), 0);
+    Ir *ir = c.ir;
+    if (emit == DV_EMIT_TANGENT)
+        ck_assert(spoil(ir, &ir->tangent,
+                        ir->arrays.items[ir->output].tangent));
+    else
+        ck_assert(spoil(ir, &ir->hv_reverse,
+                        ir->arrays.items[ir->arrays.items[0].adjoint].tangent));
+    TuCapture report;
+    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
+    ck_assert_int_eq(check_run(&c, &opt), 1);
+    dv_free(&c);
+    return tu_capture_close(&report);
+}
+
 /* A wrong tangent statement (scaled by 1.001) is reported and fails the
  * check, though every gradient entry agrees. */
 START_TEST(a_wrong_tangent_is_a_mismatch)
 {
-    const char *text = "param a, b\ny = a * sin(b)\noutput y\n";
-    DvCompilation c;
-    DvOptions o;
-    memset(&o, 0, sizeof o);
-    o.emit = DV_EMIT_DEFAULT | DV_EMIT_TANGENT;
-    ck_assert_int_eq(dv_compile(&c, "t.dvs", text, strlen(text), &o), 0);
-    Ir *ir = c.ir;
-    ck_assert(spoil(ir, &ir->tangent, ir->arrays.items[ir->output].tangent));
-    TuCapture report;
-    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
-    ck_assert_int_eq(check_run(&c, &opt), 1);
-    char *out = tu_capture_close(&report);
+    char *out = spoiled_check("param a, b\ny = a * sin(b)\noutput y\n",
+                              DV_EMIT_TANGENT);
     ck_assert_msg(strstr(out, "check: 2 of 2 derivatives agree"), "%s", out);
     char *last = last_line(out);
     ck_assert_msg(strstr(last, "check: the tangent disagrees with the "
                                "gradient (") == last, "%s", last);
     free(last);
     free(out);
-    dv_free(&c);
 }
 END_TEST
 
@@ -876,26 +890,14 @@ END_TEST
  * Hessian-vector product, scaled by 1.001) is reported. */
 START_TEST(a_wrong_hessian_vector_product_is_a_mismatch)
 {
-    const char *text = "param a, b\ny = a * sin(b) + a^3\noutput y\n";
-    DvCompilation c;
-    DvOptions o;
-    memset(&o, 0, sizeof o);
-    o.emit = DV_EMIT_DEFAULT | DV_EMIT_HESSVEC;
-    ck_assert_int_eq(dv_compile(&c, "h.dvs", text, strlen(text), &o), 0);
-    Ir *ir = c.ir;
-    int32_t hv_a = ir->arrays.items[ir->arrays.items[0].adjoint].tangent;
-    ck_assert(spoil(ir, &ir->hv_reverse, hv_a));
-    TuCapture report;
-    CheckOptions opt = {NULL, 3, 1e-6, tu_capture_open(&report), NULL, 0};
-    ck_assert_int_eq(check_run(&c, &opt), 1);
-    char *out = tu_capture_close(&report);
+    char *out = spoiled_check("param a, b\ny = a * sin(b) + a^3\noutput y\n",
+                              DV_EMIT_HESSVEC);
     ck_assert_msg(strstr(out, "check: 2 of 2 derivatives agree"), "%s", out);
     ck_assert_msg(strstr(out, "): 1 of 2 entries agree with"), "%s", out);
     char *last = last_line(out);
     ck_assert_str_eq(last, "check: the Hessian times the direction disagrees");
     free(last);
     free(out);
-    dv_free(&c);
 }
 END_TEST
 

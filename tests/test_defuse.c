@@ -15,41 +15,13 @@
 
 /* ------------------------------------------------------------ helpers */
 
-typedef struct Model {
-    DvCompilation c;
-    Evaluation *ev;
-} Model;
-
-static Model *model_new(const char *text)
+static void set1(TuModel *m, const char *name, double v)
 {
-    Model *m = calloc(1, sizeof *m);
-    ck_assert_ptr_nonnull(m);
-    tu_compile(&m->c, "t.dvs", text);
-    m->ev = eval_new(m->c.ir);
-    return m;
-}
-
-static void model_free(Model *m)
-{
-    eval_free(m->ev);
-    dv_free(&m->c);
-    free(m);
-}
-
-static void set(Model *m, const char *name, const double *v, size_t n)
-{
-    double *slot = eval_slot(m->ev, name);
-    ck_assert_msg(slot != NULL, "no param or input '%s'", name);
-    memcpy(slot, v, n * sizeof *v);
-}
-
-static void set1(Model *m, const char *name, double v)
-{
-    set(m, name, &v, 1);
+    tu_model_set(m, name, &v, 1);
 }
 
 /* The gradient (malloc'd) and in *value the output, at the values set. */
-static double *gradient(Model *m, double *value)
+static double *gradient(TuModel *m, double *value)
 {
     long n = eval_param_count(m->ev);
     double *g = calloc((size_t)n, sizeof *g);
@@ -160,7 +132,7 @@ static double value_at_one(const char *dir, const char *name,
  * closed form s(1 - s) times the inner derivative, s = 1/(1 + e^-z). */
 START_TEST(logistic_def_gradient_is_the_closed_form)
 {
-    Model *m = model_new("def logistic(z) = 1 / (1 + exp(-z))\n"
+    TuModel *m = tu_model("def logistic(z) = 1 / (1 + exp(-z))\n"
                          "input x\n"
                          "param w, b\n"
                          "y = logistic(w * x + b)\n"
@@ -178,7 +150,7 @@ START_TEST(logistic_def_gradient_is_the_closed_form)
         assert_near(g[1], s * (1 - s), 1e-14, "dy/db");
         free(g);
     }
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -186,7 +158,7 @@ END_TEST
  * b^2 / r^3 and -a b / r^3 with r = sqrt(a^2 + b^2). */
 START_TEST(nested_defs)
 {
-    Model *m = model_new("def sq(x) = x * x\n"
+    TuModel *m = tu_model("def sq(x) = x * x\n"
                          "def norm2(x, y) = sqrt(sq(x) + sq(y))\n"
                          "def cosine(x, y) = x / norm2(x, y)\n"
                          "param a, b\n"
@@ -199,7 +171,7 @@ START_TEST(nested_defs)
     assert_near(g[0], 16.0 / 125.0, 1e-15, "df/da");
     assert_near(g[1], 12.0 / 125.0, 1e-15, "df/db");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -209,7 +181,7 @@ END_TEST
  * from cosh^2 - sinh^2 = 1) and dloss/dc = sum_j tanh z_j. */
 START_TEST(defs_in_reductions_and_whole_arrays)
 {
-    Model *m = model_new("def lin(w, x) = w * x\n"
+    TuModel *m = tu_model("def lin(w, x) = w * x\n"
                          "def act(u, gain) = gain * tanh(u)\n"
                          "input s[3]\n"
                          "param W[2,3], c\n"
@@ -220,8 +192,8 @@ START_TEST(defs_in_reductions_and_whole_arrays)
     static const double s[3] = {0.5, -1.0, 2.0};
     static const double W[2][3] = {{0.1, 0.2, -0.3}, {-0.4, 0.5, 0.25}};
     const double c = 1.75;
-    set(m, "s", s, 3);
-    set(m, "W", &W[0][0], 6);
+    tu_model_set(m, "s", s, 3);
+    tu_model_set(m, "W", &W[0][0], 6);
     set1(m, "c", c);
     double loss, *g = gradient(m, &loss);
     double want = 0, dc = 0;
@@ -238,14 +210,14 @@ START_TEST(defs_in_reductions_and_whole_arrays)
     assert_near(loss, want, 1e-15, "value");
     assert_near(g[6], dc, 1e-15, "dloss/dc");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
 /* A def whose body is a comparison gives a condition. */
 START_TEST(def_giving_a_condition)
 {
-    Model *m = model_new("def inside(x, lo, hi) = x >= lo && x <= hi\n"
+    TuModel *m = tu_model("def inside(x, lo, hi) = x >= lo && x <= hi\n"
                          "param a\n"
                          "y = inside(a, 0, 1) ? a * a : 0\n"
                          "output y\n");
@@ -259,7 +231,7 @@ START_TEST(def_giving_a_condition)
         assert_near(g[0], in ? 2 * a : 0, 0, "dy/da");
         free(g);
     }
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -267,7 +239,7 @@ END_TEST
  * array.  A parameter hides a const of the same name in the body. */
 START_TEST(defs_in_constants_and_parameters_are_local)
 {
-    Model *m = model_new("const k = 5\n"
+    TuModel *m = tu_model("const k = 5\n"
                          "def sq(x) = x * x\n"
                          "def twice(k) = 2 * k\n"
                          "const N = sq(3) + twice(0.5)\n"
@@ -280,13 +252,13 @@ START_TEST(defs_in_constants_and_parameters_are_local)
     double ones[10];
     for (int i = 0; i < 10; i++)
         ones[i] = 1;
-    set(m, "w", ones, 10);
+    tu_model_set(m, "w", ones, 10);
     double y, *g = gradient(m, &y);
     assert_near(y, 25, 0, "value: sum of 2 w[i], plus k");
     for (int i = 0; i < 10; i++)
         assert_near(g[i], 2, 0, "dy/dw[i]");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -297,11 +269,11 @@ END_TEST
  * two). */
 START_TEST(expansion_is_substitution)
 {
-    Model *d = model_new("def sq(x) = x * x\n"
+    TuModel *d = tu_model("def sq(x) = x * x\n"
                          "param a, b\n"
                          "y = sq(a + b)\n"
                          "output y\n");
-    Model *h = model_new("# the same model written out\n"
+    TuModel *h = tu_model("# the same model written out\n"
                          "param a, b\n"
                          "y = (a + b) * (a + b)\n"
                          "output y\n");
@@ -309,10 +281,10 @@ START_TEST(expansion_is_substitution)
     ck_assert_str_eq(with_def, written);
     free(with_def);
     free(written);
-    model_free(d);
-    model_free(h);
+    tu_model_free(d);
+    tu_model_free(h);
 
-    Model *m = model_new("def sq(x) = x * x\n"
+    TuModel *m = tu_model("def sq(x) = x * x\n"
                          "param a, w[3]\n"
                          "y = sq(a + sum(i: w[i]))\n"
                          "output y\n");
@@ -322,14 +294,14 @@ START_TEST(expansion_is_substitution)
     free(ir);
     const double w[3] = {0.5, -0.25, 2.0};
     set1(m, "a", 0.75);
-    set(m, "w", w, 3);
+    tu_model_set(m, "w", w, 3);
     double y, *g = gradient(m, &y);
     /* (a + sum w)^2 = 3^2, and every partial is 2 (a + sum w) */
     assert_near(y, 9, 0, "value");
     for (int i = 0; i < 4; i++)
         assert_near(g[i], 6, 0, "partial");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 

@@ -80,23 +80,6 @@ static void build(const char *dir, const char *args)
     free(err);
 }
 
-/* The names in DIR, hidden ones too, one a line, sorted (malloc'd). */
-static char *listing(const char *dir)
-{
-    char *out = NULL;
-    char *cmd = tu_format("LC_ALL=C ls -A '%s'", dir);
-    ck_assert_int_eq(tu_run(cmd, &out, NULL), 0);
-    free(cmd);
-    return out;
-}
-
-static void expect_listing(const char *dir, const char *want)
-{
-    char *got = listing(dir);
-    ck_assert_msg(strcmp(got, want) == 0, "%s holds\n%swhere\n%swas "
-                  "expected (no temporary may remain)", dir, got, want);
-    free(got);
-}
 
 /* ------------------------------------------------------ the rule text */
 
@@ -364,7 +347,7 @@ START_TEST(deps_to_a_pipe)
         free(out);
         free(err);
     }
-    expect_listing(dir, "spring.c\nspring.dvs\nspring.h\n");
+    tu_expect_listing(dir, "spring.c\nspring.dvs\nspring.h\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -394,7 +377,7 @@ START_TEST(identical_outputs_keep_their_mtime)
     ck_assert(kept(dir, "spring.h"));
     ck_assert(kept(dir, "s.d"));
     expect_text(dir, "spring.c", c);
-    expect_listing(dir, "s.d\nspring.c\nspring.dvs\nspring.h\n");
+    tu_expect_listing(dir, "s.d\nspring.c\nspring.dvs\nspring.h\n");
     tu_rmdir(dir);
     free(dir);
     free(c);
@@ -434,7 +417,7 @@ START_TEST(changed_outputs_are_replaced_one_by_one)
     ck_assert(kept(dir, "spring.h"));
     ck_assert(!kept(dir, "s.d"));
     expect_text(dir, "s.d", "spring.c ./spring.h: spring.dvs\n");
-    expect_listing(dir, "s.d\nspring.c\nspring.dvs\nspring.h\n");
+    tu_expect_listing(dir, "s.d\nspring.c\nspring.dvs\nspring.h\n");
     tu_rmdir(dir);
     free(dir);
     free(c);
@@ -457,7 +440,7 @@ START_TEST(always_write_replaces_identical_outputs)
     ck_assert(!kept(dir, "s.d"));
     expect_text(dir, "spring.c", c);
     expect_text(dir, "s.d", "spring.c spring.h: spring.dvs\n");
-    expect_listing(dir, "s.d\nspring.c\nspring.dvs\nspring.h\n");
+    tu_expect_listing(dir, "s.d\nspring.c\nspring.dvs\nspring.h\n");
     tu_rmdir(dir);
     free(dir);
     free(c);
@@ -509,7 +492,7 @@ START_TEST(kept_file_behind_a_link)
     struct stat st;
     ck_assert_int_eq(lstat(link_path, &st), 0);
     ck_assert_msg(S_ISLNK(st.st_mode), "link.h was replaced by a file");
-    expect_listing(dir, "link.h\nreal.h\nspring.c\nspring.dvs\n");
+    tu_expect_listing(dir, "link.h\nreal.h\nspring.c\nspring.dvs\n");
     tu_rmdir(dir);
     free(dir);
     free(link_path);

@@ -15,45 +15,10 @@
 
 /* ------------------------------------------------------------ helpers */
 
-typedef struct Model {
-    DvCompilation c;
-    Evaluation *ev;
-} Model;
-
-/* A model whose runtime sizes take the values SIZES (one per `size`
- * name), or, with SIZES NULL, a model without sizes. */
-static Model *model_sized(const char *text, const long *sizes)
-{
-    Model *m = calloc(1, sizeof *m);
-    ck_assert_ptr_nonnull(m);
-    tu_compile(&m->c, "t.dvs", text);
-    m->ev = sizes ? eval_new_sized(m->c.ir, sizes) : eval_new(m->c.ir);
-    return m;
-}
-
-static Model *model_new(const char *text)
-{
-    return model_sized(text, NULL);
-}
-
-static void model_free(Model *m)
-{
-    eval_free(m->ev);
-    dv_free(&m->c);
-    free(m);
-}
-
-static void set(Model *m, const char *name, const double *v, size_t n)
-{
-    double *slot = eval_slot(m->ev, name);
-    ck_assert_msg(slot != NULL, "no param or input '%s'", name);
-    memcpy(slot, v, n * sizeof *v);
-}
-
 #define SET(m, name, ...)                                                      \
     do {                                                                       \
         static const double v_[] = {__VA_ARGS__};                              \
-        set((m), (name), v_, sizeof v_ / sizeof v_[0]);                        \
+        tu_model_set((m), (name), v_, sizeof v_ / sizeof v_[0]);             \
     } while (0)
 
 /* |got - want| <= tol * max(1, |want|): relative for large values and
@@ -65,7 +30,7 @@ static void assert_near(double got, double want, double tol, const char *what)
 }
 
 /* The gradient (malloc'd) and value of the model at its current values. */
-static double *gradient(Model *m, double *value)
+static double *gradient(TuModel *m, double *value)
 {
     long n = eval_param_count(m->ev);
     double *g = calloc((size_t)n, sizeof *g);
@@ -78,7 +43,7 @@ static double *gradient(Model *m, double *value)
 
 START_TEST(product_and_sine)
 {
-    Model *m = model_new("param a, b\ny = a * b + sin(a)\noutput y\n");
+    TuModel *m = tu_model("param a, b\ny = a * b + sin(a)\noutput y\n");
     SET(m, "a", 0.7);
     SET(m, "b", -1.3);
     double y, *g = gradient(m, &y);
@@ -88,7 +53,7 @@ START_TEST(product_and_sine)
     assert_near(g[0], -1.3 + cos(0.7), 1e-15, "dy/da");
     assert_near(g[1], 0.7, 0, "dy/db");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -99,7 +64,7 @@ END_TEST
  * dy/dW_ji = v_j (1 - h_j^2) s_i, dy/dc = 1. */
 START_TEST(network_in_index_notation)
 {
-    Model *m = model_new("input s[3]\n"
+    TuModel *m = tu_model("input s[3]\n"
                          "param W[2,3], b[2], v[2], c\n"
                          "z[j] = sum(i: W[j,i] * s[i]) + b[j]\n"
                          "h = tanh(z)\n"
@@ -108,10 +73,10 @@ START_TEST(network_in_index_notation)
     static const double s[3] = {0.5, -1.0, 2.0};
     static const double W[2][3] = {{0.1, 0.2, -0.3}, {-0.4, 0.5, 0.25}};
     static const double b[2] = {0.05, -0.1}, v[2] = {1.5, -0.5};
-    set(m, "s", s, 3);
-    set(m, "W", &W[0][0], 6);
-    set(m, "b", b, 2);
-    set(m, "v", v, 2);
+    tu_model_set(m, "s", s, 3);
+    tu_model_set(m, "W", &W[0][0], 6);
+    tu_model_set(m, "b", b, 2);
+    tu_model_set(m, "v", v, 2);
     SET(m, "c", 0.25);
     double y, *g = gradient(m, &y);
     double want = 0.25;
@@ -130,7 +95,7 @@ START_TEST(network_in_index_notation)
     assert_near(g[10], 1, 0, "dy/dc");
     assert_near(y, want, 1e-15, "value");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -140,7 +105,7 @@ END_TEST
  * dy/dw = (0, x_1 + 1, 0, 0) = (0, 4, 0, 0). */
 START_TEST(max_and_min_go_to_the_first_winner)
 {
-    Model *m = model_new("input x[4]\nparam w[4]\n"
+    TuModel *m = tu_model("input x[4]\nparam w[4]\n"
                          "y = max(i: w[i] * x[i]) + min(i: w[i] - x[i])\n"
                          "output y\n");
     SET(m, "x", 1, 3, 3, 2);
@@ -151,7 +116,7 @@ START_TEST(max_and_min_go_to_the_first_winner)
     for (int i = 0; i < 4; i++)
         assert_near(g[i], want[i], 0, "dy/dw");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -159,7 +124,7 @@ END_TEST
  * adjoint lands on the right element of a 2-D array. */
 START_TEST(max_over_two_indices)
 {
-    Model *m = model_new("param A[2,3]\ny = max(i, j: A[i,j] * A[i,j])\n"
+    TuModel *m = tu_model("param A[2,3]\ny = max(i, j: A[i,j] * A[i,j])\n"
                          "output y\n");
     SET(m, "A", 0.1, -0.2, 0.3, 0.4, -0.9, 0.5);
     double y, *g = gradient(m, &y);
@@ -167,7 +132,7 @@ START_TEST(max_over_two_indices)
     for (int k = 0; k < 6; k++)     /* d(A^2)/dA = 2A at A[1][1] only */
         assert_near(g[k], k == 4 ? -1.8 : 0, 1e-15, "dy/dA");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -175,7 +140,7 @@ END_TEST
  * softmax weights (differentiate the log of a sum). */
 START_TEST(logsumexp_gives_softmax)
 {
-    Model *m = model_new("param a[3]\ny = logsumexp(i: a[i])\noutput y\n");
+    TuModel *m = tu_model("param a[3]\ny = logsumexp(i: a[i])\noutput y\n");
     SET(m, "a", 1, 2, 3);
     double y, *g = gradient(m, &y);
     double total = exp(1) + exp(2) + exp(3);
@@ -192,14 +157,14 @@ START_TEST(logsumexp_gives_softmax)
     assert_near(g[0], 1 / (1 + exp(1)), 2e-13, "shifted weight");
     assert_near(g[2], 0, 1e-300, "negligible weight");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
 /* The derivative of c ? p : q flows only into the branch taken. */
 START_TEST(conditions_pick_a_branch)
 {
-    Model *m = model_new("param a, b\n"
+    TuModel *m = tu_model("param a, b\n"
                          "y = a > b && !(a > 5) ? a * a : b * b * b\n"
                          "output y\n");
     SET(m, "a", 2);
@@ -216,7 +181,7 @@ START_TEST(conditions_pick_a_branch)
     assert_near(g[0], 0, 0, "a unused");
     assert_near(g[1], 12, 0, "d(b^3)/db");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -225,15 +190,15 @@ END_TEST
  * and dy/dx_j = sum_i 2 r_i e^{M_ij}. */
 START_TEST(whole_array_and_index_forms)
 {
-    Model *m = model_new("param M[2,2], x[2]\n"
+    TuModel *m = tu_model("param M[2,2], x[2]\n"
                          "E = exp(M)\n"
                          "r[i] = sum(j: E[i,j] * x[j])\n"
                          "y = sum(i: r[i] * r[i])\n"
                          "output y\n");
     static const double M[2][2] = {{0.1, -0.2}, {0.3, 0.05}};
     static const double x[2] = {1.5, -0.5};
-    set(m, "M", &M[0][0], 4);
-    set(m, "x", x, 2);
+    tu_model_set(m, "M", &M[0][0], 4);
+    tu_model_set(m, "x", x, 2);
     double y, *g = gradient(m, &y);
     double r[2], want_y = 0, want_x[2] = {0, 0};
     for (int i = 0; i < 2; i++) {
@@ -250,7 +215,7 @@ START_TEST(whole_array_and_index_forms)
     assert_near(g[5], want_x[1], 1e-15, "dy/dx1");
     assert_near(y, want_y, 1e-15, "value");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -260,7 +225,7 @@ END_TEST
  * grad = (-400 x1 (x2 - x1^2) - 2 (1 - x1), 200 (x2 - x1^2)) = (-215.6, -88). */
 START_TEST(rosenbrock_at_the_standard_start)
 {
-    Model *m = model_new("param x1, x2\n"
+    TuModel *m = tu_model("param x1, x2\n"
                          "f = 100 * (x2 - x1^2)^2 + (1 - x1)^2\n"
                          "output f\n");
     SET(m, "x1", -1.2);
@@ -270,7 +235,7 @@ START_TEST(rosenbrock_at_the_standard_start)
     assert_near(g[0], -215.6, 1e-14, "df/dx1");
     assert_near(g[1], -88, 1e-14, "df/dx2");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -279,7 +244,7 @@ END_TEST
  * residual is exactly zero, so f = 0 and the gradient is exactly 0. */
 START_TEST(beale_at_its_minimiser)
 {
-    Model *m = model_new("input d1, d2, d3\nparam x1, x2\n"
+    TuModel *m = tu_model("input d1, d2, d3\nparam x1, x2\n"
                          "f = (d1 - x1 * (1 - x2))^2 +\n"
                          "    (d2 - x1 * (1 - x2^2))^2 +\n"
                          "    (d3 - x1 * (1 - x2^3))^2\n"
@@ -299,7 +264,7 @@ START_TEST(beale_at_its_minimiser)
     g = gradient(m, &y);
     ck_assert(g[0] != 0 && y > 0);
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -375,8 +340,8 @@ START_TEST(each_op_by_reverse_sweep_and_complex_step)
 {
     const OpCase *oc = &op_cases[_i];
     char *text = tu_format("param a\ny = %s\noutput y\n", oc->expr);
-    Model *m = model_new(text);
-    set(m, "a", &oc->at, 1);
+    TuModel *m = tu_model(text);
+    tu_model_set(m, "a", &oc->at, 1);
     double y, *g = gradient(m, &y);
     double f = oc->value(oc->at), df = oc->slope(oc->at);
     char *what = tu_format("%s at %g", oc->expr, oc->at);
@@ -389,7 +354,7 @@ START_TEST(each_op_by_reverse_sweep_and_complex_step)
     free(what);
     free(g);
     free(text);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -415,7 +380,7 @@ START_TEST(complex_step_stops_at_erf_and_friends)
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
         char *text = tu_format("param a, b\ny = %s\noutput y\n",
                                cases[i].expr);
-        Model *m = model_new(text);
+        TuModel *m = tu_model(text);
         SET(m, "a", 0.5);
         SET(m, "b", 2);
         double y, *g = gradient(m, &y);
@@ -429,21 +394,21 @@ START_TEST(complex_step_stops_at_erf_and_friends)
         assert_near(cs.value, y, 1e-15, cases[i].expr);
         free(g);
         free(text);
-        model_free(m);
+        tu_model_free(m);
     }
 }
 END_TEST
 
 START_TEST(slots_and_flat_params)
 {
-    Model *m = model_new("input s[2]\nparam a, W[2,2]\n"
+    TuModel *m = tu_model("input s[2]\nparam a, W[2,2]\n"
                          "y = a * sum(i, j: W[i,j] * s[j])\noutput y\n");
     ck_assert_int_eq(eval_param_count(m->ev), 5);
     ck_assert_ptr_null(eval_slot(m->ev, "y"));       /* a value, not settable */
     ck_assert_ptr_null(eval_slot(m->ev, "nosuch"));
     ck_assert_ptr_eq(eval_param(m->ev, 0), eval_slot(m->ev, "a"));
     ck_assert_ptr_eq(eval_param(m->ev, 3), eval_slot(m->ev, "W") + 2);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -457,7 +422,7 @@ static double data_value(long k, double shift)
 }
 
 /* Fill the input NAME with n data values. */
-static double *set_data(Model *m, const char *name, long n, double shift)
+static double *set_data(TuModel *m, const char *name, long n, double shift)
 {
     double *slot = eval_slot(m->ev, name);
     ck_assert_msg(slot != NULL, "no input '%s'", name);
@@ -479,7 +444,7 @@ START_TEST(least_squares_over_n_points)
 {
     static const long ns[] = {1, 2, 300};
     long n = ns[_i];
-    Model *m = model_sized(least_squares, &n);
+    TuModel *m = tu_model_sized(least_squares, &n);
     const double *x = set_data(m, "x", n, 0.0);
     const double *y = set_data(m, "y", n, 1.3);
     SET(m, "a", 0.8);
@@ -509,7 +474,7 @@ START_TEST(least_squares_over_n_points)
     ck_assert_double_eq(g2[1], g[1]);
     free(g2);
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -518,14 +483,14 @@ END_TEST
 START_TEST(least_squares_without_data)
 {
     long n = 0;
-    Model *m = model_sized(least_squares, &n);
+    TuModel *m = tu_model_sized(least_squares, &n);
     ck_assert_ptr_nonnull(eval_slot(m->ev, "x"));
     SET(m, "a", 0.8);
     SET(m, "b", -0.25);
     ck_assert(isnan(eval_value(m->ev)));
-    model_free(m);
+    tu_model_free(m);
 
-    m = model_sized("size n\ninput x[n], y[n]\nparam a, b\n"
+    m = tu_model_sized("size n\ninput x[n], y[n]\nparam a, b\n"
                     "pred[k] = a * x[k] + b\n"
                     "loss = sum(k: (pred[k] - y[k])^2)\noutput loss\n", &n);
     SET(m, "a", 0.8);
@@ -538,7 +503,7 @@ START_TEST(least_squares_without_data)
     ck_assert_double_eq(cs.value, 0);
     ck_assert_double_eq(cs.slope, 0);
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -550,7 +515,7 @@ START_TEST(size_as_a_number)
 {
     static const long ns[] = {0, 1, 7};
     long n = ns[_i];
-    Model *m = model_sized("size n\ninput x[n]\nparam mu, s\n"
+    TuModel *m = tu_model_sized("size n\ninput x[n]\nparam mu, s\n"
                            "nll = sum(k: ((x[k] - mu) / s)^2) / 2 + "
                            "n * log(s)\noutput nll\n", &n);
     const double *x = set_data(m, "x", n, 0.4);
@@ -570,7 +535,7 @@ START_TEST(size_as_a_number)
     assert_near(cs.slope, -sq / (s * s * s) + (double)n / s, 1e-14,
                 "complex dL/ds");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -591,7 +556,7 @@ START_TEST(empty_reductions)
         char *text = tu_format("size n\ninput x[n]\nparam w\n"
                                "y = %s(k: w * x[k])\noutput y\n",
                                cases[i].reduction);
-        Model *m = model_sized(text, &n);
+        TuModel *m = tu_model_sized(text, &n);
         SET(m, "w", 0.5);
         double value, *g = gradient(m, &value);
         ck_assert_msg(value == cases[i].value, "%s: %g", cases[i].reduction,
@@ -601,7 +566,7 @@ START_TEST(empty_reductions)
         ck_assert(cs.value == cases[i].value);
         free(g);
         free(text);
-        model_free(m);
+        tu_model_free(m);
     }
 }
 END_TEST
@@ -611,14 +576,14 @@ END_TEST
 START_TEST(sized_rows_of_a_matrix)
 {
     long n = 7;
-    Model *m = model_sized("size n\ninput X[n, 3], y[n]\nparam w[3]\n"
+    TuModel *m = tu_model_sized("size n\ninput X[n, 3], y[n]\nparam w[3]\n"
                            "pred[k] = sum(j: X[k, j] * w[j])\n"
                            "r = pred - y\n"
                            "loss = sum(k: r[k]^2)\noutput loss\n", &n);
     const double *X = set_data(m, "X", 3 * n, 0.0);
     const double *y = set_data(m, "y", n, 2.0);
     static const double w[3] = {0.3, -1.1, 0.6};
-    set(m, "w", w, 3);
+    tu_model_set(m, "w", w, 3);
     double want = 0, want_g[3] = {0, 0, 0};
     for (long k = 0; k < n; k++) {
         double r = -y[k];
@@ -633,7 +598,7 @@ START_TEST(sized_rows_of_a_matrix)
     for (int j = 0; j < 3; j++)
         assert_near(g[j], want_g[j], 1e-14, "dL/dw");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -644,7 +609,7 @@ END_TEST
 START_TEST(max_over_two_sizes)
 {
     long sizes[2] = {3, 4};
-    Model *m = model_sized("size n, m\ninput A[n, m]\nparam c\n"
+    TuModel *m = tu_model_sized("size n, m\ninput A[n, m]\nparam c\n"
                            "y = max(i, j: c * A[i, j]) + "
                            "sum(i, j: A[i, j]) * c^2 / (n * m)\noutput y\n",
                            sizes);
@@ -658,14 +623,14 @@ START_TEST(max_over_two_sizes)
     assert_near(value, 0.5 * top + 0.25 * total / 12, 1e-14, "y");
     assert_near(g[0], top + 2 * 0.5 * total / 12, 1e-14, "dy/dc");
     free(g);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
 START_TEST(extents_and_element_counts)
 {
     long sizes[2] = {5, 0};
-    Model *m = model_sized("size n, m\ninput X[n, 2], E[n, m], s\n"
+    TuModel *m = tu_model_sized("size n, m\ninput X[n, 2], E[n, m], s\n"
                            "param w[2]\n"
                            "y = sum(k, j: X[k, j] * w[j]) + s * "
                            "sum(k, j: E[k, j])\noutput y\n",
@@ -685,7 +650,7 @@ START_TEST(extents_and_element_counts)
     ck_assert_int_eq(eval_elements(X, huge), -1);
     huge[1] = 0;
     ck_assert_int_eq(eval_elements(E, huge), 0);
-    model_free(m);
+    tu_model_free(m);
 }
 END_TEST
 
@@ -721,7 +686,7 @@ static double test_value(int k, double shift)
 
 static void compare_with_emitted(const char *model)
 {
-    Model *m = model_new(model);
+    TuModel *m = tu_model(model);
     const Ir *ir = m->c.ir;
     long np = eval_param_count(m->ev), ni = 0;
     char *pv = tu_format(""), *iv = tu_format("0");
@@ -800,7 +765,7 @@ static void compare_with_emitted(const char *model)
     free(want);
     free(pv);
     free(iv);
-    model_free(m);
+    tu_model_free(m);
 }
 
 START_TEST(agrees_with_the_emitted_c)

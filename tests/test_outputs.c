@@ -43,23 +43,6 @@ static void expect_run(const char *dir, const char *args, int status,
     free(err);
 }
 
-/* The names in DIR, hidden ones too, one a line, sorted (malloc'd). */
-static char *listing(const char *dir)
-{
-    char *out = NULL;
-    char *cmd = tu_format("LC_ALL=C ls -A '%s'", dir);
-    ck_assert_int_eq(tu_run(cmd, &out, NULL), 0);
-    free(cmd);
-    return out;
-}
-
-static void expect_listing(const char *dir, const char *want)
-{
-    char *got = listing(dir);
-    ck_assert_msg(strcmp(got, want) == 0, "%s holds\n%swhere\n%swas "
-                  "expected (no temporary may remain)", dir, got, want);
-    free(got);
-}
 
 static void expect_file(const char *dir, const char *name, const char *text)
 {
@@ -211,7 +194,7 @@ START_TEST(usage_errors)
     expect_run(dir, "check " SIZE_OPTS_16 "m.dvs", 2,
                "dervish: --size n=1: the model has no size called 'n' (it "
                "declares none)\n");
-    expect_listing(dir, "m.dvs\n");
+    tu_expect_listing(dir, "m.dvs\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -227,7 +210,7 @@ START_TEST(reserved_name_option)
                "dervish: --name 'dvs_m' starts with 'dvs_' or 'DVS_', "
                "prefixes dervish reserves for the names it invents in "
                "emitted code\n");
-    expect_listing(dir, "m.dvs\n");
+    tu_expect_listing(dir, "m.dvs\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -306,7 +289,7 @@ START_TEST(out_of_memory)
         }
         expect_file(dir, "m.c", old_c);
         expect_file(dir, "m.h", old_h);
-        expect_listing(dir, "big.dvs\nm.c\nm.dvs\nm.h\nwide.dvs\n");
+        tu_expect_listing(dir, "big.dvs\nm.c\nm.dvs\nm.h\nwide.dvs\n");
     }
     tu_rmdir(dir);
     free(dir);
@@ -330,7 +313,7 @@ START_TEST(model_error_keeps_outputs)
                "m.dvs: 1 error; nothing written\n");
     expect_file(dir, "m.c", old_c);
     expect_file(dir, "m.h", old_h);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -345,7 +328,7 @@ START_TEST(full_disk_keeps_the_other_output)
     expect_run(dir, "build -o m.c --header /dev/full m.dvs", 3,
                "dervish: cannot write /dev/full: No space left on device\n");
     expect_file(dir, "m.c", old_c);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -355,7 +338,7 @@ END_TEST
  * NULL. */
 static char *find_prefixed(const char *dir, const char *prefix)
 {
-    char *names = listing(dir), *found = NULL;
+    char *names = tu_listing(dir), *found = NULL;
     for (char *line = strtok(names, "\n"); line && !found;
          line = strtok(NULL, "\n"))
         if (strncmp(line, prefix, strlen(prefix)) == 0)
@@ -420,7 +403,7 @@ static void kill_while_blocked(int sig)
                   "dervish should end by signal %d (status 0x%x)", sig,
                   status);
     expect_file(dir, "m.h", old_h);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
     free(fifo);
@@ -447,8 +430,8 @@ START_TEST(directory_as_an_output)
     expect_run(dir, "build -o m.c --header out m.dvs", 3,
                "dervish: cannot write out: it is a directory\n");
     expect_file(dir, "m.c", old_c);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\nout\n");
-    expect_listing(sub, "");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\nout\n");
+    tu_expect_listing(sub, "");
     tu_rmdir(dir);
     free(dir);
     free(sub);
@@ -461,7 +444,7 @@ START_TEST(missing_output_directory)
     expect_run(dir, "build -o none/m.c --header m.h m.dvs", 3,
                "dervish: cannot write none/m.c: No such file or directory\n");
     expect_file(dir, "m.h", old_h);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -483,7 +466,7 @@ START_TEST(socket_as_an_output)
     expect_run(dir, "build -o sock --header m.h m.dvs", 3,
                "dervish: cannot write sock: No such device or address\n");
     expect_file(dir, "m.h", old_h);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\nsock\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\nsock\n");
     tu_rmdir(dir);
     free(dir);
 }
@@ -515,7 +498,7 @@ START_TEST(rename_refused)
                           strcmp(header, fresh) == 0,
                       "m.h is neither the old nor the new header:\n%s",
                       header);
-        expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+        tu_expect_listing(dir, "m.c\nm.dvs\nm.h\n");
         free(err);
         free(header);
         free(fresh);
@@ -552,7 +535,7 @@ START_TEST(same_file_as_both_outputs)
                                     exists ? "\n" : "");
             if (exists)
                 expect_file(dir, name, old_h);
-            expect_listing(dir, files);
+            tu_expect_listing(dir, files);
             tu_rmdir(dir);
             free(dir);
             free(sub);
@@ -575,7 +558,7 @@ START_TEST(success_replaces_both)
     expect_file(dir, "m.c", c);
     expect_file(dir, "m.h", h);
     expect_file(dir, "kept.c", old_c);
-    expect_listing(dir, "kept.c\nm.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "kept.c\nm.c\nm.dvs\nm.h\n");
     /* new outputs get the usual permissions: 0666 less the umask */
     char *cmd = tu_format("cd '%s' && umask 027 && rm m.c m.h && " CAP "'%s' "
                           "build m.dvs && stat -c %%a m.c m.h", dir,
@@ -610,7 +593,7 @@ START_TEST(stdout_as_the_source)
                                                             1);
     ck_assert_str_eq(out, c);
     expect_file(dir, "m.h", h);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\nstatus\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\nstatus\n");
     tu_rmdir(dir);
     free(dir);
     free(cmd);
@@ -634,7 +617,7 @@ START_TEST(symlink_output_stays_a_link)
     ck_assert_msg(S_ISLNK(st.st_mode), "link.c was replaced by a file");
     char *c = reference("link.c", "m.h", 0);
     expect_file(dir, "m.c", c);
-    expect_listing(dir, "link.c\nm.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "link.c\nm.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
     free(link_path);
@@ -701,7 +684,7 @@ START_TEST(long_source_streams_whole)
     char *renamed = tu_replace(held, "/* stdout - ", "/* m.c - ");
     ck_assert_msg(strcmp(streamed, renamed) == 0,
                   "the streamed source differs from the one held whole");
-    expect_listing(dir, "held.c\nm.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "held.c\nm.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
     free(text);
@@ -727,7 +710,7 @@ START_TEST(failure_while_streaming_keeps_outputs)
     ck_assert_str_eq(err, "dervish: cannot write m.c: File too large\n");
     expect_file(dir, "m.c", old_c);
     expect_file(dir, "m.h", old_h);
-    expect_listing(dir, "m.c\nm.dvs\nm.h\n");
+    tu_expect_listing(dir, "m.c\nm.dvs\nm.h\n");
     tu_rmdir(dir);
     free(dir);
     free(text);
@@ -761,7 +744,7 @@ START_TEST(deps_failures_keep_outputs)
         expect_file(dir, "m.c", old_c);
         expect_file(dir, "m.h", old_h);
         expect_file(dir, "m.d", old_d);
-        expect_listing(dir, "m.c\nm.d\nm.dvs\nm.h\nout\n");
+        tu_expect_listing(dir, "m.c\nm.d\nm.dvs\nm.h\nout\n");
     }
     tu_write_in(dir, "m.dvs", "param k\ne = k * q\noutput e\n");
     expect_run(dir, "build --deps m.d m.dvs", 1,
@@ -769,7 +752,7 @@ START_TEST(deps_failures_keep_outputs)
                "line\n    e = k * q\n            ^\n"
                "m.dvs: 1 error; nothing written\n");
     expect_file(dir, "m.d", old_d);
-    expect_listing(dir, "m.c\nm.d\nm.dvs\nm.h\nout\n");
+    tu_expect_listing(dir, "m.c\nm.d\nm.dvs\nm.h\nout\n");
     tu_rmdir(dir);
     free(dir);
     free(sub);
@@ -796,7 +779,7 @@ START_TEST(deps_path_refused)
                                          "two\nlines.dvs", "end\\"};
     for (size_t i = 0; i < sizeof models / sizeof models[0]; i++)
         tu_write_in(dir, models[i], model);
-    char *before = listing(dir);
+    char *before = tu_listing(dir);
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++) {
         char *want = tu_format("dervish: cannot write m.d: a make rule "
                                "cannot name '%s', which holds %s\n",
@@ -804,7 +787,7 @@ START_TEST(deps_path_refused)
         expect_run(dir, cases[i].args, 3, want);
         expect_file(dir, "m.c", old_c);
         expect_file(dir, "m.h", old_h);
-        expect_listing(dir, before);
+        tu_expect_listing(dir, before);
         free(want);
     }
     tu_rmdir(dir);

@@ -15,6 +15,7 @@
 #include <unistd.h>
 
 #include "dervish.h"
+#include "eval.h"
 
 /* The dervish binary under test: $DERVISH, else build/dervish. */
 static inline const char *tu_dervish(void)
@@ -136,6 +137,26 @@ static inline int tu_run(const char *cmd, char **out, char **err)
     if (rc == -1 || !WIFEXITED(rc))
         return -1;
     return WEXITSTATUS(rc);
+}
+
+
+/* The names in DIR, hidden ones too, one a line, sorted (malloc'd). */
+static inline char *tu_listing(const char *dir)
+{
+    char *out = NULL;
+    char *cmd = tu_format("LC_ALL=C ls -A '%s'", dir);
+    ck_assert_int_eq(tu_run(cmd, &out, NULL), 0);
+    free(cmd);
+    return out;
+}
+
+/* DIR holds exactly WANT (as tu_listing gives it): no temporary remains. */
+static inline void tu_expect_listing(const char *dir, const char *want)
+{
+    char *got = tu_listing(dir);
+    ck_assert_msg(strcmp(got, want) == 0, "%s holds\n%swhere\n%swas "
+                  "expected (no temporary may remain)", dir, got, want);
+    free(got);
 }
 
 /* s with the first occurrence of `from` replaced by `to` (malloc'd). */
@@ -307,6 +328,44 @@ static inline char *tu_ir_text(const Ir *ir)
     TuCapture cap;
     ir_print(ir, tu_capture_open(&cap));
     return tu_capture_close(&cap);
+}
+
+
+/* A compiled model with an evaluation of it, sizes at SIZES (one per
+ * `size` name) or, with SIZES NULL, a model without sizes. */
+typedef struct TuModel {
+    DvCompilation c;
+    Evaluation *ev;
+} TuModel;
+
+static inline TuModel *tu_model_sized(const char *text, const long *sizes)
+{
+    TuModel *m = calloc(1, sizeof *m);
+    ck_assert_ptr_nonnull(m);
+    tu_compile(&m->c, "t.dvs", text);
+    m->ev = sizes ? eval_new_sized(m->c.ir, sizes) : eval_new(m->c.ir);
+    return m;
+}
+
+static inline TuModel *tu_model(const char *text)
+{
+    return tu_model_sized(text, NULL);
+}
+
+static inline void tu_model_free(TuModel *m)
+{
+    eval_free(m->ev);
+    dv_free(&m->c);
+    free(m);
+}
+
+/* Set the n values of the param or input NAME. */
+static inline void tu_model_set(TuModel *m, const char *name, const double *v,
+                                size_t n)
+{
+    double *slot = eval_slot(m->ev, name);
+    ck_assert_msg(slot != NULL, "no param or input '%s'", name);
+    memcpy(slot, v, n * sizeof *v);
 }
 
 /* The array named NAME with role ROLE (TU_ANY_ROLE: the first of any role);
