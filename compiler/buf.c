@@ -39,8 +39,16 @@ int buf_flush(Buf *b)
     return b->failed ? -1 : 0;
 }
 
+static void count_lines(Buf *b, const char *s, size_t n)
+{
+    for (const char *p = s, *end = s + n;
+         (p = memchr(p, '\n', (size_t)(end - p))) != NULL; p++)
+        b->lines++;
+}
+
 void buf_putn(Buf *b, const char *s, size_t n)
 {
+    count_lines(b, s, n);
     if (b->sink && b->len + n > BUF_FLUSH_AT) {
         buf_flush(b);
         if (n > BUF_FLUSH_AT) {
@@ -76,6 +84,7 @@ void buf_printf(Buf *b, const char *fmt, ...)
         vsnprintf(b->data + b->len, (size_t)n + 1, fmt, ap);
         va_end(ap);
     }
+    count_lines(b, b->data + b->len, (size_t)n);
     b->len += (size_t)n;
     if (b->sink && b->len > BUF_FLUSH_AT)
         buf_flush(b);
@@ -85,5 +94,5 @@ void buf_free(Buf *b)
 {
     free(b->data);
     b->data = NULL;
-    b->len = b->cap = 0;
+    b->len = b->cap = b->lines = 0;
 }

@@ -13,6 +13,7 @@ typedef struct Buf {
     char *data;         /* NUL-terminated once anything is written; with a
                            sink, only the text not yet passed on */
     size_t len, cap;
+    size_t lines;       /* newlines written so far (passed on or held) */
     BufSink sink;       /* NULL: the Buf keeps all its text */
     void *target;       /* the sink's first argument */
     int failed;         /* the sink failed: further text is dropped */

@@ -58,6 +58,7 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
     c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
     c->emit = opt->emit ? opt->emit : DV_EMIT_DEFAULT;
+    c->line_directives = opt->line_directives;
     if (c->emit & DV_EMIT_HESSIAN)
         c->emit |= DV_EMIT_HESSVEC;     /* the Hessian calls it */
 
@@ -93,6 +94,8 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.stack_limit = c->stack_limit;
     o.part_size = c->part_size;
     o.emit = c->emit;
+    o.model_path = c->src.path;
+    o.line_directives = c->line_directives;
     emit_c(c->ir, &o, c_out, h_out);
 }
 

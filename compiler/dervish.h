@@ -28,6 +28,7 @@ typedef struct DvOptions {
     long stack_limit;       /* --stack-limit; 0 means DV_STACK_LIMIT */
     long part_size;         /* --part-size; 0 means DV_PART_SIZE */
     int emit;               /* --emit: DV_EMIT_* bits; 0 means the default */
+    int line_directives;    /* --line-directives */
     /* -I: where 'use' looks for a file after the directory of the file
      * that uses it, in this order (the strings must outlive the
      * compilation) */
@@ -43,6 +44,7 @@ typedef struct DvCompilation {
     long stack_limit;       /* for the emitter */
     long part_size;         /* for the emitter */
     int emit;               /* DV_EMIT_* bits: what is emitted and checked */
+    int line_directives;    /* #line directives in the emitted C */
     SourceSet files;        /* the files 'use' statements read */
     /* Every file the compilation read, for the dependencies of its
      * outputs: the model's path as given, then each used file's as found

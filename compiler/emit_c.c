@@ -59,6 +59,8 @@ typedef struct Emitter {
     Buf *text;          /* the function's own text (its parts go here
                            too, ahead of it) */
     Buf part_body;      /* the current part's statements */
+    Buf *back;          /* with #line: where the last return to the C file */
+    size_t back_at;     /* was written, and the length after it */
 } Emitter;
 
 /* Most statements joined into one loop nest. */
@@ -554,6 +556,69 @@ static void loop_order(const Emitter *e, const IrStmt *const *s, int count,
     order[n - 1] = moved;
 }
 
+/* s as a C string literal (for #line). */
+static void put_string(Buf *b, const char *s)
+{
+    buf_put(b, "\"");
+    for (; *s; s++) {
+        if (*s == '"' || *s == '\\')
+            buf_put(b, "\\");
+        buf_putn(b, s, 1);
+    }
+    buf_put(b, "\"");
+}
+
+/* The marker that put_code turns into a #line directive back to the C
+ * file, once the line it lands on is known. */
+#define BACK_TO_C "\001\n"
+
+/* CODE's lines to e->out, each after a #line directive naming the model
+ * line at ORIGIN (so a compiler's messages and a debugger's steps in them
+ * show the model), then the marker that returns to the C file. */
+static void put_model_lines(Emitter *e, const Buf *code, Span origin)
+{
+    int line, col;
+    source_line_col(e->ir->src, origin.off, &line, &col);
+    if (e->back == e->out && e->back_at == e->out->len) {
+        /* nothing since the last group's return to C: take it back */
+        e->out->len -= strlen(BACK_TO_C);
+        e->out->data[e->out->len] = '\0';
+        e->out->lines--;
+    }
+    for (size_t at = 0; at < code->len;) {
+        const char *nl = memchr(code->data + at, '\n', code->len - at);
+        size_t end = nl ? (size_t)(nl - code->data) + 1 : code->len;
+        buf_printf(e->out, "#line %d ", line);
+        put_string(e->out, e->opt->model_path);
+        buf_put(e->out, "\n");
+        buf_putn(e->out, code->data + at, end - at);
+        at = end;
+    }
+    buf_put(e->out, BACK_TO_C);
+    e->back = e->out;
+    e->back_at = e->out->len;
+}
+
+/* Text of a function to TO, the markers BACK_TO_C in it replaced by
+ * #line directives naming the C file and the line they are on. */
+static void put_code(const Emitter *e, Buf *to, const char *text, size_t len)
+{
+    const char *end = text + len;
+    while (text < end) {
+        const char *mark = memchr(text, '\001', (size_t)(end - text));
+        if (!mark) {
+            buf_putn(to, text, (size_t)(end - text));
+            return;
+        }
+        buf_putn(to, text, (size_t)(mark - text));
+        /* the directive names the number of the line after it */
+        buf_printf(to, "#line %zu ", to->lines + 2);
+        put_string(to, e->opt->source_name);
+        buf_put(to, "\n");
+        text = mark + strlen(BACK_TO_C);
+    }
+}
+
 /* Emit statements s[0..n) of one model line and one domain in a single
  * loop nest: a subexpression shared by any of them is computed once per
  * point, into a temporary (the adjoints of one statement often share the
@@ -584,6 +649,11 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
             buf_put(e->out, " */\n");
         }
     }
+    /* with #line directives the group's code goes through a scratch
+     * buffer, so that each of its lines can be pointed at the model */
+    Buf *out = e->out, code = {0};
+    if (e->opt->line_directives && !e->dry)
+        e->out = &code;
     int scalar_init[GROUP_MAX];
     for (int g = 0; g < count; g++)
         scalar_init[g] = declare_target(e, s[g]);
@@ -633,6 +703,11 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     while (block && depth > e->base) {
         indent(e, --depth);
         buf_put(e->out, "}\n");
+    }
+    if (e->out == &code) {
+        e->out = out;
+        put_model_lines(e, &code, s0->origin);
+        buf_free(&code);
     }
 }
 
@@ -1238,7 +1313,7 @@ static void close_part(Emitter *e)
             buf_put(t, "    (void)" DV_PREFIX "hv;\n");
         if (!e->uses_frame)
             buf_put(t, "    (void)" DV_PREFIX "f;\n");
-        buf_putn(t, body->data, body->len);
+        put_code(e, t, body->data, body->len);
         buf_put(t, "}\n");
     }
     body->len = 0;
@@ -1457,7 +1532,7 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     } else if (has_inputs(ir) && !e->uses_in) {
         buf_put(c, "    (void)" DV_PREFIX "in;\n");
     }
-    buf_putn(c, body.data, body.len);
+    put_code(e, c, body.data, body.len);
     buf_free(&body);
 }
 

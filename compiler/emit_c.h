@@ -14,6 +14,9 @@ typedef struct EmitOptions {
     long stack_limit;           /* most doubles in one local array; larger
                                    arrays go to the caller's work buffer */
     long part_size;             /* statements in a part of a long function */
+    const char *model_path;     /* the model as dervish read it (#line) */
+    int line_directives;        /* point each statement's code at the model
+                                   with #line */
     int emit;                   /* the functions emitted: bit 0 value, bit 1
                                    gradient, bit 2 tangent (DV_EMIT_* in
                                    dervish.h) */

@@ -36,6 +36,8 @@ static const char usage[] =
     "                          tangent, hessvec and hessian\n"
     "                          (default: value,gradient)\n"
     "         --explain        say how the gradient uses memory, and why\n"
+    "         --line-directives  point the C compiler and debugger at the\n"
+    "                          model's lines (#line)\n"
     "         --deps FILE      also write a make rule naming the outputs and\n"
     "                          every model file read (for make, ninja, cmake)\n"
     "         --always-write   replace outputs that already hold the same bytes\n"
@@ -81,6 +83,7 @@ typedef struct Args {
     const char *tolerance;
     int fail_on_warning;
     int explain;
+    int line_directives;
     const char *deps_path;  /* build --deps */
     int always_write;       /* build --always-write */
     const char *stack_limit;
@@ -164,6 +167,10 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             a->explain = 1;
             continue;
         }
+        if (is_build && strcmp(opt, "--line-directives") == 0) {
+            a->line_directives = 1;
+            continue;
+        }
         if (is_build && strcmp(opt, "--always-write") == 0) {
             a->always_write = 1;
             continue;
@@ -239,6 +246,7 @@ static int compile_file(const Args *a, DvCompilation *c,
     o.stack_limit = a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0;
     o.part_size = a->part_size ? strtol(a->part_size, NULL, 10) : 0;
     o.emit = a->emit;
+    o.line_directives = a->line_directives;
     o.include_dirs = a->include;
     o.ninclude = a->ninclude;
     int failed = dv_compile(c, a->model, text, len, &o);
