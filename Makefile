@@ -44,7 +44,8 @@ CHECK_LIBS   := $(shell pkg-config --libs check 2>/dev/null || echo -lcheck -lsu
 LIB_SRCS := $(filter-out compiler/main.c,$(wildcard compiler/*.c))
 LIB_OBJS := $(LIB_SRCS:compiler/%.c=$(B)/%.o) $(B)/lexer.o $(B)/parser.o \
             $(B)/runtime_text.o
-RUNTIME  := $(sort $(wildcard runtime/*.c))
+# runtime/float/NAME.c: the helper's float form, for --real float
+RUNTIME  := $(sort $(wildcard runtime/*.c)) $(sort $(wildcard runtime/float/*.c))
 TEST_SRCS := $(wildcard tests/test_*.c)
 TEST_BINS := $(TEST_SRCS:tests/%.c=$(B)/tests/%)
 

@@ -59,6 +59,7 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
     c->emit = opt->emit ? opt->emit : DV_EMIT_DEFAULT;
     c->line_directives = opt->line_directives;
+    c->real_float = opt->real_float;
     if (c->emit & DV_EMIT_HESSIAN)
         c->emit |= DV_EMIT_HESSVEC;     /* the Hessian calls it */
 
@@ -96,6 +97,7 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.emit = c->emit;
     o.model_path = c->src.path;
     o.line_directives = c->line_directives;
+    o.real_float = c->real_float;
     emit_c(c->ir, &o, c_out, h_out);
 }
 

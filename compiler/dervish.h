@@ -29,6 +29,7 @@ typedef struct DvOptions {
     long part_size;         /* --part-size; 0 means DV_PART_SIZE */
     int emit;               /* --emit: DV_EMIT_* bits; 0 means the default */
     int line_directives;    /* --line-directives */
+    int real_float;         /* --real float: emit single precision */
     /* -I: where 'use' looks for a file after the directory of the file
      * that uses it, in this order (the strings must outlive the
      * compilation) */
@@ -45,6 +46,7 @@ typedef struct DvCompilation {
     long part_size;         /* for the emitter */
     int emit;               /* DV_EMIT_* bits: what is emitted and checked */
     int line_directives;    /* #line directives in the emitted C */
+    int real_float;         /* emit float, not double */
     SourceSet files;        /* the files 'use' statements read */
     /* Every file the compilation read, for the dependencies of its
      * outputs: the model's path as given, then each used file's as found

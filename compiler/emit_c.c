@@ -76,26 +76,44 @@ static const char *var_name(const Emitter *e, int32_t var)
 
 /* ------------------------------------------------------------ helpers */
 
-static void format_number(char *s, size_t n, double v)
+/* The real type of the emitted code, and the suffix of its literals. */
+static const char *real_type(const EmitOptions *opt)
 {
+    return opt->real_float ? "float" : "double";
+}
+
+static const char *real_suffix(const EmitOptions *opt)
+{
+    return opt->real_float ? "f" : "";
+}
+
+/* A constant as a C literal; as_float rounds it to float first and writes
+ * a float literal, so no double arithmetic enters float code. */
+static void format_number(char *s, size_t n, double v, int as_float)
+{
+    if (as_float)
+        v = (float)v;
     if (isnan(v)) {
-        snprintf(s, n, "NAN");
+        snprintf(s, n, "NAN");      /* a float in C99 already */
         return;
     }
     if (isinf(v)) {
-        snprintf(s, n, v < 0 ? "-HUGE_VAL" : "HUGE_VAL");
+        snprintf(s, n, "%sHUGE_VAL%s", v < 0 ? "-" : "", as_float ? "F" : "");
         return;
     }
-    /* the shortest form that reads back as the same double, in plain
-     * decimals for magnitudes from 1e-4 to 1e15 (90.0, not 9e+01) */
+    /* the shortest form that reads back as the same double (float), in
+     * plain decimals for magnitudes from 1e-4 to 1e15 (90.0, not 9e+01) */
     int plain = fabs(v) >= 1e-4 && fabs(v) < 1e15;
     for (int digits = 1; digits <= 17; digits++) {
         snprintf(s, n, "%.*g", digits, v);
-        if (strtod(s, NULL) == v && !(plain && strchr(s, 'e')))
+        int same = as_float ? strtof(s, NULL) == (float)v : strtod(s, NULL) == v;
+        if (same && !(plain && strchr(s, 'e')))
             break;
     }
     if (!strpbrk(s, ".e"))
         strncat(s, ".0", n - strlen(s) - 1);
+    if (as_float)
+        strncat(s, "f", n - strlen(s) - 1);
 }
 
 /* Copy model text into a C comment: one line, whitespace folded, model
@@ -246,13 +264,13 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     case OPK_LEAF:
         if (n->op == IR_CONST) {
             char s[40];
-            format_number(s, sizeof s, n->num);
+            format_number(s, sizeof s, n->num, e->opt->real_float);
             buf_put(e->out, s);
         } else if (n->op == IR_READ) {
             emit_access(e, n->array, n->tuple);
         } else if (n->op == IR_SIZE) {
-            buf_printf(e->out, "(double)" DV_PREFIX "in->%s",
-                       ir->sizes.items[n->var].name);
+            buf_printf(e->out, "(%s)" DV_PREFIX "in->%s",
+                       real_type(e->opt), ir->sizes.items[n->var].name);
             e->uses_in = 1;
         } else {
             buf_put(e->out, var_name(e, n->var));
@@ -288,6 +306,8 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
         if (info->kind == OPK_HELPER)
             buf_put(e->out, DV_PREFIX);
         buf_put(e->out, info->c_spelling);
+        if (info->kind == OPK_CALL)     /* <math.h>'s float form: expf */
+            buf_put(e->out, real_suffix(e->opt));
         buf_put(e->out, "(");
         for (int i = 0; i < n->nargs; i++) {
             if (i)
@@ -335,7 +355,8 @@ static int hoist(Emitter *e, NodeId id, int depth)
     if (e->uses[id] < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
-    buf_printf(e->out, "double " DV_PREFIX "t%d = ", e->ntemps + 1);
+    buf_printf(e->out, "%s " DV_PREFIX "t%d = ", real_type(e->opt),
+               e->ntemps + 1);
     emit_expr(e, id, 0, -1);
     buf_put(e->out, ";\n");
     e->temp[id] = ++e->ntemps;
@@ -362,9 +383,9 @@ static int is_external(const IrArray *a, const Ir *ir)
     return a->role == ROLE_INPUT || ir_home(ir, a) != HOME_LOCAL;
 }
 
-static const char *c_type(const IrArray *a)
+static const char *c_type(const Emitter *e, const IrArray *a)
 {
-    return a->role == ROLE_ARGPOS ? "long" : "double";
+    return a->role == ROLE_ARGPOS ? "long" : real_type(e->opt);
 }
 
 /* The assignment of one statement at the current point, at depth. */
@@ -378,7 +399,7 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
     switch (s->kind) {
     case SK_SET:
         if (scalar_init)
-            buf_printf(e->out, "%s ", c_type(t));
+            buf_printf(e->out, "%s ", c_type(e, t));
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, " = ");
         if (t->role == ROLE_ARGPOS)
@@ -398,7 +419,7 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
         break;
     case SK_MAX:
     case SK_MIN: {
-        buf_put(e->out, "double " DV_PREFIX "next = ");
+        buf_printf(e->out, "%s " DV_PREFIX "next = ", real_type(e->opt));
         emit_expr(e, s->expr, 0, -1);
         buf_put(e->out, ";\n");
         indent(e, depth);
@@ -461,10 +482,11 @@ static int declare_target(Emitter *e, const IrStmt *s)
         return 1;
     indent(e, e->base);
     if (e->storage.slot[s->target] >= 0) {
-        buf_printf(e->out, "double *%s = " DV_PREFIX "work + " DV_PREFIX
-                   "at[%d];\n", t->name, e->storage.slot[s->target]);
+        buf_printf(e->out, "%s *%s = " DV_PREFIX "work + " DV_PREFIX
+                   "at[%d];\n", real_type(e->opt), t->name,
+                   e->storage.slot[s->target]);
     } else {
-        buf_printf(e->out, "%s %s", c_type(t), t->name);
+        buf_printf(e->out, "%s %s", c_type(e, t), t->name);
         for (int k = first_dim; k < t->rank; k++)
             buf_printf(e->out, "[%d]", t->dim[k]);
         buf_put(e->out, ";\n");
@@ -831,10 +853,11 @@ static long param_count(const Ir *ir)
 
 /* One struct member: a fixed array, a pointer to a sized input (row-major,
  * the caller's), or a size. */
-static void emit_member(Buf *h, const Ir *ir, const IrArray *a)
+static void emit_member(Buf *h, const Ir *ir, const IrArray *a,
+                        const char *real)
 {
     if (!ir_array_fixed(a)) {
-        buf_printf(h, "    const double *%s;   /* [", a->name);
+        buf_printf(h, "    const %s *%s;   /* [", real, a->name);
         for (int k = 0; k < a->rank; k++)
             buf_printf(h, "%s%s", k ? "][" : "",
                        IR_EXTENT_IS_SIZE(a->dim[k])
@@ -843,7 +866,7 @@ static void emit_member(Buf *h, const Ir *ir, const IrArray *a)
         buf_put(h, "], row-major */\n");
         return;
     }
-    buf_printf(h, "    double %s", a->name);
+    buf_printf(h, "    %s %s", real, a->name);
     for (int k = 0; k < a->rank; k++)
         buf_printf(h, "[%d]", a->dim[k]);
     buf_put(h, ";\n");
@@ -852,7 +875,7 @@ static void emit_member(Buf *h, const Ir *ir, const IrArray *a)
 /* The members of ROLE in declaration order; for inputs the sizes too, in
  * the order the model declares them among the inputs. */
 static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
-                        const char *what)
+                        const char *what, const char *real)
 {
     buf_printf(h, "/* %s */\ntypedef struct %s {\n", what, type);
     int next_size = 0;
@@ -865,7 +888,7 @@ static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
             buf_printf(h, "    long %s;   /* a size */\n",
                        ir->sizes.items[next_size++].name);
         if (a)
-            emit_member(h, ir, a);
+            emit_member(h, ir, a, real);
     }
     buf_printf(h, "} %s;\n\n", type);
 }
@@ -881,29 +904,29 @@ static const char *fn_name(Function fn)
  * the arguments plainly; definitions use the reserved prefix so that model
  * names such as p or in cannot collide with them. */
 static void signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
-                      const char *prefix)
+                      const char *prefix, const char *real)
 {
     const char *m = ir->model;
-    buf_printf(b, "double %s_%s(const %s_param *%sp", m, fn_name(fn), m,
+    buf_printf(b, "%s %s_%s(const %s_param *%sp", real, m, fn_name(fn), m,
                prefix);
     if (has_inputs(ir))
         buf_printf(b, ", const %s_input *%sin", m, prefix);
     if (fn == FN_TANGENT || fn == FN_HESSVEC)
         buf_printf(b, ", const %s_param *%sdir", m, prefix);
     if (fn == FN_TANGENT)
-        buf_printf(b, ", double *%sdvalue", prefix);
+        buf_printf(b, ", %s *%sdvalue", real, prefix);
     if (fn == FN_GRADIENT || fn == FN_HESSVEC)
         buf_printf(b, ", %s_param *%sgrad", m, prefix);
     if (fn == FN_HESSVEC)
         buf_printf(b, ", %s_param *%shv", m, prefix);
     if (fn == FN_HESSIAN) {
         char *M = upper(m);
-        buf_printf(b, ", %s_param *%sgrad, double %shess[%s_PARAM_COUNT]"
-                      "[%s_PARAM_COUNT]", m, prefix, prefix, M, M);
+        buf_printf(b, ", %s_param *%sgrad, %s %shess[%s_PARAM_COUNT]"
+                      "[%s_PARAM_COUNT]", m, prefix, real, prefix, M, M);
         free(M);
     }
     if (st->uses_work)
-        buf_printf(b, ", double *%swork", prefix);
+        buf_printf(b, ", %s *%swork", real, prefix);
     buf_put(b, ")");
 }
 
@@ -978,7 +1001,7 @@ static void function_comment(Buf *h, const Ir *ir, Function fn, int sized)
 static void emit_header(const Ir *ir, const EmitOptions *opt,
                         const Storage *st, Buf *h)
 {
-    const char *m = ir->model;
+    const char *m = ir->model, *real = real_type(opt);
     char *M = upper(m);
     buf_printf(h,
                "/* %s - %s of the model %s (%s).\n"
@@ -988,24 +1011,26 @@ static void emit_header(const Ir *ir, const EmitOptions *opt,
                opt->header_name, what_is_emitted(ir, opt->emit), m,
                opt->model_file, opt->version, M, M,
                st->uses_work ? "#include <stddef.h>\n\n" : "");
-    buf_printf(h, "#define %s_PARAM_COUNT %ld   /* doubles in %s_param */\n\n",
-               M, param_count(ir), m);
+    buf_printf(h, "#define %s_PARAM_COUNT %ld   /* %ss in %s_param */\n\n",
+               M, param_count(ir), real, m);
     emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
-                "The params: what the gradient is taken with respect to.");
+                "The params: what the gradient is taken with respect to.",
+                real);
     buf_printf(h,
-               "/* A %s_param seen as a flat vector of %s_PARAM_COUNT doubles,\n"
+               "/* A %s_param seen as a flat vector of %s_PARAM_COUNT %ss,\n"
                " * in member order (row-major within arrays), for optimisers. */\n"
                "typedef union %s_param_flat {\n"
                "    %s_param p;\n"
-               "    double v[%s_PARAM_COUNT];\n"
-               "} %s_param_flat;\n\n", m, M, m, m, M, m);
+               "    %s v[%s_PARAM_COUNT];\n"
+               "} %s_param_flat;\n\n", m, M, real, m, m, real, M, m);
     if (has_inputs(ir))
         emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
-                    "The inputs: data, not differentiated.");
+                    "The inputs: data, not differentiated.", real);
     if (st->uses_work) {
-        buf_put(h, "/* The doubles the work argument of the functions below "
-                   "must hold\n * (0 allowed: then work may be NULL); 0 also "
-                   "when a size is\n * negative or the count overflows. */\n");
+        buf_printf(h, "/* The %ss the work argument of the functions below "
+                      "must hold\n * (0 allowed: then work may be NULL); 0 also "
+                      "when a size is\n * negative or the count overflows. */\n",
+                   real);
         layout_prototype(h, ir, st, "");
         buf_put(h, ";\n\n");
     }
@@ -1013,16 +1038,17 @@ static void emit_header(const Ir *ir, const EmitOptions *opt,
         if (!(opt->emit & (1 << fn)))
             continue;
         function_comment(h, ir, (Function)fn, st->uses_work);
-        signature(h, ir, st, (Function)fn, "");
+        signature(h, ir, st, (Function)fn, "", real);
         buf_put(h, ";\n\n");
     }
     buf_put(h, "#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
     free(M);
 }
 
-/* The runtime helpers the statements call, in the runtime table's order. */
+/* The runtime helpers the statements call, in the runtime table's order:
+ * for float code the float forms ("float/NAME") of those taking reals. */
 static void emit_helpers(const Ir *ir, const char *reached,
-                         const Storage *st, Buf *c)
+                         const Storage *st, int real_float, Buf *c)
 {
     char used[IR_OP_COUNT] = {0};
     for (int i = 0; i < ir->nodes.len; i++)
@@ -1032,9 +1058,11 @@ static void emit_helpers(const Ir *ir, const char *reached,
         const char *name = runtime_texts[t].name;
         int wanted = (st->nslots > 0 && strcmp(name, "count_sum") == 0) ||
                      (st->uses_product && strcmp(name, "count_product") == 0);
-        for (int op = 0; op < IR_OP_COUNT && !wanted; op++)
+        int float_form = strncmp(name, "float/", 6) == 0;
+        for (int op = 0; op < IR_OP_COUNT && !wanted &&
+                         float_form == real_float; op++)
             wanted = used[op] && ir_ops[op].kind == OPK_HELPER &&
-                     strcmp(ir_ops[op].c_spelling, runtime_texts[t].name) == 0;
+                     strcmp(ir_ops[op].c_spelling, name + 6 * float_form) == 0;
         if (wanted) {
             buf_put(c, "\n");
             buf_put(c, runtime_texts[t].text);
@@ -1429,10 +1457,11 @@ static void emit_frame(Emitter *e, Function fn)
         if (!e->framed[i])
             continue;
         if (e->storage.slot[i] >= 0) {
-            buf_printf(e->text, "    double *%s;   /* in work */\n", a->name);
+            buf_printf(e->text, "    %s *%s;   /* in work */\n",
+                       real_type(e->opt), a->name);
             continue;
         }
-        buf_printf(e->text, "    %s %s", c_type(a), a->name);
+        buf_printf(e->text, "    %s %s", c_type(e, a), a->name);
         for (int k = 0; k < a->rank; k++)
             buf_printf(e->text, "[%d]", a->dim[k]);
         buf_put(e->text, ";\n");
@@ -1507,7 +1536,8 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
         if (ir->arrays.items[ir->output].varied)
             emit_access(e, ir->arrays.items[ir->output].tangent, none);
         else
-            buf_put(&body, "0.0");  /* the output does not depend on p */
+            buf_printf(&body, "0.0%s",  /* the output does not depend on p */
+                       real_suffix(e->opt));
         buf_put(&body, ";");
     }
     buf_put(&body, "\n    return ");
@@ -1515,7 +1545,7 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     buf_put(&body, ";\n}\n");
 
     buf_put(c, "\n");
-    signature(c, ir, &e->storage, fn, DV_PREFIX);
+    signature(c, ir, &e->storage, fn, DV_PREFIX, real_type(e->opt));
     buf_put(c, "\n{\n");
     if (!e->uses_p)
         buf_put(c, "    (void)" DV_PREFIX "p;\n");
@@ -1542,11 +1572,12 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
 static void emit_hessian(Emitter *e, Function fn, Buf *c)
 {
     const Ir *ir = e->ir;
-    const char *m = ir->model;
+    const char *m = ir->model, *real = real_type(e->opt);
+    const char *sfx = real_suffix(e->opt);
     char *M = upper(m);
     int in = e->storage.has_input, work = e->storage.uses_work;
     buf_put(c, "\n");
-    signature(c, ir, &e->storage, fn, DV_PREFIX);
+    signature(c, ir, &e->storage, fn, DV_PREFIX, real_type(e->opt));
     buf_put(c, "\n{\n");
     if (work) {
         /* invalid sizes: NaN before anything is written */
@@ -1555,16 +1586,16 @@ static void emit_hessian(Emitter *e, Function fn, Buf *c)
     }
     buf_printf(c,
                "    %s_param_flat " DV_PREFIX "dir, " DV_PREFIX "col;\n"
-               "    double " DV_PREFIX "y = 0.0;\n"
+               "    %s " DV_PREFIX "y = 0.0%s;\n"
                "    for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
                DV_PREFIX "j++)\n"
-               "        " DV_PREFIX "dir.v[" DV_PREFIX "j] = 0.0;\n"
+               "        " DV_PREFIX "dir.v[" DV_PREFIX "j] = 0.0%s;\n"
                "    for (int " DV_PREFIX "k = 0; " DV_PREFIX "k < %s_PARAM_COUNT; "
                DV_PREFIX "k++) {\n"
-               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 1.0;\n"
+               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 1.0%s;\n"
                "        " DV_PREFIX "y = %s_hessvec(" DV_PREFIX "p, %s&" DV_PREFIX
                "dir.p, " DV_PREFIX "grad, &" DV_PREFIX "col.p%s);\n"
-               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 0.0;\n"
+               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 0.0%s;\n"
                "        for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
                DV_PREFIX "j++)\n"
                "            " DV_PREFIX "hess[" DV_PREFIX "j][" DV_PREFIX "k] = "
@@ -1574,7 +1605,7 @@ static void emit_hessian(Emitter *e, Function fn, Buf *c)
                DV_PREFIX "j++)\n"
                "        for (int " DV_PREFIX "k = " DV_PREFIX "j + 1; " DV_PREFIX
                "k < %s_PARAM_COUNT; " DV_PREFIX "k++) {\n"
-               "            double " DV_PREFIX "mean = 0.5 * (" DV_PREFIX "hess["
+               "            %s " DV_PREFIX "mean = 0.5%s * (" DV_PREFIX "hess["
                DV_PREFIX "j][" DV_PREFIX "k] + " DV_PREFIX "hess[" DV_PREFIX "k]["
                DV_PREFIX "j]);\n"
                "            " DV_PREFIX "hess[" DV_PREFIX "j][" DV_PREFIX "k] = "
@@ -1583,8 +1614,8 @@ static void emit_hessian(Emitter *e, Function fn, Buf *c)
                DV_PREFIX "mean;\n"
                "        }\n"
                "    return " DV_PREFIX "y;\n}\n",
-               m, M, M, m, in ? DV_PREFIX "in, " : "",
-               work ? ", " DV_PREFIX "work" : "", M, M, M);
+               m, real, sfx, M, sfx, M, sfx, m, in ? DV_PREFIX "in, " : "",
+               work ? ", " DV_PREFIX "work" : "", sfx, M, M, M, real, sfx);
     free(M);
 }
 
@@ -1641,14 +1672,15 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
                " * Needs only <math.h> (link with -lm); no globals, no heap. */\n"
                "#include \"%s\"\n\n#include <math.h>\n\n"
                "/* %s_param is used as a flat vector: it must hold exactly\n"
-               " * %s_PARAM_COUNT doubles, with no padding. */\n"
+               " * %s_PARAM_COUNT %ss, with no padding. */\n"
                "typedef char " DV_PREFIX "param_is_flat[sizeof(%s_param) == "
-               "%s_PARAM_COUNT * sizeof(double) ? 1 : -1];\n",
+               "%s_PARAM_COUNT * sizeof(%s) ? 1 : -1];\n",
                opt->source_name, what_is_emitted(ir, opt->emit), m,
-               opt->model_file, opt->version, opt->header_name, m, M, m, M);
-    emit_helpers(ir, reached, &e.storage, c);
+               opt->model_file, opt->version, opt->header_name, m, M,
+               real_type(opt), m, M, real_type(opt));
+    emit_helpers(ir, reached, &e.storage, opt->real_float, c);
     if (e.storage.uses_work)
-        layout_emit(c, ir, &e.storage);
+        layout_emit(c, ir, &e.storage, real_type(opt));
     for (int fn = 0; fn < FN_COUNT; fn++) {
         if (opt->emit & (1 << fn))
             (fn == FN_HESSIAN ? emit_hessian : emit_function)(&e, (Function)fn,

@@ -20,6 +20,9 @@ typedef struct EmitOptions {
     int emit;                   /* the functions emitted: bit 0 value, bit 1
                                    gradient, bit 2 tangent (DV_EMIT_* in
                                    dervish.h) */
+    int real_float;             /* float throughout instead of double:
+                                   types, literals, math functions and the
+                                   runtime helpers' float forms */
 } EmitOptions;
 
 /* Append the source to c and the header to h. */

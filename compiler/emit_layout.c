@@ -101,16 +101,16 @@ void layout_prototype(Buf *h, const Ir *ir, const Storage *st,
         buf_printf(h, "size_t %s_work_count(void)", ir->model);
 }
 
-void layout_emit(Buf *c, const Ir *ir, const Storage *st)
+void layout_emit(Buf *c, const Ir *ir, const Storage *st, const char *real)
 {
     const char *m = ir->model;
     buf_printf(c,
                "\n/* Checks the sizes and places the arrays kept in work:\n"
                " * array i starts at work + " DV_PREFIX "at[i].  Returns the "
-               "doubles needed,\n * or (size_t)-1 when a size is negative or "
+               "%ss needed,\n * or (size_t)-1 when a size is negative or "
                "a count overflows. */\n"
                "static size_t " DV_PREFIX "layout(%s" DV_PREFIX "at)\n{\n",
-               st->has_input
+               real, st->has_input
                    ? arena_printf(ir->arena, "const %s_input *" DV_PREFIX
                                   "in, size_t *", m)
                    : "size_t *");
@@ -141,12 +141,12 @@ void layout_emit(Buf *c, const Ir *ir, const Storage *st)
         buf_put(c, ");\n");
     }
     /* the caller allocates bytes: their count must fit too */
-    buf_put(c, "    if (" DV_PREFIX "end > (size_t)-1 / sizeof(double))\n"
-               "        return (size_t)-1;\n");
+    buf_printf(c, "    if (" DV_PREFIX "end > (size_t)-1 / sizeof(%s))\n"
+                  "        return (size_t)-1;\n", real);
     buf_put(c, "    return " DV_PREFIX "end;\n}\n\n");
-    buf_printf(c, "/* The doubles of work %s_value and %s_gradient need; 0 "
+    buf_printf(c, "/* The %ss of work %s_value and %s_gradient need; 0 "
                   "when a size is\n * negative or the count overflows (then "
-                  "they return NaN). */\n", m, m);
+                  "they return NaN). */\n", real, m, m);
     layout_prototype(c, ir, st, DV_PREFIX);
     buf_printf(c, "\n{\n    size_t " DV_PREFIX "at[%d];\n"
                   "    size_t " DV_PREFIX "need = " DV_PREFIX "layout(%s"

@@ -25,8 +25,9 @@ void layout_free(Storage *st);
 /* The C text of an extent: "5", or "dvs_in->n" for a size. */
 const char *layout_extent(const Ir *ir, int extent);
 
-/* Emit the static function dvs_layout and the exported m_work_count. */
-void layout_emit(Buf *c, const Ir *ir, const Storage *st);
+/* Emit the static function dvs_layout and the exported m_work_count;
+ * real is the emitted code's real type, "double" or "float". */
+void layout_emit(Buf *c, const Ir *ir, const Storage *st, const char *real);
 
 /* Emit the check of the sizes at the start of a function, which returns
  * NAN when they are invalid, and the offsets of the work arrays. */

@@ -32,6 +32,8 @@ static const char usage[] =
     "                          larger arrays live in the caller's work buffer\n"
     "         --part-size N    write functions of over 4N statements as parts\n"
     "                          of about N statements each (default 100)\n"
+    "         --real TYPE      the emitted code's real type: double or float\n"
+    "                          (default double)\n"
     "         --emit LIST      the functions to write, of value, gradient,\n"
     "                          tangent, hessvec and hessian\n"
     "                          (default: value,gradient)\n"
@@ -88,6 +90,7 @@ typedef struct Args {
     int always_write;       /* build --always-write */
     const char *stack_limit;
     const char *part_size;
+    const char *real;       /* build --real: "double" or "float" */
     const char *emit_list;  /* --emit */
     int emit;               /* its DV_EMIT_* bits, 0 for the default */
     const char *sizes[16];  /* --size NAME=N */
@@ -147,6 +150,8 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->stack_limit;
         else if (is_build && strcmp(opt, "--part-size") == 0)
             slot = &a->part_size;
+        else if (is_build && strcmp(opt, "--real") == 0)
+            slot = &a->real;
         else if (is_build && strcmp(opt, "--deps") == 0)
             slot = &a->deps_path;
         else if (is_check && strcmp(opt, "--at") == 0)
@@ -220,6 +225,9 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
     if (a->part_size && !is_count(a->part_size))
         return usage_error("--part-size takes a whole number of "
                            "statements, at least 1, not '%s'", a->part_size);
+    if (a->real && strcmp(a->real, "double") != 0 &&
+        strcmp(a->real, "float") != 0)
+        return usage_error("--real takes double or float, not '%s'", a->real);
     if (a->name && !names_is_identifier(a->name))
         return usage_error("--name '%s' is not a C identifier", a->name);
     if (a->name && names_reserved(a->name, NULL)) {
@@ -247,6 +255,7 @@ static int compile_file(const Args *a, DvCompilation *c,
     o.part_size = a->part_size ? strtol(a->part_size, NULL, 10) : 0;
     o.emit = a->emit;
     o.line_directives = a->line_directives;
+    o.real_float = a->real && strcmp(a->real, "float") == 0;
     o.include_dirs = a->include;
     o.ninclude = a->ninclude;
     int failed = dv_compile(c, a->model, text, len, &o);

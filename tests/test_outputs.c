@@ -150,6 +150,10 @@ START_TEST(usage_errors)
          "--part-size takes a whole number of statements, at least 1, not "
          "'99999999999999999999'"},
         {"check --part-size 64 m.dvs", "unknown option '--part-size'"},
+        {"build m.dvs --real", "option --real needs a value"},
+        {"build --real single m.dvs", "--real takes double or float, not "
+                                      "'single'"},
+        {"check --real float m.dvs", "unknown option '--real'"},
         {"build m.dvs --emit", "option --emit needs a value"},
         {"build --emit jacobian m.dvs", "--emit takes a comma-separated "
                                         "list of value, gradient, tangent, "
