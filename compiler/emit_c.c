@@ -33,6 +33,8 @@ typedef struct Emitter {
     const IrStmtList *fwd;  /* the function's forward statements */
     const IrStmtList *rev;  /* and its reverse sweep, or NULL */
     const IrStmtList *lists[FN_COUNT][2];   /* fwd and rev of each */
+    char *skip;         /* per statement of fwd: not written (see
+                           skip_unread_tangents), or NULL */
     int uses_p, uses_in, uses_grad, uses_dir, uses_hv, uses_frame;
     uint32_t last_origin;
     Storage storage;    /* which arrays live in work */
@@ -780,11 +782,20 @@ static void part_break(Emitter *e, int n);
 
 /* Emit list[from..to) in order, joining neighbours that fusable() allows
  * into one loop nest; a zeroing statement between them goes first. */
+static int skipped(const Emitter *e, const IrStmtList *list, int i)
+{
+    return e->skip && list == e->fwd && e->skip[i];
+}
+
 static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
                      const char *label)
 {
     const Ir *ir = e->ir;
     for (int i = from; i < to;) {
+        if (skipped(e, list, i)) {
+            i++;
+            continue;
+        }
         const IrStmt *g[GROUP_MAX];
         const IrStmt *zero[GROUP_MAX];
         int n = 0, nz = 0, j = i + 1;
@@ -792,7 +803,7 @@ static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
         if ((g[0]->kind == SK_SET || g[0]->kind == SK_ADD) &&
             ir->arrays.items[g[0]->target].role != ROLE_ARGPOS &&
             ir_tuple_len(ir, g[0]->domain) > 0) {
-            for (; j < to; j++) {
+            for (; j < to && !skipped(e, list, j); j++) {
                 const IrStmt *b = &list->items[j];
                 if (is_zeroing(ir, b) && b->origin.off == g[0]->origin.off &&
                     nz < GROUP_MAX && j + 1 < to) {
@@ -1379,6 +1390,29 @@ static void sweep_heading(Emitter *e, const char *text)
     e->last_origin = UINT32_MAX;
 }
 
+/* When the rows take two passes, the reverse pass computes each row's
+ * values again; a row's tangent that no later forward statement reads is
+ * then left out of the first pass (e->skip), where it would be set but
+ * never used. */
+static void skip_unread_tangents(Emitter *e)
+{
+    const Ir *ir = e->ir;
+    const IrStmtList *fwd = e->fwd;
+    char *need = calloc((size_t)ir->arrays.len + 1, 1);
+    e->skip = calloc((size_t)fwd->len + 1, 1);
+    if (!need || !e->skip)
+        exit(3);
+    for (int i = fwd->len - 1; i >= 0; i--) {
+        const IrStmt *s = &fwd->items[i];
+        const IrArray *t = &ir->arrays.items[s->target];
+        e->skip[i] = s->row_var >= 0 && t->row_local &&
+                     t->role == ROLE_TANGENT && !need[s->target];
+        if (!e->skip[i])
+            mark_reads(ir, s->expr, need);
+    }
+    free(need);
+}
+
 /* The statements of a function, in order, to e->out (or its parts). */
 static void emit_sweeps(Emitter *e)
 {
@@ -1408,7 +1442,11 @@ static void emit_sweeps(Emitter *e)
         e->last_origin = UINT32_MAX;
         emit_list(e, rev, op.rev_to, rev->len, 0, "adjoint of: ");
     } else {
+        if (rev && ir->row_size >= 0)
+            skip_unread_tangents(e);
         emit_list(e, fwd, 0, fwd->len, 0, "");
+        free(e->skip);
+        e->skip = NULL;
         if (rev) {
             sweep_heading(e, "    /* The reverse sweep: adjoints, last "
                              "statement first. */\n");

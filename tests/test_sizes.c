@@ -47,7 +47,7 @@ static char *read_model(const char *file)
 }
 
 /* Write TEXT to DIR/NAME.dvs and build it there with --name NAME --explain
- * --emit value,gradient,tangent and OPTIONS; returns what --explain printed (malloc'd).  Fails the test
+ * --emit value,gradient,tangent,hessvec and OPTIONS; returns what --explain printed (malloc'd).  Fails the test
  * on any message from dervish. */
 static char *build(const char *dir, const char *name, const char *text,
                    const char *options)
@@ -56,8 +56,8 @@ static char *build(const char *dir, const char *name, const char *text,
     tu_write_in(dir, file, text);
     char *out = NULL, *err = NULL;
     int rc = tu_run_dervish(dir, &out, &err, "build --explain --emit "
-                            "value,gradient,tangent --name %s %s %s", name,
-                            options, file);
+                            "value,gradient,tangent,hessvec --name %s %s %s",
+                            name, options, file);
     ck_assert_msg(rc == 0 && err && !*err,
                   "dervish build %s %s exited with %d:\n%s", options, name, rc,
                   err ? err : "");
@@ -441,8 +441,8 @@ static void centred_line(const char *line, void *ctx)
         ck_assert_msg(value == 0.0, "centred: no rows, value %.17g", value);
 }
 
-/* The mean-centred model keeps z, its adjoint and its tangent in work
- * (exactly 3 n doubles, as --explain lists); value and gradient against the closed
+/* The mean-centred model keeps z, its adjoint and their tangents in work
+ * (exactly 4 n doubles, as --explain lists); value and gradient against the closed
  * form; invalid n; once under valgrind. */
 START_TEST(rows_in_work_match_closed_form)
 {
@@ -452,8 +452,9 @@ START_TEST(rows_in_work_match_closed_form)
     ck_assert_str_eq(explain, "sz: not row by row over n: a row needs a value "
                               "computed from all the rows; the arrays of rows "
                               "are kept in work.\n"
-                              "  in work: z[n], dvs_adj_z[n], dvs_tan_z[n]\n");
-    ck_assert_uint_eq(explain_count(explain, 10000, 0), 30000);
+                              "  in work: z[n], dvs_adj_z[n], dvs_tan_z[n], "
+                              "dvs_tan_dvs_adj_z[n]\n");
+    ck_assert_uint_eq(explain_count(explain, 10000, 0), 40000);
     char *out[NWAYS];
     run_ways(dir, "centred_driver.c", "sz.c", "", out);
     for (int w = 0; w < NWAYS; w++) {
@@ -464,8 +465,8 @@ START_TEST(rows_in_work_match_closed_form)
         ck_assert_int_eq(seen.cases, 4);
         ck_assert_int_eq(seen.common.invalid, 1);
         ck_assert_int_eq(seen.common.works, 2);
-        ck_assert_uint_eq(seen.common.work[0], 3);
-        ck_assert_uint_eq(seen.common.work[1], 300000);
+        ck_assert_uint_eq(seen.common.work[0], 4);
+        ck_assert_uint_eq(seen.common.work[1], 400000);
     }
     run_valgrind(dir, "centred_driver.c", "sz.c");
     free_outputs(out);
