@@ -14,6 +14,7 @@
 #include "sigmoid.c"
 #include "sign.c"
 #include "softplus.c"
+#include "trigamma.c"
 
 double apply_op(IrOp op, const double *v)
 {
@@ -73,6 +74,7 @@ double apply_op(IrOp op, const double *v)
     case IR_RELU: return dvs_relu(a);
     case IR_SIGN: return dvs_sign(a);
     case IR_DIGAMMA: return dvs_digamma(a);
+    case IR_TRIGAMMA: return dvs_trigamma(a);
     case IR_HYPOTSLOPE: return dvs_hypot_slope(a, b);
     case IR_CONST:
     case IR_READ:

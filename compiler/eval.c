@@ -556,6 +556,7 @@ static Cplx capply(Evaluation *ev, IrOp op, const Cplx *z)
     case IR_FLOOR: case IR_CEIL: case IR_ROUND: case IR_TRUNC: case IR_SIGN:
         return real_part_op(ev, op, z, 0);
     case IR_ATAN2: case IR_ERF: case IR_ERFC: case IR_LGAMMA: case IR_DIGAMMA:
+    case IR_TRIGAMMA:
         return real_part_op(ev, op, z, 1);
     case IR_CONST: case IR_READ: case IR_INDEX: case IR_SIZE:
     case IR_OP_COUNT:

@@ -66,7 +66,7 @@ typedef struct EvalStep {
     double value;       /* real part of the output */
     double slope;       /* imaginary part over h: d output / d param k */
     int blocked;        /* -1, or an IrOp with no complex form here (erf,
-                           erfc, lgamma, atan2, digamma) that the
+                           erfc, lgamma, atan2, digamma, trigamma) that the
                            perturbation reached: slope is then meaningless */
 } EvalStep;
 EvalStep eval_complex_step(Evaluation *ev, long k, double h);

@@ -277,8 +277,13 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
                         : op1(ir, IR_NEG, divide(ir, rules_mul(ir, value, t),
                                                  h));
     }
+    case IR_DIGAMMA:        /* psi' = trigamma: Hessians through lgamma */
+        return op1(ir, IR_TRIGAMMA, x);
     case IR_SELECT:         /* handled by rules_derivative */
-    case IR_DIGAMMA:        /* second derivatives come later */
+    case IR_TRIGAMMA:       /* psi'' would be a third derivative of lgamma:
+                               trigamma only appears in tangents of the
+                               reverse sweep, and nothing differentiates
+                               those again */
     case IR_LT: case IR_LE: case IR_GT: case IR_GE: case IR_EQ: case IR_NE:
     case IR_AND: case IR_OR: case IR_NOT:
     case IR_CONST: case IR_READ: case IR_INDEX: case IR_SIZE:

@@ -75,6 +75,17 @@ def digamma_scale(x):
     return abs(mp.digamma(1 - x)) + abs(mp.pi * mp.cot(mp.pi * x))
 
 
+def trigamma(x):
+    """psi'(x). mpmath's psi for x < 0 recurs up to x > 0 one step at a
+    time (seconds at x = -1e6, unbounded at -1e15), so far below zero the
+    reflection psi'(x) = pi^2 / sin^2(pi x) - psi'(1 - x) (A&S 6.4.7) is
+    used instead; sin(pi x) is exact to the working precision there, x
+    being an exact double."""
+    if x > -1000:
+        return mp.psi(1, x)
+    return (mp.pi / mp.sin(mp.pi * x)) ** 2 - mp.psi(1, 1 - x)
+
+
 def comment(v):
     if mp.isinf(v):
         return ""
@@ -122,6 +133,21 @@ def digamma_points():
                 -100000.3, -1e15 + 0.5, -4503599627370495.5,
                 -30126450.942112051] + neg_roots
     return positive + near + negative
+
+
+def trigamma_points():
+    below_10 = math.nextafter(10.0, 0.0)    # where trigamma.c stops lifting
+    positive = [5e-324, 1e-300, 1.3e-154, 1.5e-154, 1e-100, 1e-8, 1e-3, 0.1,
+                0.5, 1.0, 1.46, 2.0, 2.5, 3.75, 7.0, 9.5, below_10, 10.0,
+                10.5, 12.25, 30.0, 100.25, 1e6, 1e15, 1e150, 1e300,
+                1.7976931348623157e308]
+    near_poles = [-2.0 ** -40, -1e-8, 1e-8 - 1.0, -1.0 - 1e-8,
+                  -1.0 - 2.0 ** -30, -3.0 + 1e-6, -3.0 - 1e-6, -17.0 + 0.001,
+                  -17.0 - 0.001, -1e-154, -1e-300, -5e-324]
+    negative = [-0.25, -0.5, -0.75, -0.9999, -1.5, -2.25, -3.5, -5.125,
+                -9.75, -10.5, -123.25, -1000.3, -100000.3, -30126450.942112051,
+                -1e15 + 0.5, -4503599627370495.5]
+    return positive + near_poles + negative
 
 
 def print_refs():
@@ -172,6 +198,8 @@ def print_refs():
         w("    {%s, %s, %s},%s" % (c_lit(x), c_lit(to_double(v)),
                                   c_lit(float(mp.nstr(s, 17))), comment(v)))
     w("};")
+
+    table1("trigamma_refs", trigamma, trigamma_points())
     w("")
     w("#endif")
     print("\n".join(out))

@@ -159,6 +159,30 @@ static inline void tu_expect_listing(const char *dir, const char *want)
     free(got);
 }
 
+
+/* The committed data file PATH is exactly what the command GENERATOR
+ * prints.  Generators run Debian's python3 with mpmath; without it the
+ * check is skipped with a note. */
+static inline void tu_expect_generated(const char *path, const char *generator)
+{
+    if (tu_run("/usr/bin/python3 -c 'import mpmath'", NULL, NULL) != 0) {
+        printf("note: /usr/bin/python3 with mpmath not found; %s was not "
+               "regenerated and compared\n", path);
+        return;
+    }
+    char *committed = tu_read(path), *out = NULL, *err = NULL;
+    ck_assert_msg(committed != NULL, "cannot read %s (run from the project "
+                  "root)", path);
+    int rc = tu_run(generator, &out, &err);
+    ck_assert_msg(rc == 0, "%s failed with status %d:\n%s", generator, rc,
+                  err ? err : "");
+    ck_assert_msg(strcmp(out, committed) == 0, "%s differs from the output "
+                  "of %s: regenerate it", path, generator);
+    free(committed);
+    free(out);
+    free(err);
+}
+
 /* s with the first occurrence of `from` replaced by `to` (malloc'd). */
 static inline char *tu_replace(const char *s, const char *from, const char *to)
 {
