@@ -82,8 +82,6 @@ typedef struct Model {
     const char *input_setup;
     int uses_work;          /* 1: the functions take work; 2: and some
                                arrays live in it (work count > 0) */
-    int no_hessvec;         /* lgamma: its second derivative is not yet
-                               supported (rules.c) */
 } Model;
 
 /* Sized inputs for pumps: 12 rows of invented running hours and
@@ -118,9 +116,7 @@ static const char builtins_text[] =
     "output out\n";
 
 /* A sized model using the size as a real number, whose rows live in work
- * (each needs the mean of all).  (A max over the rows is left out: with it
- * the double build's hessvec has an unused variable, reported
- * separately.) */
+ * (each needs the mean of all). */
 static const char sized_text[] =
     "model rows\n"
     "size n\n"
@@ -140,8 +136,8 @@ static const char sized_text[] =
     "    }\n"                                                               \
     "    in.n = 7;\n    in.x = xs;\n    in.y = ys;\n"
 
-/* lgamma, whose gradient calls the digamma helper; built without
- * hessvec, which dervish does not yet derive through lgamma. */
+/* lgamma, whose gradient calls the digamma helper and whose Hessian the
+ * trigamma helper. */
 static const char lgamma_text[] =
     "model lg\n"
     "param a, b\n"
@@ -149,21 +145,21 @@ static const char lgamma_text[] =
     "output out\n";
 
 static const Model models[] = {
-    {"arm", "samples/arm/arm.dvs", NULL, "", 1, NULL, 0, 0},
-    {"arrhenius", "samples/arrhenius/arrhenius.dvs", NULL, "", 1, NULL, 0, 0},
-    {"tank", "samples/build-systems/tank.dvs", NULL, "", 1, NULL, 0, 0},
-    {"cooling", "samples/cooling/cooling.dvs", NULL, "", 1, NULL, 0, 0},
-    {"greeks", "samples/greeks/greeks.dvs", NULL, "", 1, NULL, 0, 0},
-    {"kiln", "samples/kiln/kiln.dvs", NULL, "", 1, NULL, 0, 0},
-    {"pump", "samples/pump/pump.dvs", NULL, "", 1, NULL, 0, 0},
-    {"pumps", "samples/pumps/pumps.dvs", NULL, "", 1, PUMPS_ROWS, 1, 0},
-    {"allfn", NULL, builtins_text, "", 0, NULL, 0, 0},
-    {"rows", NULL, sized_text, "", 1, ROWS_INPUT, 2, 0},
-    {"lg", NULL, lgamma_text, "", 0, NULL, 0, 1},
+    {"arm", "samples/arm/arm.dvs", NULL, "", 1, NULL, 0},
+    {"arrhenius", "samples/arrhenius/arrhenius.dvs", NULL, "", 1, NULL, 0},
+    {"tank", "samples/build-systems/tank.dvs", NULL, "", 1, NULL, 0},
+    {"cooling", "samples/cooling/cooling.dvs", NULL, "", 1, NULL, 0},
+    {"greeks", "samples/greeks/greeks.dvs", NULL, "", 1, NULL, 0},
+    {"kiln", "samples/kiln/kiln.dvs", NULL, "", 1, NULL, 0},
+    {"pump", "samples/pump/pump.dvs", NULL, "", 1, NULL, 0},
+    {"pumps", "samples/pumps/pumps.dvs", NULL, "", 1, PUMPS_ROWS, 1},
+    {"allfn", NULL, builtins_text, "", 0, NULL, 0},
+    {"rows", NULL, sized_text, "", 1, ROWS_INPUT, 2},
+    {"lg", NULL, lgamma_text, "", 0, NULL, 0},
     /* fixed arrays above the stack limit go to work; a long function is
      * written in parts sharing a frame */
-    {"pump", "samples/pump/pump.dvs", NULL, "--stack-limit 8", 1, NULL, 2, 0},
-    {"allfn", NULL, builtins_text, "--part-size 3", 0, NULL, 0, 0},
+    {"pump", "samples/pump/pump.dvs", NULL, "--stack-limit 8", 1, NULL, 2},
+    {"allfn", NULL, builtins_text, "--part-size 3", 0, NULL, 0},
 };
 
 /* The driver, for REAL double or float: at each point it prints the
@@ -184,13 +180,8 @@ static char *driver_source(const Model *m, const char *real)
               : "    REAL *flat = (REAL *)&in;\n"
                 "    for (size_t j = 0; j < sizeof in / sizeof(REAL); j++)\n"
                 "        flat[j] = point(k, (int)j + 50);\n");
-    /* without hessvec: the value again, and a zero Hessian times dir */
-    char *hessvec = m->no_hessvec
-        ? tu_format("    put(%s_value(&x.p%s%s));\n"
-                    "    for (int j = 0; j < %s_PARAM_COUNT; j++)\n"
-                    "        hv.v[j] = 0;\n", m->name, in, work, upper)
-        : tu_format("    put(%s_hessvec(&x.p%s, &dir.p, &g2.p, &hv.p%s));\n",
-                    m->name, in, work);
+    char *hessvec = tu_format("    put(%s_hessvec(&x.p%s, &dir.p, &g2.p, "
+                              "&hv.p%s));\n", m->name, in, work);
     char *need = !m->uses_work ? tu_format("%s", "0")
         : tu_format("%s_work_count(%s)", m->name, m->has_input ? "&in" : "");
     char *s = tu_format(
@@ -255,9 +246,8 @@ static double *run_build(const Model *m, const char *real, const char *cc,
     if (!m->path)
         tu_write_in(dir, model, m->text);
     int rc = tu_run_dervish(dir, NULL, &err, "build --real %s --emit "
-                            "value,gradient,tangent%s %s -o %s.c '%s'", real,
-                            m->no_hessvec ? "" : ",hessvec", m->options,
-                            m->name, model);
+                            "value,gradient,tangent,hessvec %s -o %s.c '%s'",
+                            real, m->options, m->name, model);
     ck_assert_msg(rc == 0 && err && !err[0], "build %s (%s): %d\n%s",
                   m->name, real, rc, err ? err : "");
     free(err);
