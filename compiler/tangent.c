@@ -128,8 +128,9 @@ static void keep_needed(Ir *ir, IrStmtList *const *lists, int n, char *need)
             }
             list->items[--keep] = *s;
         }
-        memmove(list->items, list->items + keep,
-                (size_t)(list->len - keep) * sizeof *list->items);
+        if (keep > 0)
+            memmove(list->items, list->items + keep,
+                    (size_t)(list->len - keep) * sizeof *list->items);
         list->len -= keep;
     }
     arena_release(ir->arena, stamp,
