@@ -1,4 +1,6 @@
-/* emit_c.c - writes the model's C source and header; see emit_c.h.
+/* emit_c.c - writes the model's C source and header; see emit_c.h.  The
+ * header and banner words are in emit_header.c, long functions written as
+ * parts in emit_parts.c, what they share in emit_internal.h.
  *
  * Layout, for review: a banner saying what produced the file, the runtime
  * helpers the model uses, then <model>_value (the forward statements) and
@@ -6,64 +8,13 @@
  * IR statement becomes one loop nest over its domain, with the model's index
  * names, under a comment quoting the model line it comes from.  Locals are
  * declared where first written. */
-#include "emit_c.h"
-#include "emit_layout.h"
+#include "emit_internal.h"
 #include "names.h"
-#include "runtime_text.h"
 
 #include <ctype.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-
-typedef enum Function {
-    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN, FN_COUNT
-} Function;
-
-typedef struct Emitter {
-    const Ir *ir;
-    const EmitOptions *opt;
-    Buf *out;
-    Function fn;
-    char *declared;     /* per array: declared in the current function */
-    char *argpos_read[FN_COUNT];    /* per function, per array: a statement
-                                       of that function reads it (the winner
-                                       of a max or min is found only when
-                                       it is read) */
-    const IrStmtList *fwd;  /* the function's forward statements */
-    const IrStmtList *rev;  /* and its reverse sweep, or NULL */
-    const IrStmtList *lists[FN_COUNT][2];   /* fwd and rev of each */
-    char *skip;         /* per statement of fwd: not written (see
-                           skip_unread_tangents), or NULL */
-    int uses_p, uses_in, uses_grad, uses_dir, uses_hv, uses_frame;
-    uint32_t last_origin;
-    Storage storage;    /* which arrays live in work */
-    /* shared subexpressions of the statement being emitted */
-    int *seen;          /* per node: the statement count when last seen */
-    int *uses;          /* per node: parent edges within the statement */
-    int *temp;          /* per node: its temporary's number, or 0 */
-    int stamp;          /* statements emitted so far */
-    int *visit;         /* per node: visit_stamp when last visited */
-    int visit_stamp;
-    int ntemps;         /* temporaries named so far in the function */
-    /* row by row: inside a row block, the row var of the statement being
-     * emitted is the block's loop counter */
-    int base;           /* indentation of statements: 1, or 2 in a block */
-    int32_t row_var;    /* the current statement's row var, or -1 */
-    const char *row_name;   /* the block's loop counter */
-    /* a long function is written as parts (see emit_parts) */
-    int parted;         /* this function is written in parts */
-    int dry;            /* the run that only finds what the parts share */
-    int part;           /* the part being written, from 1 */
-    int part_stmts;     /* statements in it so far */
-    int *ref_part;      /* per array: the part that last referred to it */
-    char *framed;       /* per array: lives in the frame the parts share */
-    Buf *text;          /* the function's own text (its parts go here
-                           too, ahead of it) */
-    Buf part_body;      /* the current part's statements */
-    Buf *back;          /* with #line: where the last return to the C file */
-    size_t back_at;     /* was written, and the length after it */
-} Emitter;
 
 /* Most statements joined into one loop nest. */
 #define GROUP_MAX 16
@@ -79,7 +30,7 @@ static const char *var_name(const Emitter *e, int32_t var)
 /* ------------------------------------------------------------ helpers */
 
 /* The real type of the emitted code, and the suffix of its literals. */
-static const char *real_type(const EmitOptions *opt)
+const char *emit_real_type(const EmitOptions *opt)
 {
     return opt->real_float ? "float" : "double";
 }
@@ -160,7 +111,7 @@ static void indent(Emitter *e, int depth)
         buf_put(e->out, "    ");
 }
 
-static char *upper(const char *s)
+char *emit_upper(const char *s)
 {
     size_t n = strlen(s);
     char *u = malloc(n + 1);
@@ -272,7 +223,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             emit_access(e, n->array, n->tuple);
         } else if (n->op == IR_SIZE) {
             buf_printf(e->out, "(%s)" DV_PREFIX "in->%s",
-                       real_type(e->opt), ir->sizes.items[n->var].name);
+                       emit_real_type(e->opt), ir->sizes.items[n->var].name);
             e->uses_in = 1;
         } else {
             buf_put(e->out, var_name(e, n->var));
@@ -357,7 +308,7 @@ static int hoist(Emitter *e, NodeId id, int depth)
     if (e->uses[id] < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
-    buf_printf(e->out, "%s " DV_PREFIX "t%d = ", real_type(e->opt),
+    buf_printf(e->out, "%s " DV_PREFIX "t%d = ", emit_real_type(e->opt),
                e->ntemps + 1);
     emit_expr(e, id, 0, -1);
     buf_put(e->out, ";\n");
@@ -380,14 +331,14 @@ static int has_shared(Emitter *e, NodeId id)
     return 0;
 }
 
-static int is_external(const IrArray *a, const Ir *ir)
+int emit_is_external(const IrArray *a, const Ir *ir)
 {
     return a->role == ROLE_INPUT || ir_home(ir, a) != HOME_LOCAL;
 }
 
-static const char *c_type(const Emitter *e, const IrArray *a)
+const char *emit_c_type(const Emitter *e, const IrArray *a)
 {
-    return a->role == ROLE_ARGPOS ? "long" : real_type(e->opt);
+    return a->role == ROLE_ARGPOS ? "long" : emit_real_type(e->opt);
 }
 
 /* The assignment of one statement at the current point, at depth. */
@@ -401,7 +352,7 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
     switch (s->kind) {
     case SK_SET:
         if (scalar_init)
-            buf_printf(e->out, "%s ", c_type(e, t));
+            buf_printf(e->out, "%s ", emit_c_type(e, t));
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, " = ");
         if (t->role == ROLE_ARGPOS)
@@ -421,7 +372,7 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
         break;
     case SK_MAX:
     case SK_MIN: {
-        buf_printf(e->out, "%s " DV_PREFIX "next = ", real_type(e->opt));
+        buf_printf(e->out, "%s " DV_PREFIX "next = ", emit_real_type(e->opt));
         emit_expr(e, s->expr, 0, -1);
         buf_put(e->out, ";\n");
         indent(e, depth);
@@ -476,7 +427,7 @@ static int declare_target(Emitter *e, const IrStmt *s)
     const Ir *ir = e->ir;
     const IrArray *t = &ir->arrays.items[s->target];
     int first_dim = t->row_local;   /* a row-local array drops its row */
-    if (is_external(t, ir) || e->declared[s->target] ||
+    if (emit_is_external(t, ir) || e->declared[s->target] ||
         (e->parted && e->framed[s->target]))
         return 0;
     e->declared[s->target] = 1;
@@ -485,10 +436,10 @@ static int declare_target(Emitter *e, const IrStmt *s)
     indent(e, e->base);
     if (e->storage.slot[s->target] >= 0) {
         buf_printf(e->out, "%s *%s = " DV_PREFIX "work + " DV_PREFIX
-                   "at[%d];\n", real_type(e->opt), t->name,
+                   "at[%d];\n", emit_real_type(e->opt), t->name,
                    e->storage.slot[s->target]);
     } else {
-        buf_printf(e->out, "%s %s", c_type(e, t), t->name);
+        buf_printf(e->out, "%s %s", emit_c_type(e, t), t->name);
         for (int k = first_dim; k < t->rank; k++)
             buf_printf(e->out, "[%d]", t->dim[k]);
         buf_put(e->out, ";\n");
@@ -625,7 +576,7 @@ static void put_model_lines(Emitter *e, const Buf *code, Span origin)
 
 /* Text of a function to TO, the markers BACK_TO_C in it replaced by
  * #line directives naming the C file and the line they are on. */
-static void put_code(const Emitter *e, Buf *to, const char *text, size_t len)
+void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
 {
     const char *end = text + len;
     while (text < end) {
@@ -778,8 +729,6 @@ static int fusable(const Ir *ir, const IrStmt *const *g, int n,
 
 static int is_zeroing(const Ir *ir, const IrStmt *s);
 
-static void part_break(Emitter *e, int n);
-
 /* Emit list[from..to) in order, joining neighbours that fusable() allows
  * into one loop nest; a zeroing statement between them goes first. */
 static int skipped(const Emitter *e, const IrStmtList *list, int i)
@@ -820,7 +769,7 @@ static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
                 j--;
             }
         }
-        part_break(e, n + nz);
+        emit_part_break(e, n + nz);
         int in_rows = e->row_var >= 0;
         if (n == 1) {
             if (in_rows)
@@ -838,246 +787,6 @@ static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
             e->row_var = g[0]->row_var;
         emit_group(e, g, n, label);
         i = j;
-    }
-}
-
-/* ------------------------------------------------------------- files */
-
-static int has_inputs(const Ir *ir)
-{
-    if (ir->sizes.len > 0)
-        return 1;
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (ir->arrays.items[i].role == ROLE_INPUT)
-            return 1;
-    return 0;
-}
-
-static long param_count(const Ir *ir)
-{
-    long n = 0;
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (ir->arrays.items[i].role == ROLE_PARAM)
-            n += ir_array_size(&ir->arrays.items[i]);
-    return n;
-}
-
-/* One struct member: a fixed array, a pointer to a sized input (row-major,
- * the caller's), or a size. */
-static void emit_member(Buf *h, const Ir *ir, const IrArray *a,
-                        const char *real)
-{
-    if (!ir_array_fixed(a)) {
-        buf_printf(h, "    const %s *%s;   /* [", real, a->name);
-        for (int k = 0; k < a->rank; k++)
-            buf_printf(h, "%s%s", k ? "][" : "",
-                       IR_EXTENT_IS_SIZE(a->dim[k])
-                           ? ir->sizes.items[IR_EXTENT_SIZE(a->dim[k])].name
-                           : arena_printf(ir->arena, "%d", a->dim[k]));
-        buf_put(h, "], row-major */\n");
-        return;
-    }
-    buf_printf(h, "    %s %s", real, a->name);
-    for (int k = 0; k < a->rank; k++)
-        buf_printf(h, "[%d]", a->dim[k]);
-    buf_put(h, ";\n");
-}
-
-/* The members of ROLE in declaration order; for inputs the sizes too, in
- * the order the model declares them among the inputs. */
-static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
-                        const char *what, const char *real)
-{
-    buf_printf(h, "/* %s */\ntypedef struct %s {\n", what, type);
-    int next_size = 0;
-    for (int i = 0; i <= ir->arrays.len; i++) {
-        const IrArray *a = i < ir->arrays.len ? &ir->arrays.items[i] : NULL;
-        if (a && a->role != role)
-            continue;
-        while (role == ROLE_INPUT && next_size < ir->sizes.len &&
-               (!a || ir->sizes.items[next_size].span.off < a->span.off))
-            buf_printf(h, "    long %s;   /* a size */\n",
-                       ir->sizes.items[next_size++].name);
-        if (a)
-            emit_member(h, ir, a, real);
-    }
-    buf_printf(h, "} %s;\n\n", type);
-}
-
-static const char *fn_name(Function fn)
-{
-    static const char *const names[] = {"value", "gradient", "tangent",
-                                        "hessvec", "hessian"};
-    return names[fn];
-}
-
-/* Prototypes, shared by the header and the definitions.  The header names
- * the arguments plainly; definitions use the reserved prefix so that model
- * names such as p or in cannot collide with them. */
-static void signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
-                      const char *prefix, const char *real)
-{
-    const char *m = ir->model;
-    buf_printf(b, "%s %s_%s(const %s_param *%sp", real, m, fn_name(fn), m,
-               prefix);
-    if (has_inputs(ir))
-        buf_printf(b, ", const %s_input *%sin", m, prefix);
-    if (fn == FN_TANGENT || fn == FN_HESSVEC)
-        buf_printf(b, ", const %s_param *%sdir", m, prefix);
-    if (fn == FN_TANGENT)
-        buf_printf(b, ", %s *%sdvalue", real, prefix);
-    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%sgrad", m, prefix);
-    if (fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%shv", m, prefix);
-    if (fn == FN_HESSIAN) {
-        char *M = upper(m);
-        buf_printf(b, ", %s_param *%sgrad, %s %shess[%s_PARAM_COUNT]"
-                      "[%s_PARAM_COUNT]", m, prefix, real, prefix, M, M);
-        free(M);
-    }
-    if (st->uses_work)
-        buf_printf(b, ", %s *%swork", real, prefix);
-    buf_put(b, ")");
-}
-
-/* "value and gradient", "value, gradient and tangent", ...: the banner's
- * words for what is emitted. */
-static const char *what_is_emitted(const Ir *ir, int emit)
-{
-    const char *words = "";
-    int n = 0, total = 0;
-    for (int fn = 0; fn < FN_COUNT; fn++)
-        total += (emit >> fn) & 1;
-    for (int fn = 0; fn < FN_COUNT; fn++)
-        if (emit & (1 << fn)) {
-            n++;
-            words = arena_printf(ir->arena, "%s%s%s", words,
-                                 n == 1 ? "" : n == total ? " and " : ", ",
-                                 fn_name((Function)fn));
-        }
-    return words;
-}
-
-/* What a function does, for the header. */
-static void function_comment(Buf *h, const Ir *ir, Function fn, int sized)
-{
-    const char *m = ir->model, *out = ir->arrays.items[ir->output].name;
-    switch (fn) {
-    case FN_VALUE:
-        buf_printf(h, "/* Returns the model's output, %s%s. */\n", out,
-                   sized ? " (NaN when a size is negative or too large)" : "");
-        break;
-    case FN_GRADIENT:
-        buf_printf(h,
-                   "/* Returns %s as %s_value does and overwrites every member "
-                   "of\n * *grad with the derivative of %s with respect to that "
-                   "param%s. */\n", out, m, out,
-                   sized ? "\n * (leaving *grad unchanged when it returns NaN "
-                           "for invalid sizes)" : "");
-        break;
-    case FN_TANGENT:
-        buf_printf(h,
-                   "/* Returns %s as %s_value does and sets *dvalue to its "
-                   "derivative along\n * dir: the gradient times dir, the "
-                   "sum over all params of the\n * derivative with respect "
-                   "to it times its member of *dir%s. */\n", out, m,
-                   sized ? "\n * (leaving *dvalue unchanged when it returns "
-                           "NaN for invalid sizes)" : "");
-        break;
-    case FN_HESSVEC:
-        buf_printf(h,
-                   "/* Returns %s as %s_value does, writes its gradient into "
-                   "*grad, and\n * overwrites every member of *hv with the "
-                   "Hessian of %s times dir:\n * the derivative of that "
-                   "member of the gradient along dir%s. */\n", out, m, out,
-                   sized ? "\n * (leaving *grad and *hv unchanged when it "
-                           "returns NaN for invalid sizes)" : "");
-        break;
-    case FN_HESSIAN:
-        buf_printf(h,
-                   "/* Returns %s as %s_value does, writes its gradient into "
-                   "*grad, and\n * fills hess with its Hessian, hess[j][k] "
-                   "the second derivative with\n * respect to params j and k "
-                   "in flat order, exactly symmetric: one\n * %s_hessvec "
-                   "per param%s. */\n", out, m, m,
-                   sized ? "\n * (leaving *grad and hess unchanged when it "
-                           "returns NaN for invalid sizes)" : "");
-        break;
-    case FN_COUNT:
-        break;
-    }
-}
-
-static void emit_header(const Ir *ir, const EmitOptions *opt,
-                        const Storage *st, Buf *h)
-{
-    const char *m = ir->model, *real = real_type(opt);
-    char *M = upper(m);
-    buf_printf(h,
-               "/* %s - %s of the model %s (%s).\n"
-               " * Generated by dervish %s; edit the model, not this file. */\n"
-               "#ifndef DVS_%s_H\n#define DVS_%s_H\n\n%s"
-               "#ifdef __cplusplus\nextern \"C\" {\n#endif\n\n",
-               opt->header_name, what_is_emitted(ir, opt->emit), m,
-               opt->model_file, opt->version, M, M,
-               st->uses_work ? "#include <stddef.h>\n\n" : "");
-    buf_printf(h, "#define %s_PARAM_COUNT %ld   /* %ss in %s_param */\n\n",
-               M, param_count(ir), real, m);
-    emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
-                "The params: what the gradient is taken with respect to.",
-                real);
-    buf_printf(h,
-               "/* A %s_param seen as a flat vector of %s_PARAM_COUNT %ss,\n"
-               " * in member order (row-major within arrays), for optimisers. */\n"
-               "typedef union %s_param_flat {\n"
-               "    %s_param p;\n"
-               "    %s v[%s_PARAM_COUNT];\n"
-               "} %s_param_flat;\n\n", m, M, real, m, m, real, M, m);
-    if (has_inputs(ir))
-        emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
-                    "The inputs: data, not differentiated.", real);
-    if (st->uses_work) {
-        buf_printf(h, "/* The %ss the work argument of the functions below "
-                      "must hold\n * (0 allowed: then work may be NULL); 0 also "
-                      "when a size is\n * negative or the count overflows. */\n",
-                   real);
-        layout_prototype(h, ir, st, "");
-        buf_put(h, ";\n\n");
-    }
-    for (int fn = 0; fn < FN_COUNT; fn++) {
-        if (!(opt->emit & (1 << fn)))
-            continue;
-        function_comment(h, ir, (Function)fn, st->uses_work);
-        signature(h, ir, st, (Function)fn, "", real);
-        buf_put(h, ";\n\n");
-    }
-    buf_put(h, "#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
-    free(M);
-}
-
-/* The runtime helpers the statements call, in the runtime table's order:
- * for float code the float forms ("float/NAME") of those taking reals. */
-static void emit_helpers(const Ir *ir, const char *reached,
-                         const Storage *st, int real_float, Buf *c)
-{
-    char used[IR_OP_COUNT] = {0};
-    for (int i = 0; i < ir->nodes.len; i++)
-        if (reached[i])
-            used[ir->nodes.items[i].op] = 1;
-    for (int t = 0; t < runtime_text_count; t++) {
-        const char *name = runtime_texts[t].name;
-        int wanted = (st->nslots > 0 && strcmp(name, "count_sum") == 0) ||
-                     (st->uses_product && strcmp(name, "count_product") == 0);
-        int float_form = strncmp(name, "float/", 6) == 0;
-        for (int op = 0; op < IR_OP_COUNT && !wanted &&
-                         float_form == real_float; op++)
-            wanted = used[op] && ir_ops[op].kind == OPK_HELPER &&
-                     strcmp(ir_ops[op].c_spelling, name + 6 * float_form) == 0;
-        if (wanted) {
-            buf_put(c, "\n");
-            buf_put(c, runtime_texts[t].text);
-        }
     }
 }
 
@@ -1122,7 +831,7 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
                       const char *label)
 {
     const Ir *ir = e->ir;
-    part_break(e, to - from + (fwd_to > fwd_from ? fwd_to - fwd_from : 0));
+    emit_part_break(e, to - from + (fwd_to > fwd_from ? fwd_to - fwd_from : 0));
     for (int i = from; i < to; i++)
         if (list->items[i].row_var < 0)
             emit_stmt(e, &list->items[i], label);
@@ -1301,94 +1010,7 @@ static int one_pass(const Emitter *e, OnePass *op)
     return ok;
 }
 
-/* ------------------------------------------------------------- parts */
-
-/* A function of more than 4 part sizes (in statements) is written as
- * parts of about one part size each, called in turn: C compilers spend
- * time superlinear in the length of one function (register allocation
- * over thousands of values live at once), linear over many short ones.
- * The values one part computes and another reads live in a frame struct
- * the parts share. */
-/* The parameter list a part takes: the function's own arguments, but
- * work (whose arrays the frame points into), and the frame. */
-static void part_params(Buf *b, const Emitter *e, Function fn, int named)
-{
-    const char *m = e->ir->model;
-    buf_printf(b, "(const %s_param *%s", m, named ? DV_PREFIX "p" : "");
-    if (e->storage.has_input)
-        buf_printf(b, ", const %s_input *%s", m, named ? DV_PREFIX "in" : "");
-    if (fn == FN_TANGENT || fn == FN_HESSVEC)
-        buf_printf(b, ", const %s_param *%s", m, named ? DV_PREFIX "dir" : "");
-    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "grad" : "");
-    if (fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "hv" : "");
-    buf_printf(b, ", struct " DV_PREFIX "%s_frame *%s)", fn_name(fn),
-               named ? DV_PREFIX "f" : "");
-}
-
-/* End the current part: write it out as a function (the dry run only
- * counts it). */
-static void close_part(Emitter *e)
-{
-    Buf *body = &e->part_body;
-    if (!e->dry) {
-        Buf *t = e->text;
-        buf_printf(t, "\n/* %s_%s, part %d. */\n"
-                      "static void " DV_PREFIX "%s_part%d",
-                   e->ir->model, fn_name(e->fn), e->part, fn_name(e->fn),
-                   e->part);
-        part_params(t, e, e->fn, 1);
-        buf_put(t, "\n{\n");
-        if (!e->uses_p)
-            buf_put(t, "    (void)" DV_PREFIX "p;\n");
-        if (e->storage.has_input && !e->uses_in)
-            buf_put(t, "    (void)" DV_PREFIX "in;\n");
-        if ((e->fn == FN_TANGENT || e->fn == FN_HESSVEC) && !e->uses_dir)
-            buf_put(t, "    (void)" DV_PREFIX "dir;\n");
-        if ((e->fn == FN_GRADIENT || e->fn == FN_HESSVEC) && !e->uses_grad)
-            buf_put(t, "    (void)" DV_PREFIX "grad;\n");
-        if (e->fn == FN_HESSVEC && !e->uses_hv)
-            buf_put(t, "    (void)" DV_PREFIX "hv;\n");
-        if (!e->uses_frame)
-            buf_put(t, "    (void)" DV_PREFIX "f;\n");
-        put_code(e, t, body->data, body->len);
-        buf_put(t, "}\n");
-    }
-    body->len = 0;
-    e->uses_p = e->uses_in = e->uses_grad = e->uses_dir = e->uses_hv = 0;
-    e->uses_frame = 0;
-}
-
-static void new_part(Emitter *e)
-{
-    close_part(e);
-    e->part++;
-    e->part_stmts = 0;
-    e->last_origin = UINT32_MAX;
-}
-
-/* In a function written in parts, start a new part before a unit of n
- * statements (at the top level) when the current part is full. */
-static void part_break(Emitter *e, int n)
-{
-    if (!e->parted || e->base != 1)
-        return;
-    if (e->part_stmts > 0 && e->part_stmts + n > e->opt->part_size)
-        new_part(e);
-    e->part_stmts += n;
-}
-
-/* The comment that opens the reverse sweep, which also opens a part. */
-static void sweep_heading(Emitter *e, const char *text)
-{
-    if (e->parted && e->part_stmts > 0)
-        new_part(e);
-    else if (!e->parted && e->fwd->len > 0)
-        buf_put(e->out, "\n");
-    buf_put(e->out, text);
-    e->last_origin = UINT32_MAX;
-}
+/* ---------------------------------------------------------- functions */
 
 /* When the rows take two passes, the reverse pass computes each row's
  * values again; a row's tangent that no later forward statement reads is
@@ -1414,7 +1036,7 @@ static void skip_unread_tangents(Emitter *e)
 }
 
 /* The statements of a function, in order, to e->out (or its parts). */
-static void emit_sweeps(Emitter *e)
+void emit_sweeps(Emitter *e)
 {
     const Ir *ir = e->ir;
     e->uses_p = e->uses_in = e->uses_grad = e->uses_dir = e->uses_hv = 0;
@@ -1433,7 +1055,7 @@ static void emit_sweeps(Emitter *e)
          * the rows; one loop doing each row's value and adjoints; the
          * forward after the rows; the rest of the reverse sweep */
         emit_list(e, fwd, 0, op.fwd_from, 0, "");
-        sweep_heading(e, "    /* The reverse sweep, last statement first; the "
+        emit_sweep_heading(e, "    /* The reverse sweep, last statement first; the "
                          "rows' values and\n     * adjoints share one pass. */\n");
         emit_list(e, rev, 0, op.rev_from, 0, "adjoint of: ");
         emit_rows(e, rev, op.rev_from, op.rev_to, 0, op.fwd_from, op.fwd_to,
@@ -1448,101 +1070,11 @@ static void emit_sweeps(Emitter *e)
         free(e->skip);
         e->skip = NULL;
         if (rev) {
-            sweep_heading(e, "    /* The reverse sweep: adjoints, last "
+            emit_sweep_heading(e, "    /* The reverse sweep: adjoints, last "
                              "statement first. */\n");
             emit_list(e, rev, 0, rev->len, 1, "adjoint of: ");
         }
     }
-}
-
-/* A dry run of a function written in parts marks in e->framed the arrays
- * the frame must hold: those referred to in two parts, the output and
- * its tangent (the function returns them), and those in work (the function points to them
- * once).  A row's own arrays are the row block's locals. */
-static void plan_frame(Emitter *e, Function fn)
-{
-    const Ir *ir = e->ir;
-    memset(e->framed, 0, (size_t)ir->arrays.len);
-    for (int i = 0; i < ir->arrays.len; i++)
-        e->ref_part[i] = 0;
-    e->dry = 1;
-    e->out = &e->part_body;
-    emit_sweeps(e);
-    close_part(e);
-    e->dry = 0;
-    e->framed[ir->output] = 1;
-    if (fn == FN_TANGENT && ir->arrays.items[ir->output].varied)
-        e->framed[ir->arrays.items[ir->output].tangent] = 1;
-    for (int i = 0; i < ir->arrays.len; i++) {
-        const IrArray *a = &ir->arrays.items[i];
-        if (e->storage.slot[i] >= 0)
-            e->framed[i] = 1;
-        else if (a->row_local || is_external(a, ir))
-            e->framed[i] = 0;
-    }
-}
-
-/* The frame struct of a function written in parts. */
-static void emit_frame(Emitter *e, Function fn)
-{
-    const Ir *ir = e->ir;
-    buf_printf(e->text, "\n/* What the parts of %s_%s share: values one part "
-                        "computes and\n * another reads. */\n"
-                        "struct " DV_PREFIX "%s_frame {\n",
-               ir->model, fn_name(fn), fn_name(fn));
-    for (int i = 0; i < ir->arrays.len; i++) {
-        const IrArray *a = &ir->arrays.items[i];
-        if (!e->framed[i])
-            continue;
-        if (e->storage.slot[i] >= 0) {
-            buf_printf(e->text, "    %s *%s;   /* in work */\n",
-                       real_type(e->opt), a->name);
-            continue;
-        }
-        buf_printf(e->text, "    %s %s", c_type(e, a), a->name);
-        for (int k = 0; k < a->rank; k++)
-            buf_printf(e->text, "[%d]", a->dim[k]);
-        buf_put(e->text, ";\n");
-    }
-    buf_put(e->text, "};\n");
-}
-
-/* The body of a function written in parts: the frame, its work
- * pointers, and the parts called in order from a table. */
-static void emit_part_calls(Emitter *e, Function fn, Buf *body)
-{
-    const Ir *ir = e->ir;
-    const char *f = fn_name(fn);
-    buf_printf(e->text, "\nstatic void (*const " DV_PREFIX "%s_parts[%d])",
-               f, e->part);
-    part_params(e->text, e, fn, 0);
-    buf_put(e->text, " = {");
-    for (int k = 1; k <= e->part; k++)
-        buf_printf(e->text, "%s" DV_PREFIX "%s_part%d%s",
-                   k % 4 == 1 ? "\n    " : " ", f, k, k < e->part ? "," : "");
-    buf_put(e->text, "\n};\n");
-    buf_printf(body, "    struct " DV_PREFIX "%s_frame " DV_PREFIX "frame;\n",
-               f);
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (e->framed[i] && e->storage.slot[i] >= 0) {
-            buf_printf(body, "    " DV_PREFIX "frame.%s = " DV_PREFIX "work + "
-                             DV_PREFIX "at[%d];\n",
-                       ir->arrays.items[i].name, e->storage.slot[i]);
-            e->declared[i] = 1;     /* work is read */
-        }
-    buf_printf(body, "    for (int " DV_PREFIX "k = 0; " DV_PREFIX "k < %d; "
-                     DV_PREFIX "k++)\n        " DV_PREFIX "%s_parts[" DV_PREFIX
-                     "k](" DV_PREFIX "p, %s%s&" DV_PREFIX "frame);\n",
-               e->part, f, e->storage.has_input ? DV_PREFIX "in, " : "",
-               fn == FN_GRADIENT  ? DV_PREFIX "grad, "
-               : fn == FN_TANGENT ? DV_PREFIX "dir, "
-               : fn == FN_HESSVEC ? DV_PREFIX "dir, " DV_PREFIX "grad, "
-                                    DV_PREFIX "hv, "
-                                  : "");
-    e->uses_p = 1;
-    e->uses_in = 1;
-    e->uses_dir = 1;
-    e->part = 0;        /* the return reads the frame itself */
 }
 
 static void emit_function(Emitter *e, Function fn, Buf *c)
@@ -1557,11 +1089,11 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     int nstmts = e->fwd->len + (e->rev ? e->rev->len : 0);
     e->parted = nstmts > 4 * e->opt->part_size;
     if (e->parted) {
-        plan_frame(e, fn);
+        emit_plan_frame(e, fn);
         emit_frame(e, fn);
         e->out = &e->part_body;
         emit_sweeps(e);
-        close_part(e);
+        emit_close_part(e);
         emit_part_calls(e, fn, &body);
         e->out = &body;
     } else {
@@ -1583,7 +1115,7 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     buf_put(&body, ";\n}\n");
 
     buf_put(c, "\n");
-    signature(c, ir, &e->storage, fn, DV_PREFIX, real_type(e->opt));
+    emit_signature(c, ir, &e->storage, fn, DV_PREFIX, emit_real_type(e->opt));
     buf_put(c, "\n{\n");
     if (!e->uses_p)
         buf_put(c, "    (void)" DV_PREFIX "p;\n");
@@ -1597,10 +1129,10 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
         if (!work_read)
             buf_put(c, "    (void)" DV_PREFIX "work;\n");
         layout_emit_pointers(c, ir, &e->storage);
-    } else if (has_inputs(ir) && !e->uses_in) {
+    } else if (emit_has_inputs(ir) && !e->uses_in) {
         buf_put(c, "    (void)" DV_PREFIX "in;\n");
     }
-    put_code(e, c, body.data, body.len);
+    emit_put_code(e, c, body.data, body.len);
     buf_free(&body);
 }
 
@@ -1610,12 +1142,12 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
 static void emit_hessian(Emitter *e, Function fn, Buf *c)
 {
     const Ir *ir = e->ir;
-    const char *m = ir->model, *real = real_type(e->opt);
+    const char *m = ir->model, *real = emit_real_type(e->opt);
     const char *sfx = real_suffix(e->opt);
-    char *M = upper(m);
+    char *M = emit_upper(m);
     int in = e->storage.has_input, work = e->storage.uses_work;
     buf_put(c, "\n");
-    signature(c, ir, &e->storage, fn, DV_PREFIX, real_type(e->opt));
+    emit_signature(c, ir, &e->storage, fn, DV_PREFIX, emit_real_type(e->opt));
     buf_put(c, "\n{\n");
     if (work) {
         /* invalid sizes: NaN before anything is written */
@@ -1660,7 +1192,7 @@ static void emit_hessian(Emitter *e, Function fn, Buf *c)
 void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
 {
     const char *m = ir->model;
-    char *M = upper(m);
+    char *M = emit_upper(m);
     Emitter e;
     memset(&e, 0, sizeof e);
     e.ir = ir;
@@ -1713,12 +1245,12 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
                " * %s_PARAM_COUNT %ss, with no padding. */\n"
                "typedef char " DV_PREFIX "param_is_flat[sizeof(%s_param) == "
                "%s_PARAM_COUNT * sizeof(%s) ? 1 : -1];\n",
-               opt->source_name, what_is_emitted(ir, opt->emit), m,
+               opt->source_name, emit_what_is_emitted(ir, opt->emit), m,
                opt->model_file, opt->version, opt->header_name, m, M,
-               real_type(opt), m, M, real_type(opt));
+               emit_real_type(opt), m, M, emit_real_type(opt));
     emit_helpers(ir, reached, &e.storage, opt->real_float, c);
     if (e.storage.uses_work)
-        layout_emit(c, ir, &e.storage, real_type(opt));
+        layout_emit(c, ir, &e.storage, emit_real_type(opt));
     for (int fn = 0; fn < FN_COUNT; fn++) {
         if (opt->emit & (1 << fn))
             (fn == FN_HESSIAN ? emit_hessian : emit_function)(&e, (Function)fn,

@@ -1,6 +1,7 @@
-/* resolve.c - names, constants, shapes, index ranges and lowering, with
- * def functions expanded where they are called and used files read where
- * they are used; see resolve.h.
+/* resolve.c - names, constants, shapes, index ranges and lowering; the
+ * calls of def functions are checked and measured in resolve_def.c, used
+ * files found and read in uses.c.  See resolve.h; resolve_internal.h
+ * holds what the three files share.
  *
  * Each definition is handled in two walks over its right side.  The first
  * (infer) checks every name and binds every index to a range, taken from
@@ -19,9 +20,8 @@
  * conditions), and kept; a call lowers its arguments once and then the
  * body with the parameters standing for the arguments' nodes, so the
  * expansion is plain substitution before any derivative is taken. */
-#include "resolve.h"
+#include "resolve_internal.h"
 #include "apply.h"
-#include "fileio.h"
 #include "names.h"
 #include "parse_state.h"
 
@@ -29,157 +29,11 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 
 /* Largest element count of one array; larger ones are model errors. */
 #define MAX_ELEMENTS ((long)INT_MAX)
 
-/* Most operations the def calls of one definition may expand to: later
- * passes walk each statement's expression as a tree, and nested calls can
- * make that tree exponentially larger than the text. */
-#define MAX_EXPANDED 1000000
-
-/* Deepest nesting of used files. */
-#define MAX_USE_DEPTH 100
-
 /* ------------------------------------------------------------ symbols */
-
-typedef enum SymKind {
-    SYM_LATER,          /* defined by a later statement: not visible yet */
-    SYM_CONST,
-    SYM_ARRAY,
-    SYM_SIZE,
-    SYM_DEF
-} SymKind;
-
-typedef struct DefInfo DefInfo;
-
-typedef struct Symbol {
-    const char *name;   /* a copy in the arena (the IR's arrays share it) */
-    double value;       /* SYM_CONST */
-    Span span;          /* where it was defined */
-    int32_t array;      /* SYM_ARRAY */
-    int32_t size;       /* SYM_SIZE: its id in ir->sizes */
-    DefInfo *def;       /* SYM_DEF, and SYM_LATER for a def not reached */
-    uint32_t hash;      /* of name: most probes need not read the name */
-    uint8_t kind;       /* SymKind */
-    uint8_t failed;     /* its definition had errors: uses stay quiet */
-} Symbol;
-
-/* A def function: what the first pass saw of it, then, once its statement
- * is resolved, its checked body and the size of its expansion. */
-struct DefInfo {
-    const char *name;
-    Span name_span;
-    const char **params;    /* the parameter names */
-    int nparams;
-    const AstExpr *body;    /* a copy kept in the arena */
-    int is_cond;            /* the body is a condition */
-    int constant;           /* no condition anywhere in its expansion, so
-                               a const may call it */
-    /* The expansion as a tree, the parameters left out: its depth and
-     * node count; for each parameter the depth of its deepest use below
-     * the root and the number of its uses. */
-    double depth, size;
-    double *param_depth, *param_uses;
-    /* first pass: the functions the body calls, to find recursion */
-    const char **calls;
-    Span *call_spans;
-    int ncalls;
-    int stamp;              /* visited by the current recursion search */
-    int cyclic;             /* on a cycle of calls already reported */
-};
-
-/* The arguments of the def being expanded: its parameters stand for
- * these nodes (lowering) or numbers (constants). */
-typedef struct Frame {
-    const DefInfo *def;
-    const NodeId *nodes;
-    const double *values;
-} Frame;
-
-/* A file being read or read already, known by its device and inode. */
-typedef struct FileId {
-    dev_t dev;
-    ino_t ino;
-    int known;          /* stat succeeded (a model given as text may not
-                           exist as a file) */
-    const char *path;   /* as messages show it */
-    Span used_at;       /* the 'use' that read it (none for the model) */
-} FileId;
-
-/* A bound index: a free index of the left side, an implicit index of a
- * whole-array definition, or an index bound by a reduction. */
-typedef struct Binder {
-    const char *name;
-    Span span;          /* where it was bound */
-    int extent;         /* EXTENT_UNKNOWN until a subscript gives it one */
-    Span range_from;    /* the subscript that gave the range */
-    int32_t var;        /* its IR index var, made once the range is known */
-} Binder;
-
-typedef struct DefinedValue {
-    int32_t array;
-    Span name_span;     /* the name in its definition */
-} DefinedValue;
-
-/* A model statement, as the first pass saw it. */
-typedef struct ModelStmt {
-    int index;          /* its place among the statements */
-    Span span, name_span;
-    const char *name;
-} ModelStmt;
-
-typedef struct SymTable {
-    Symbol *items;      /* open addressing on name */
-    int cap, len;
-} SymTable;
-
-typedef struct Resolver {
-    Arena *arena;
-    Diag *diag;
-    const Source *src;
-    Ir *ir;
-    SymTable symbols;   /* every name the model defines: SYM_LATER until
-                           its definition is reached */
-    SymTable unparsed;  /* names of statements that failed to parse */
-    VEC(DefinedValue) defined;
-    int nparams;
-    int noutputs;
-
-    /* what the first pass (outline) saw of the whole model */
-    VEC(ModelStmt) models;  /* the model statements */
-    int nstmts;
-    Span last_span;     /* the last statement */
-    int has_output;     /* an output statement was resolved */
-    Span last_output;   /* the last one */
-
-    /* the definition being resolved */
-    const AstStmt *stmt;
-    const char *target_name;
-    VEC(Binder) binders;
-    VEC(int) scope;         /* binder ids in scope, outermost first */
-    int index_form;         /* the left side has indices */
-    int elem_rank;          /* whole-array form: rank of the bare arrays, -1 */
-    int elem_dim[IR_MAX_RANK];
-    Span elem_from;
-    int failed;
-    int ntemps;
-
-    /* def functions */
-    DefInfo *def;           /* the def whose body is being checked */
-    const Frame *frame;     /* the innermost def being expanded */
-    int stamp;              /* of the last recursion search */
-    int saw_cond;           /* a condition was seen in the body checked */
-    double expanded;        /* nodes of the expansions in this statement */
-    int call_depth;         /* measuring: def calls around this point */
-    int too_big;            /* an expansion limit was reported */
-
-    /* used files */
-    VEC(FileId) reading;    /* the files being read, the model first */
-    VEC(FileId) read;       /* every file read, each once */
-    int lost_file;          /* a used file could not be read */
-} Resolver;
 
 static uint32_t hash_name(const char *s)
 {
@@ -189,7 +43,7 @@ static uint32_t hash_name(const char *s)
     return h;
 }
 
-static Symbol *table_find(const SymTable *t, const char *name)
+Symbol *rs_table_find(const SymTable *t, const char *name)
 {
     if (!t->cap)
         return NULL;
@@ -231,31 +85,31 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
 
 /* A copy of a name the resolver keeps: a statement's syntax tree may be
  * freed once it is resolved. */
-static const char *copy_name(Resolver *r, const char *name)
+const char *rs_copy_name(Resolver *r, const char *name)
 {
     return arena_strndup(r->arena, name, strlen(name));
 }
 
 /* The symbol NAME refers to at this point of the model, or NULL. */
-static Symbol *lookup(Resolver *r, const char *name)
+Symbol *rs_lookup(Resolver *r, const char *name)
 {
-    Symbol *s = table_find(&r->symbols, name);
+    Symbol *s = rs_table_find(&r->symbols, name);
     return s && s->kind != SYM_LATER ? s : NULL;
 }
 
 /* A name some statement defines (first pass). */
 static void note_name(Resolver *r, const char *name, Span span)
 {
-    if (!table_find(&r->symbols, name))
-        table_insert(r->arena, &r->symbols, copy_name(r, name), span);
+    if (!rs_table_find(&r->symbols, name))
+        table_insert(r->arena, &r->symbols, rs_copy_name(r, name), span);
 }
 
 /* Define NAME here (it is not defined yet); the caller sets its kind. */
 static Symbol *insert(Resolver *r, const char *name, Span span)
 {
-    Symbol *s = table_find(&r->symbols, name);
+    Symbol *s = rs_table_find(&r->symbols, name);
     if (!s)
-        s = table_insert(r->arena, &r->symbols, copy_name(r, name), span);
+        s = table_insert(r->arena, &r->symbols, rs_copy_name(r, name), span);
     Symbol fresh;
     memset(&fresh, 0, sizeof fresh);
     fresh.name = s->name;
@@ -268,15 +122,15 @@ static Symbol *insert(Resolver *r, const char *name, Span span)
 /* True when NAME is unknown because its statement failed to parse, or
  * may be defined in a file that could not be read: the error was reported
  * there, and this use is not reported again. */
-static int failed_earlier(Resolver *r, const char *name)
+int rs_failed_earlier(Resolver *r, const char *name)
 {
-    return r->lost_file || table_find(&r->unparsed, name) != NULL;
+    return r->lost_file || rs_table_find(&r->unparsed, name) != NULL;
 }
 
 /* Record a definition that was refused, so its uses stay quiet. */
-static void insert_failed(Resolver *r, const char *name, Span span)
+void rs_insert_failed(Resolver *r, const char *name, Span span)
 {
-    if (lookup(r, name))
+    if (rs_lookup(r, name))
         return;
     Symbol *sym = insert(r, name, span);
     sym->kind = SYM_ARRAY;
@@ -292,7 +146,7 @@ static int definable(Resolver *r, const char *name, Span span)
         diag_error(r->diag, span, "'%s' %s; choose another name", name, why);
         return 0;
     }
-    Symbol *old = lookup(r, name);
+    Symbol *old = rs_lookup(r, name);
     if (old) {
         diag_error(r->diag, span,
                    "'%s' is already defined; every name is defined once", name);
@@ -302,7 +156,7 @@ static int definable(Resolver *r, const char *name, Span span)
     return 1;
 }
 
-static void fail(Resolver *r)
+void rs_fail(Resolver *r)
 {
     r->failed = 1;
 }
@@ -310,265 +164,12 @@ static void fail(Resolver *r)
 static const char *const reduction_names[] = {"sum", "max", "min",
                                               "logsumexp"};
 
-static int reduction_kind(const char *name)
+int rs_reduction_kind(const char *name)
 {
     for (int i = 0; i < 4; i++)
         if (strcmp(name, reduction_names[i]) == 0)
             return i;
     return -1;
-}
-
-/* ------------------------------------------------------ def functions */
-
-static DefInfo *new_def(Resolver *r, const char *name, Span name_span)
-{
-    DefInfo *d = arena_alloc(r->arena, sizeof *d);
-    d->name = copy_name(r, name);
-    d->name_span = name_span;
-    return d;
-}
-
-/* The parameter of D that NAME names, or -1 (also when D is NULL). */
-static int param_index(const DefInfo *d, const char *name)
-{
-    for (int i = 0; d && i < d->nparams; i++)
-        if (strcmp(d->params[i], name) == 0)
-            return i;
-    return -1;
-}
-
-static void note_def(Resolver *r, const DefInfo *d)
-{
-    diag_note(r->diag, d->name_span, "'%s' is defined here", d->name);
-}
-
-static void arity_error(Resolver *r, const AstExpr *e, int want)
-{
-    diag_error(r->diag, e->span, "'%s' takes %d argument%s but %d %s given",
-               e->name, want, want == 1 ? "" : "s", e->nargs,
-               e->nargs == 1 ? "is" : "are");
-}
-
-/* Whether a call passes D as many arguments as it has parameters;
- * reports (at the call, with a note at the def) when it does not. */
-static int arity_matches(Resolver *r, const AstExpr *e, const DefInfo *d)
-{
-    if (e->nargs == d->nparams)
-        return 1;
-    arity_error(r, e, d->nparams);
-    note_def(r, d);
-    fail(r);
-    return 0;
-}
-
-typedef VEC(DefInfo *) DefPath;
-
-/* Whether FROM, a def not reached yet, calls TARGET, directly or through
- * other defs not reached yet, as the first pass saw their bodies.  If so,
- * PATH holds the defs from FROM on and *at the call that reaches TARGET. */
-static int calls_back(Resolver *r, DefInfo *from, const DefInfo *target,
-                      DefPath *path, Span *at)
-{
-    from->stamp = r->stamp;
-    VEC_PUSH(r->arena, *path, from);
-    for (int i = 0; i < from->ncalls; i++) {
-        Symbol *s = table_find(&r->symbols, from->calls[i]);
-        if (!s || s->kind != SYM_LATER || !s->def)
-            continue;
-        if (s->def == target) {
-            *at = from->call_spans[i];
-            return 1;
-        }
-        if (s->def->stamp != r->stamp &&
-            calls_back(r, s->def, target, path, at))
-            return 1;
-    }
-    path->len--;
-    return 0;
-}
-
-/* A call that would make the def being checked recursive: reported with
- * the cycle, e.g. "f -> g -> f", and the call in the last def that
- * closes it. */
-static void recursion_error(Resolver *r, const AstExpr *e,
-                            const DefPath *path, Span at)
-{
-    const DefInfo *d = r->def;
-    char *chain = arena_printf(r->arena, "%s", d->name);
-    for (int i = 0; i < path->len; i++) {
-        chain = arena_printf(r->arena, "%s -> %s", chain,
-                             path->items[i]->name);
-        path->items[i]->cyclic = 1;     /* its calls on the cycle stay quiet */
-    }
-    chain = arena_printf(r->arena, "%s -> %s", chain, d->name);
-    diag_error(r->diag, e->name_span,
-               "'%s' calls itself (%s): a def is expanded where it is "
-               "called, so it cannot be recursive", d->name, chain);
-    if (path->len > 0)
-        diag_note(r->diag, at, "'%s' calls '%s' here",
-                  path->items[path->len - 1]->name, d->name);
-}
-
-/* The def a call of a name that is not a builtin expands, or NULL after
- * reporting why there is none (quietly when its definition failed). */
-static const DefInfo *def_called(Resolver *r, const AstExpr *e)
-{
-    Symbol *s = lookup(r, e->name);
-    Symbol *later = table_find(&r->symbols, e->name);
-    if (s && s->kind == SYM_DEF && !s->failed)
-        return s->def;
-    if (s && s->kind == SYM_DEF) {
-        /* its definition was reported */
-    } else if (s) {
-        diag_error(r->diag, e->name_span,
-                   "'%s' is a value, not a function; use [ ] to "
-                   "subscript an array", e->name);
-    } else if (r->def && strcmp(e->name, r->def->name) == 0) {
-        DefPath none = {0};
-        recursion_error(r, e, &none, e->name_span);
-    } else if (later && later->def && later->def->cyclic) {
-        /* part of a cycle reported already */
-    } else if (later && later->def) {
-        DefPath path = {0};
-        Span at = {0, 0};
-        r->stamp++;
-        if (r->def && calls_back(r, later->def, r->def, &path, &at)) {
-            recursion_error(r, e, &path, at);
-        } else {
-            diag_error(r->diag, e->name_span,
-                       "'%s' is defined on a later line: define it before "
-                       "this line", e->name);
-            note_def(r, later->def);
-        }
-        arena_release(r->arena, path.items,
-                      (size_t)path.cap * sizeof *path.items);
-    } else if (reduction_kind(e->name) >= 0) {
-        diag_error(r->diag, e->span,
-                   "'%s' reduces over an index: write %s(i: ...)", e->name,
-                   e->name);
-    } else if (!failed_earlier(r, e->name)) {
-        diag_error(r->diag, e->name_span, "unknown function '%s'", e->name);
-    }
-    fail(r);
-    return NULL;
-}
-
-/* The def a call expands, when it names one it can expand; quiet. */
-static const DefInfo *expandable(Resolver *r, const AstExpr *e)
-{
-    if (e->kind != AST_CALL || ir_builtin(e->name) >= 0)
-        return NULL;
-    Symbol *s = lookup(r, e->name);
-    return s && s->kind == SYM_DEF && !s->failed &&
-                   s->def->nparams == e->nargs ? s->def : NULL;
-}
-
-/* The tree an expression lowers to, with its def calls expanded: its
- * depth and its number of nodes (or, from param_uses, the depth of a
- * parameter's deepest use and the number of its uses).  Inside a def's
- * body its parameters count as nothing; each call then adds what its
- * arguments bring, through the parameters that use them. */
-typedef struct Measure {
-    double depth, size;
-} Measure;
-
-static Measure measure(Resolver *r, const AstExpr *e, int level);
-
-/* A call of D at depth LEVEL of its statement.  Outside a def's body the
- * expansion must stay within the limits the parser sets for written
- * expressions (later passes recurse on it) and MAX_EXPANDED nodes in all;
- * the first call past a limit is reported, with a note at its def. */
-static Measure measure_call(Resolver *r, const AstExpr *e, const DefInfo *d,
-                            int level)
-{
-    Measure m = {d->depth, d->size};
-    r->call_depth++;
-    for (int i = 0; i < e->nargs; i++) {
-        Measure a = measure(r, e->args[i], level + 1);
-        if (d->param_uses[i] > 0) {
-            if (d->param_depth[i] + a.depth > m.depth)
-                m.depth = d->param_depth[i] + a.depth;
-            m.size += d->param_uses[i] * a.size;
-        }
-    }
-    r->call_depth--;
-    if (r->def || r->too_big)
-        return m;
-    if (level - 1 + m.depth > PARSE_MAX_DEPTH) {
-        diag_error(r->diag, e->span,
-                   "expanding '%s' here nests the expression more than %d "
-                   "levels deep: split it into named steps", d->name,
-                   PARSE_MAX_DEPTH);
-        r->too_big = 1;
-    } else if (r->call_depth == 0 &&
-               (r->expanded += m.size) > MAX_EXPANDED) {
-        diag_error(r->diag, e->span,
-                   "with '%s' expanded here, this statement has more than "
-                   "%d operations: split it into named steps", d->name,
-                   MAX_EXPANDED);
-        r->too_big = 1;
-    }
-    if (r->too_big)
-        note_def(r, d);
-    return m;
-}
-
-static Measure measure(Resolver *r, const AstExpr *e, int level)
-{
-    Measure m = {1, 1};
-    const DefInfo *d = expandable(r, e);
-    if (d)
-        return measure_call(r, e, d, level);
-    if (e->kind == AST_NAME && param_index(r->def, e->name) >= 0) {
-        m.depth = m.size = 0;
-        return m;
-    }
-    if (e->kind == AST_REDUCE) {
-        /* the body becomes statements of its own */
-        m.size += measure(r, e->body, 1).size;
-        return m;
-    }
-    for (int i = 0; i < e->nargs && e->kind != AST_SUBSCRIPT; i++) {
-        Measure c = measure(r, e->args[i], level + 1);
-        if (1 + c.depth > m.depth)
-            m.depth = 1 + c.depth;
-        m.size += c.size;
-    }
-    return m;
-}
-
-/* In the body of the def being checked: the depth of the deepest use of
- * parameter P below the root, and (as size) the number of its uses. */
-static Measure param_uses(Resolver *r, const AstExpr *e, int p)
-{
-    Measure u = {0, 0};
-    if (e->kind == AST_NAME) {
-        u.size = param_index(r->def, e->name) == p;
-        return u;
-    }
-    const DefInfo *d = expandable(r, e);
-    for (int i = 0; i < e->nargs; i++) {
-        Measure a = param_uses(r, e->args[i], p);
-        double below = d ? d->param_depth[i] : 1;
-        double times = d ? d->param_uses[i] : 1;
-        if (a.size > 0 && times > 0) {
-            if (below + a.depth > u.depth)
-                u.depth = below + a.depth;
-            u.size += times * a.size;
-        }
-    }
-    return u;
-}
-
-/* Whether the def calls of a statement's expression expand within the
- * limits; reports the first call past one. */
-static int expansion_fits(Resolver *r, const AstExpr *e)
-{
-    r->expanded = 0;
-    r->too_big = 0;
-    r->call_depth = 0;
-    measure(r, e, 1);
-    return !r->too_big;
 }
 
 /* ---------------------------------------------------------- constants */
@@ -579,14 +180,14 @@ static int const_eval(Resolver *r, const AstExpr *e, double *out);
  * values.  Only a def without conditions gives a constant. */
 static int const_call(Resolver *r, const AstExpr *e, double *out)
 {
-    const DefInfo *d = def_called(r, e);
-    if (!d || !arity_matches(r, e, d))
+    const DefInfo *d = rs_def_called(r, e);
+    if (!d || !rs_arity_matches(r, e, d))
         return 0;
     if (!d->constant) {
         diag_error(r->diag, e->span,
                    "'%s' cannot give a constant: its body uses a condition",
                    d->name);
-        note_def(r, d);
+        rs_note_def(r, d);
         return 0;
     }
     double *values = arena_alloc(r->arena,
@@ -613,14 +214,14 @@ static int const_eval(Resolver *r, const AstExpr *e, double *out)
         *out = e->num;
         return 1;
     case AST_NAME: {
-        int p = r->frame ? param_index(r->frame->def, e->name) : -1;
+        int p = r->frame ? rs_param_index(r->frame->def, e->name) : -1;
         if (p >= 0) {
             *out = r->frame->values[p];
             return 1;
         }
-        Symbol *s = lookup(r, e->name);
+        Symbol *s = rs_lookup(r, e->name);
         if (!s) {
-            if (!failed_earlier(r, e->name))
+            if (!rs_failed_earlier(r, e->name))
                 diag_error(r->diag, e->span,
                            "unknown name '%s': define it before this line",
                            e->name);
@@ -688,7 +289,8 @@ static void resolve_const(Resolver *r, const AstStmt *s)
 {
     double value = 0;
     int ok = definable(r, s->name, s->name_span);
-    int valued = expansion_fits(r, s->expr) && const_eval(r, s->expr, &value);
+    int valued = rs_expansion_fits(r, s->expr) &&
+                 const_eval(r, s->expr, &value);
     if (valued && !isfinite(value)) {
         diag_error(r->diag, s->expr->span,
                    "constant '%s' is not a finite number (its value is %s)",
@@ -696,7 +298,7 @@ static void resolve_const(Resolver *r, const AstStmt *s)
         valued = 0;
     }
     if (!ok) {
-        insert_failed(r, s->name, s->name_span);
+        rs_insert_failed(r, s->name, s->name_span);
         return;
     }
     Symbol *sym = insert(r, s->name, s->name_span);
@@ -721,7 +323,7 @@ static int dimension(Resolver *r, const AstExpr *e, const char *array,
                    array, array, array);
         return 0;
     }
-    Symbol *sym = e->kind == AST_NAME ? lookup(r, e->name) : NULL;
+    Symbol *sym = e->kind == AST_NAME ? rs_lookup(r, e->name) : NULL;
     if (sym && sym->kind == SYM_SIZE) {
         if (role == ROLE_PARAM) {
             diag_error(r->diag, e->span,
@@ -786,7 +388,7 @@ static void resolve_decls(Resolver *r, const AstStmt *s)
         }
         if (ok && !fits(r, d->ndims, dim, d->span, d->name))
             ok = 0;
-        if (!lookup(r, d->name)) {
+        if (!rs_lookup(r, d->name)) {
             Symbol *sym = insert(r, d->name, d->span);
             sym->kind = SYM_ARRAY;
             sym->failed = !ok;
@@ -806,7 +408,7 @@ static void resolve_sizes(Resolver *r, const AstStmt *s)
     for (int i = 0; i < s->nnames; i++) {
         const AstExpr *n = s->names[i];
         if (!definable(r, n->name, n->span)) {
-            insert_failed(r, n->name, n->span);
+            rs_insert_failed(r, n->name, n->span);
             continue;
         }
         Symbol *sym = insert(r, n->name, n->span);
@@ -859,9 +461,9 @@ static int push_binder(Resolver *r, const char *name, Span span, int extent)
 static int bind(Resolver *r, const char *name, Span span)
 {
     const char *why = names_reserved(name, r->ir->model);
-    Symbol *sym = lookup(r, name);
+    Symbol *sym = rs_lookup(r, name);
     int outer = find_binder(r, name);
-    Symbol *value = table_find(&r->symbols, name);
+    Symbol *value = rs_table_find(&r->symbols, name);
     if (why) {
         diag_error(r->diag, span, "index '%s' %s; choose another name",
                    name, why);
@@ -880,7 +482,7 @@ static int bind(Resolver *r, const char *name, Span span)
     } else {
         return push_binder(r, name, span, EXTENT_UNKNOWN);
     }
-    fail(r);
+    rs_fail(r);
     return push_binder(r, name, span, EXTENT_FAILED);
 }
 
@@ -890,10 +492,10 @@ static void infer(Resolver *r, const AstExpr *e);
  * why there is none (or quietly, when its definition already failed). */
 static Symbol *resolve_use(Resolver *r, const char *name, Span at)
 {
-    Symbol *s = lookup(r, name);
+    Symbol *s = rs_lookup(r, name);
     if (s && !s->failed && s->kind != SYM_DEF)
         return s;
-    if ((!s && !failed_earlier(r, name)) || (s && !s->failed)) {
+    if ((!s && !rs_failed_earlier(r, name)) || (s && !s->failed)) {
         if (strcmp(name, r->target_name) == 0)
             diag_error(r->diag, at, "'%s' is used in its own definition",
                        name);
@@ -904,7 +506,7 @@ static Symbol *resolve_use(Resolver *r, const char *name, Span at)
             diag_error(r->diag, at,
                        "unknown name '%s': define it before this line", name);
     }
-    fail(r);
+    rs_fail(r);
     return NULL;
 }
 
@@ -925,19 +527,19 @@ static int refused_in_body(Resolver *r, const Symbol *s, const char *name,
                "parameters, constants and functions: pass '%s' as an "
                "argument", name, what, name);
     diag_note(r->diag, s->span, "'%s' is defined here", name);
-    fail(r);
+    rs_fail(r);
     return 1;
 }
 
 static void infer_name(Resolver *r, const AstExpr *e)
 {
-    if (param_index(r->def, e->name) >= 0)
+    if (rs_param_index(r->def, e->name) >= 0)
         return;
     if (find_binder(r, e->name) >= 0) {
         diag_error(r->diag, e->span,
                    "index '%s' used as a value: indices may only subscript "
                    "arrays", e->name);
-        fail(r);
+        rs_fail(r);
         return;
     }
     Symbol *s = resolve_use(r, e->name, e->span);
@@ -950,7 +552,7 @@ static void infer_name(Resolver *r, const AstExpr *e)
         diag_error(r->diag, e->span,
                    "'%s' is an array: in index notation subscript it, as in "
                    "%s[i]", e->name, e->name);
-        fail(r);
+        rs_fail(r);
         return;
     }
     if (r->elem_rank < 0) {
@@ -966,28 +568,28 @@ static void infer_name(Resolver *r, const AstExpr *e)
                    "elementwise definition: use index notation, as in "
                    "y[i] = ...", e->name);
         diag_note(r->diag, r->elem_from, "the shape was set here");
-        fail(r);
+        rs_fail(r);
     }
 }
 
 static void infer_subscript(Resolver *r, const AstExpr *e)
 {
     /* a def's parameters are numbers */
-    int param = param_index(r->def, e->name) >= 0;
+    int param = rs_param_index(r->def, e->name) >= 0;
     Symbol *s = param ? NULL : resolve_use(r, e->name, e->name_span);
     if (!param && (!s || refused_in_body(r, s, e->name, e->name_span)))
         return;
     if (s && s->kind != SYM_ARRAY) {
         diag_error(r->diag, e->span, "'%s' is a %s and cannot be subscripted",
                    e->name, s->kind == SYM_SIZE ? "size" : "constant");
-        fail(r);
+        rs_fail(r);
         return;
     }
     const IrArray *a = s ? &r->ir->arrays.items[s->array] : NULL;
     if (!a || a->rank == 0) {
         diag_error(r->diag, e->span,
                    "'%s' is a scalar and takes no subscripts", e->name);
-        fail(r);
+        rs_fail(r);
         return;
     }
     if (a->rank != e->nargs) {
@@ -995,7 +597,7 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
                    "'%s' has %d dimension%s but %d subscript%s here", e->name,
                    a->rank, a->rank == 1 ? "" : "s", e->nargs,
                    e->nargs == 1 ? " is given" : "s are given");
-        fail(r);
+        rs_fail(r);
         return;
     }
     for (int k = 0; k < e->nargs; k++) {
@@ -1005,12 +607,12 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
                        "a subscript must be an index name; constant "
                        "subscripts and offsets such as i+1 are not "
                        "supported by this version");
-            fail(r);
+            rs_fail(r);
             continue;
         }
         int b = find_binder(r, ix->name);
         if (b < 0) {
-            if (lookup(r, ix->name))
+            if (rs_lookup(r, ix->name))
                 diag_error(r->diag, ix->span,
                            "'%s' is a value, not an index: subscripts are "
                            "indices bound on the left side or by a reduction",
@@ -1019,7 +621,7 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
                 diag_error(r->diag, ix->span,
                            "index '%s' is not bound: add it to the left side "
                            "or reduce over it", ix->name);
-            fail(r);
+            rs_fail(r);
             continue;
         }
         Binder *bd = &r->binders.items[b];
@@ -1036,7 +638,7 @@ static void infer_subscript(Resolver *r, const AstExpr *e)
                        extent_text(r, bd->extent));
             diag_note(r->diag, bd->range_from, "'%s' got the range %s here",
                       ix->name, extent_text(r, bd->extent));
-            fail(r);
+            rs_fail(r);
         }
     }
 }
@@ -1045,9 +647,9 @@ static void infer_call(Resolver *r, const AstExpr *e)
 {
     int op = ir_builtin(e->name);
     if (op < 0) {
-        const DefInfo *d = def_called(r, e);
+        const DefInfo *d = rs_def_called(r, e);
         if (d)
-            arity_matches(r, e, d);
+            rs_arity_matches(r, e, d);
     } else if (ir_ops[op].arity != e->nargs) {
         if (op == IR_MAX || op == IR_MIN)
             diag_error(r->diag, e->span,
@@ -1055,8 +657,8 @@ static void infer_call(Resolver *r, const AstExpr *e)
                        "over an index, as in %s(i: x[i])",
                        e->name, e->name, e->name);
         else
-            arity_error(r, e, ir_ops[op].arity);
-        fail(r);
+            rs_arity_error(r, e, ir_ops[op].arity);
+        rs_fail(r);
     }
     for (int i = 0; i < e->nargs; i++)
         infer(r, e->args[i]);
@@ -1068,25 +670,25 @@ static void infer_reduce(Resolver *r, AstExpr *e)
         diag_error(r->diag, e->span,
                    "a def's body cannot contain a reduction: reduce where "
                    "the def is called and pass the result as an argument");
-        fail(r);
+        rs_fail(r);
         return;
     }
-    if (reduction_kind(e->name) < 0) {
+    if (rs_reduction_kind(e->name) < 0) {
         diag_error(r->diag, e->name_span,
                    "'%s' is not a reduction; the reductions are sum, max, "
                    "min and logsumexp", e->name);
-        fail(r);
+        rs_fail(r);
     }
     int pushed = 0, first = r->binders.len;
     if (e->nbound > LANG_MAX_RANK) {
         diag_error(r->diag, e->span,
                    "a reduction binds at most %d indices", LANG_MAX_RANK);
-        fail(r);
+        rs_fail(r);
         return;
     }
     for (int i = 0; i < e->nbound; i++) {
         if (e->bound[i]->kind != AST_NAME) {
-            fail(r);
+            rs_fail(r);
             continue;
         }
         int b = bind(r, e->bound[i]->name, e->bound[i]->span);
@@ -1101,11 +703,11 @@ static void infer_reduce(Resolver *r, AstExpr *e)
                        "cannot tell the range of index '%s': use it as a "
                        "subscript of an array inside the reduction",
                        r->binders.items[b].name);
-            fail(r);
+            rs_fail(r);
         }
     r->scope.len -= pushed;
     if (pushed != e->nbound)
-        fail(r);
+        rs_fail(r);
 }
 
 static void infer(Resolver *r, const AstExpr *e)
@@ -1170,10 +772,10 @@ static void kind_error(Resolver *r, const AstExpr *e, int found_cond)
         diag_error(r->diag, e->span,
                    "expected a condition such as 'x > 0' here, found a "
                    "number");
-    const DefInfo *d = expandable(r, e);
+    const DefInfo *d = rs_expandable(r, e);
     if (d)
-        note_def(r, d);
-    fail(r);
+        rs_note_def(r, d);
+    rs_fail(r);
 }
 
 static int body_kind(Resolver *r, const AstExpr *e);
@@ -1214,7 +816,7 @@ static int body_kind(Resolver *r, const AstExpr *e)
         want_kind(r, e->args[2], 0);
         return 0;
     case AST_CALL: {
-        const DefInfo *d = expandable(r, e);
+        const DefInfo *d = rs_expandable(r, e);
         for (int i = 0; i < e->nargs; i++)
             want_kind(r, e->args[i], 0);
         r->saw_cond |= d && !d->constant;
@@ -1231,7 +833,7 @@ static int32_t binder_var(Resolver *r, int b)
 {
     Binder *bd = &r->binders.items[b];
     if (bd->var < 0)
-        bd->var = ir_add_var(r->ir, copy_name(r, bd->name), bd->extent);
+        bd->var = ir_add_var(r->ir, rs_copy_name(r, bd->name), bd->extent);
     return bd->var;
 }
 
@@ -1375,7 +977,7 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
     static const double init[] = {0, -HUGE_VAL, HUGE_VAL};
     static const IrStmtKind kinds[] = {SK_ADD, SK_MAX, SK_MIN};
     static const char *const what[] = {"sum", "max", "min"};
-    int kind = reduction_kind(e->name);
+    int kind = rs_reduction_kind(e->name);
     for (int i = 0; i < e->nbound; i++)
         VEC_PUSH(r->arena, r->scope, e->binder + i);
     NodeId body = lower_value(r, e->body);
@@ -1398,7 +1000,7 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
                    "this reduction depends on %d enclosing indices; at most "
                    "%d are supported: compute it in a definition of its own",
                    nouter, IR_MAX_RANK);
-        fail(r);
+        rs_fail(r);
         nouter = IR_MAX_RANK;
     }
     int32_t dom[64];
@@ -1410,7 +1012,7 @@ static NodeId lower_reduce(Resolver *r, const AstExpr *e, int32_t direct,
     for (int k = 0; k < nouter; k++)
         dim[k] = r->ir->vars.items[outer[k]].extent;
     if (!fits(r, nouter, dim, e->span, NULL))
-        fail(r);
+        rs_fail(r);
     if (kind == 3)
         return lower_logsumexp(r, e, body, tuple, domain, nouter, dim);
     int32_t acc;
@@ -1452,7 +1054,7 @@ static NodeId lower_call(Resolver *r, const AstExpr *e, int *is_cond)
             a[i] = lower_value(r, e->args[i]);
         return ir_node(r->ir, (IrOp)op, a[0], a[1], a[2]);
     }
-    const DefInfo *d = expandable(r, e);
+    const DefInfo *d = rs_expandable(r, e);
     NodeId *args = arena_alloc(r->arena, (size_t)e->nargs * sizeof *args);
     for (int i = 0; i < e->nargs; i++)
         args[i] = lower_value(r, e->args[i]);
@@ -1490,10 +1092,10 @@ static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
     case AST_NUM:
         return ir_const(r->ir, e->num);
     case AST_NAME: {
-        int p = r->frame ? param_index(r->frame->def, e->name) : -1;
+        int p = r->frame ? rs_param_index(r->frame->def, e->name) : -1;
         if (p >= 0)
             return r->frame->nodes[p];
-        Symbol *s = lookup(r, e->name);
+        Symbol *s = rs_lookup(r, e->name);
         if (s->kind == SYM_CONST)
             return ir_const(r->ir, s->value);
         if (s->kind == SYM_SIZE)
@@ -1508,7 +1110,7 @@ static NodeId lower(Resolver *r, const AstExpr *e, int *is_cond)
         return ir_read(r->ir, s->array, ir_tuple(r->ir, vars, a->rank));
     }
     case AST_SUBSCRIPT: {
-        Symbol *s = lookup(r, e->name);
+        Symbol *s = rs_lookup(r, e->name);
         int32_t vars[IR_MAX_RANK];
         for (int k = 0; k < e->nargs; k++)
             vars[k] = binder_var(r, find_binder(r, e->args[k]->name));
@@ -1567,22 +1169,22 @@ static void resolve_define(Resolver *r, const AstStmt *s)
         diag_error(r->diag, s->name_span,
                    "'%s' has %d indices; at most %d are allowed", s->name,
                    s->nindex, LANG_MAX_RANK);
-        fail(r);
+        rs_fail(r);
     }
     infer(r, s->expr);
-    if (!r->failed && !expansion_fits(r, s->expr))
-        fail(r);
+    if (!r->failed && !rs_expansion_fits(r, s->expr))
+        rs_fail(r);
     for (int i = 0; i < r->scope.len; i++) {
         Binder *b = &r->binders.items[r->scope.items[i]];
         if (b->extent == EXTENT_UNKNOWN && !r->failed) {
             diag_error(r->diag, b->span,
                        "cannot tell the range of index '%s': use it as a "
                        "subscript of an array on the right side", b->name);
-            fail(r);
+            rs_fail(r);
         }
     }
     if (!ok) {
-        insert_failed(r, s->name, s->name_span);
+        rs_insert_failed(r, s->name, s->name_span);
         return;
     }
     Symbol *sym = insert(r, s->name, s->name_span);
@@ -1645,7 +1247,7 @@ static AstExpr *copy_expr(Resolver *r, const AstExpr *e)
     AstExpr *c = arena_alloc(r->arena, sizeof *c);
     *c = *e;
     if (e->name)
-        c->name = copy_name(r, e->name);
+        c->name = rs_copy_name(r, e->name);
     c->args = arena_alloc(r->arena, (size_t)e->nargs * sizeof *c->args);
     for (int i = 0; i < e->nargs; i++)
         c->args[i] = copy_expr(r, e->args[i]);
@@ -1661,11 +1263,11 @@ static AstExpr *copy_expr(Resolver *r, const AstExpr *e)
  * measures of its expansion. */
 static void resolve_def(Resolver *r, const AstStmt *s)
 {
-    Symbol *sym = table_find(&r->symbols, s->name);
+    Symbol *sym = rs_table_find(&r->symbols, s->name);
     DefInfo *d = sym && sym->kind == SYM_LATER && sym->def &&
                          sym->def->name_span.off == s->name_span.off
                      ? sym->def
-                     : new_def(r, s->name, s->name_span);
+                     : rs_new_def(r, s->name, s->name_span);
     begin_definition(r, s);
     int ok = definable(r, s->name, s->name_span);
     d->nparams = 0;
@@ -1676,18 +1278,18 @@ static void resolve_def(Resolver *r, const AstStmt *s)
         if (why) {
             diag_error(r->diag, p->span, "'%s' %s; choose another name",
                        p->name, why);
-            fail(r);
+            rs_fail(r);
         }
-        int k = param_index(d, p->name);
+        int k = rs_param_index(d, p->name);
         if (k >= 0) {
             diag_error(r->diag, p->span,
                        "parameter '%s' is listed twice in '%s'", p->name,
                        s->name);
             diag_note(r->diag, s->names[k]->span, "'%s' is first bound here",
                       p->name);
-            fail(r);
+            rs_fail(r);
         }
-        d->params[d->nparams++] = copy_name(r, p->name);
+        d->params[d->nparams++] = rs_copy_name(r, p->name);
     }
     r->def = d;
     infer(r, s->expr);
@@ -1697,7 +1299,7 @@ static void resolve_def(Resolver *r, const AstStmt *s)
     d->constant = !r->saw_cond;
     if (!r->failed) {
         d->body = copy_expr(r, s->expr);
-        Measure m = measure(r, d->body, 1);
+        Measure m = rs_measure(r, d->body, 1);
         d->depth = m.depth;
         d->size = m.size;
         d->param_depth = arena_alloc(r->arena, (size_t)d->nparams *
@@ -1705,14 +1307,14 @@ static void resolve_def(Resolver *r, const AstStmt *s)
         d->param_uses = arena_alloc(r->arena, (size_t)d->nparams *
                                                   sizeof *d->param_uses);
         for (int i = 0; i < d->nparams; i++) {
-            Measure u = param_uses(r, d->body, i);
+            Measure u = rs_param_uses(r, d->body, i);
             d->param_depth[i] = u.depth;
             d->param_uses[i] = u.size;
         }
     }
     r->def = NULL;
     if (!ok) {
-        insert_failed(r, s->name, s->name_span);
+        rs_insert_failed(r, s->name, s->name_span);
         return;
     }
     sym = insert(r, s->name, s->name_span);
@@ -1725,9 +1327,9 @@ static void resolve_output(Resolver *r, const AstStmt *s)
 {
     for (int i = 0; i < s->nnames; i++) {
         const AstExpr *n = s->names[i];
-        Symbol *sym = lookup(r, n->name);
+        Symbol *sym = rs_lookup(r, n->name);
         r->noutputs++;
-        if (!sym && failed_earlier(r, n->name))
+        if (!sym && rs_failed_earlier(r, n->name))
             continue;
         if (!sym) {
             diag_error(r->diag, n->span,
@@ -1897,7 +1499,7 @@ static void collect_calls(Resolver *r, const AstExpr *e, NameList *names,
                           SpanList *at)
 {
     if (e->kind == AST_CALL && ir_builtin(e->name) < 0) {
-        VEC_PUSH(r->arena, *names, copy_name(r, e->name));
+        VEC_PUSH(r->arena, *names, rs_copy_name(r, e->name));
         VEC_PUSH(r->arena, *at, e->name_span);
     }
     for (int i = 0; i < e->nargs; i++)
@@ -1907,9 +1509,9 @@ static void collect_calls(Resolver *r, const AstExpr *e, NameList *names,
 /* First pass over a def: note it and the functions its body calls. */
 static void outline_def(Resolver *r, const AstStmt *s)
 {
-    if (table_find(&r->symbols, s->name))
+    if (rs_table_find(&r->symbols, s->name))
         return;     /* defined twice: reported when resolved */
-    DefInfo *d = new_def(r, s->name, s->name_span);
+    DefInfo *d = rs_new_def(r, s->name, s->name_span);
     NameList calls = {0};
     SpanList spans = {0};
     collect_calls(r, s->expr, &calls, &spans);
@@ -1939,7 +1541,7 @@ static void outline(Resolver *r, const AstStmt *s)
 {
     if (s->kind == STMT_MODEL) {
         ModelStmt ms = {r->nstmts, s->span, s->name_span,
-                        copy_name(r, s->name)};
+                        rs_copy_name(r, s->name)};
         VEC_PUSH(r->arena, r->models, ms);
     }
     outline_names(r, s);
@@ -1952,7 +1554,7 @@ static void outline(Resolver *r, const AstStmt *s)
 static void note_unparsed(Resolver *r, const char *const *failed, int n)
 {
     for (int i = 0; i < n; i++)
-        if (!table_find(&r->unparsed, failed[i])) {
+        if (!rs_table_find(&r->unparsed, failed[i])) {
             Span none = {0, 0};
             table_insert(r->arena, &r->unparsed, failed[i], none);
         }
@@ -1970,7 +1572,7 @@ static void start(Resolver *r, const char *const *failed, int nfailed,
 
 static void resolve_stmt(Resolver *r, const AstStmt *s);
 
-static void visit_names(void *r, const AstStmt *s)
+void rs_visit_names(void *r, const AstStmt *s)
 {
     outline_names(r, s);
 }
@@ -1982,13 +1584,13 @@ static void visit_stmt(void *r, const AstStmt *s)
 
 /* Both passes over SRC: the first with VISIT, reporting syntax errors;
  * the second, silent about the syntax, resolving each statement. */
-static void read_twice(Resolver *r, const Source *src,
-                       void (*visit)(void *, const AstStmt *),
-                       const char *name, const char *stem)
+void rs_read_twice(Resolver *r, const Source *src,
+                   void (*visit)(void *, const AstStmt *),
+                   const char *name, const char *stem)
 {
     ParseVisitor first = {visit, r, NULL, 0};
     parse_each(r->arena, r->diag, src, &first);
-    if (visit == visit_names)
+    if (visit == rs_visit_names)
         note_unparsed(r, first.failed, first.nfailed);
     else
         start(r, first.failed, first.nfailed, name, stem);
@@ -2000,165 +1602,6 @@ static void read_twice(Resolver *r, const Source *src,
     parse_each(r->arena, &quiet, src, &second);
 }
 
-/* ---------------------------------------------------------- used files */
-
-/* PATH's identity, if it names an existing file. */
-static FileId file_id(const char *path, Span used_at)
-{
-    FileId f;
-    struct stat st;
-    memset(&f, 0, sizeof f);
-    if (stat(path, &st) == 0) {
-        f.dev = st.st_dev;
-        f.ino = st.st_ino;
-        f.known = 1;
-    }
-    f.path = path;
-    f.used_at = used_at;
-    return f;
-}
-
-static int same_file(const FileId *a, const FileId *b)
-{
-    return a->known && b->known && a->dev == b->dev && a->ino == b->ino;
-}
-
-/* NAME in the directory the first N bytes of DIR name ("" is the current
- * directory). */
-static const char *join_path(Resolver *r, const char *dir, size_t n,
-                             const char *name)
-{
-    return arena_printf(r->arena, "%.*s%s%s", (int)n, dir,
-                        n > 0 && dir[n - 1] != '/' ? "/" : "", name);
-}
-
-/* Where a file named NAME used by the file FROM may be, in the order they
- * are tried: beside FROM, then in each -I directory (an absolute NAME is
- * only itself).  *n gets the count. */
-static const char **search_paths(Resolver *r, const char *from,
-                                 const char *name, int *n)
-{
-    const SourceSet *set = r->diag->files;
-    const char **list = arena_alloc(r->arena, (size_t)(set->ndirs + 1) *
-                                                  sizeof *list);
-    *n = 0;
-    if (name[0] == '/') {
-        list[(*n)++] = name;
-        return list;
-    }
-    const char *slash = strrchr(from, '/');
-    list[(*n)++] = join_path(r, from, slash ? (size_t)(slash - from) + 1 : 0,
-                             name);
-    for (int i = 0; i < set->ndirs; i++)
-        list[(*n)++] = join_path(r, set->dirs[i], strlen(set->dirs[i]), name);
-    return list;
-}
-
-/* use "FILE": find the file and read its statements here, unless it was
- * read already (each file is read once) or is being read (a cycle).
- * Returns 0 after reporting why it cannot be read. */
-static int use_file(Resolver *r, const AstStmt *s)
-{
-    if (!r->diag->files)
-        DV_UNREACHABLE();   /* resolve.h: the caller gives the file set */
-    const FileId *from = &r->reading.items[r->reading.len - 1];
-    if (!s->path[0]) {
-        diag_error(r->diag, s->path_span,
-                   "'use' needs a file name between the quotes");
-        return 0;
-    }
-    int n, k = 0;
-    const char **paths = search_paths(r, from->path, s->path, &n);
-    struct stat st;
-    while (k < n && stat(paths[k], &st) != 0)
-        k++;
-    if (k == n) {
-        char *tried = arena_printf(r->arena, "%s", paths[0]);
-        for (int i = 1; i < n; i++)
-            tried = arena_printf(r->arena, "%s, %s", tried, paths[i]);
-        diag_error(r->diag, s->path_span, "cannot find '%s' (tried %s)",
-                   s->path, tried);
-        return 0;
-    }
-    if (!S_ISREG(st.st_mode) && !S_ISDIR(st.st_mode)) {
-        /* a device or a pipe may never end (a directory fails to read) */
-        diag_error(r->diag, s->path_span,
-                   "'%s' is not a regular file, so it cannot be used",
-                   paths[k]);
-        return 0;
-    }
-    FileId id = file_id(paths[k], s->path_span);
-    for (int i = 0; i < r->reading.len; i++)
-        if (same_file(&r->reading.items[i], &id)) {
-            char *chain = arena_printf(r->arena, "%s",
-                                       r->reading.items[i].path);
-            for (int j = i + 1; j < r->reading.len; j++)
-                chain = arena_printf(r->arena, "%s uses %s", chain,
-                                     r->reading.items[j].path);
-            diag_error(r->diag, s->path_span,
-                       "the files use each other in a cycle: %s uses %s",
-                       chain, r->reading.items[i].path);
-            return 0;
-        }
-    for (int i = 0; i < r->read.len; i++)
-        if (same_file(&r->read.items[i], &id))
-            return 1;
-    if (r->reading.len > MAX_USE_DEPTH) {
-        diag_error(r->diag, s->path_span,
-                   "used files nest more than %d deep", MAX_USE_DEPTH);
-        return 0;
-    }
-    size_t len;
-    char *text = fileio_read(id.path, &len);
-    if (!text) {
-        diag_error(r->diag, s->path_span,
-                   "cannot read '%s', the file used here", id.path);
-        return 0;
-    }
-    SourceFile *f = source_set_add(r->diag->files, id.path, text, len);
-    if (!f) {
-        diag_error(r->diag, s->path_span,
-                   "the model and the files it uses come to more than "
-                   "4 GiB of text");
-        return 0;
-    }
-    VEC_PUSH(r->arena, r->read, id);
-    VEC_PUSH(r->arena, r->reading, id);
-    read_twice(r, &f->src, visit_names, NULL, NULL);
-    r->reading.len--;
-    return 1;
-}
-
-/* A file that cannot be read may define names used later: their uses
- * stay quiet. */
-static void resolve_use_stmt(Resolver *r, const AstStmt *s)
-{
-    if (!use_file(r, s))
-        r->lost_file = 1;
-}
-
-/* A statement other than const, def and use in a used file: refused, and
- * the names it defines stay quiet. */
-static void refuse_in_used(Resolver *r, const AstStmt *s)
-{
-    static const char *const kinds[] = {
-        [STMT_MODEL] = "'model'", [STMT_INPUT] = "'input'",
-        [STMT_PARAM] = "'param'", [STMT_SIZE] = "'size'",
-        [STMT_DEFINE] = "a definition", [STMT_OUTPUT] = "'output'",
-    };
-    const FileId *f = &r->reading.items[r->reading.len - 1];
-    diag_error(r->diag, s->span,
-               "a used file may hold only const, def and use statements, "
-               "not %s", kinds[s->kind]);
-    diag_note(r->diag, f->used_at, "'%s' is used here", f->path);
-    if (s->kind == STMT_DEFINE)
-        insert_failed(r, s->name, s->name_span);
-    for (int k = 0; k < s->ndecls; k++)
-        insert_failed(r, s->decls[k].name, s->decls[k].span);
-    for (int k = 0; s->kind == STMT_SIZE && k < s->nnames; k++)
-        insert_failed(r, s->names[k]->name, s->names[k]->span);
-}
-
 /* ---------------------------------------------------------- statements */
 
 /* Second pass: resolve a statement. */
@@ -2168,7 +1611,7 @@ static void resolve_stmt(Resolver *r, const AstStmt *s)
         return;
     if (r->reading.len > 1 && s->kind != STMT_CONST && s->kind != STMT_DEF &&
         s->kind != STMT_USE) {
-        refuse_in_used(r, s);
+        rs_refuse_in_used(r, s);
         return;
     }
     switch (s->kind) {
@@ -2260,7 +1703,7 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     r.src = src;
     r.ir = ir_new(arena, src);
     Span none = {0, 0};
-    VEC_PUSH(arena, r.reading, file_id(src->path, none));
+    VEC_PUSH(arena, r.reading, rs_file_id(src->path, none));
     if (m) {
         for (int i = 0; i < m->nstmts; i++)
             outline(&r, m->stmts[i]);
@@ -2271,6 +1714,6 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     }
     /* No tree given: parse src twice, each statement's tree freed once it
      * is visited, so a model of any length is never held as a tree. */
-    read_twice(&r, src, visit_outline, name, stem);
+    rs_read_twice(&r, src, visit_outline, name, stem);
     return finish(&r);
 }

@@ -1,0 +1,246 @@
+/* emit_header.c - the emitted header (the param and input structs, the
+ * prototypes and what each function does), the banner words shared with
+ * the C source, and the runtime helpers copied into it. */
+#include "emit_internal.h"
+#include "runtime_text.h"
+
+#include <stdlib.h>
+#include <string.h>
+
+int emit_has_inputs(const Ir *ir)
+{
+    if (ir->sizes.len > 0)
+        return 1;
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_INPUT)
+            return 1;
+    return 0;
+}
+
+static long param_count(const Ir *ir)
+{
+    long n = 0;
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_PARAM)
+            n += ir_array_size(&ir->arrays.items[i]);
+    return n;
+}
+
+/* One struct member: a fixed array, a pointer to a sized input (row-major,
+ * the caller's), or a size. */
+static void emit_member(Buf *h, const Ir *ir, const IrArray *a,
+                        const char *real)
+{
+    if (!ir_array_fixed(a)) {
+        buf_printf(h, "    const %s *%s;   /* [", real, a->name);
+        for (int k = 0; k < a->rank; k++)
+            buf_printf(h, "%s%s", k ? "][" : "",
+                       IR_EXTENT_IS_SIZE(a->dim[k])
+                           ? ir->sizes.items[IR_EXTENT_SIZE(a->dim[k])].name
+                           : arena_printf(ir->arena, "%d", a->dim[k]));
+        buf_put(h, "], row-major */\n");
+        return;
+    }
+    buf_printf(h, "    %s %s", real, a->name);
+    for (int k = 0; k < a->rank; k++)
+        buf_printf(h, "[%d]", a->dim[k]);
+    buf_put(h, ";\n");
+}
+
+/* The members of ROLE in declaration order; for inputs the sizes too, in
+ * the order the model declares them among the inputs. */
+static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
+                        const char *what, const char *real)
+{
+    buf_printf(h, "/* %s */\ntypedef struct %s {\n", what, type);
+    int next_size = 0;
+    for (int i = 0; i <= ir->arrays.len; i++) {
+        const IrArray *a = i < ir->arrays.len ? &ir->arrays.items[i] : NULL;
+        if (a && a->role != role)
+            continue;
+        while (role == ROLE_INPUT && next_size < ir->sizes.len &&
+               (!a || ir->sizes.items[next_size].span.off < a->span.off))
+            buf_printf(h, "    long %s;   /* a size */\n",
+                       ir->sizes.items[next_size++].name);
+        if (a)
+            emit_member(h, ir, a, real);
+    }
+    buf_printf(h, "} %s;\n\n", type);
+}
+
+const char *emit_fn_name(Function fn)
+{
+    static const char *const names[] = {"value", "gradient", "tangent",
+                                        "hessvec", "hessian"};
+    return names[fn];
+}
+
+/* Prototypes, shared by the header and the definitions.  The header names
+ * the arguments plainly; definitions use the reserved prefix so that model
+ * names such as p or in cannot collide with them. */
+void emit_signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
+                      const char *prefix, const char *real)
+{
+    const char *m = ir->model;
+    buf_printf(b, "%s %s_%s(const %s_param *%sp", real, m, emit_fn_name(fn), m,
+               prefix);
+    if (emit_has_inputs(ir))
+        buf_printf(b, ", const %s_input *%sin", m, prefix);
+    if (fn == FN_TANGENT || fn == FN_HESSVEC)
+        buf_printf(b, ", const %s_param *%sdir", m, prefix);
+    if (fn == FN_TANGENT)
+        buf_printf(b, ", %s *%sdvalue", real, prefix);
+    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
+        buf_printf(b, ", %s_param *%sgrad", m, prefix);
+    if (fn == FN_HESSVEC)
+        buf_printf(b, ", %s_param *%shv", m, prefix);
+    if (fn == FN_HESSIAN) {
+        char *M = emit_upper(m);
+        buf_printf(b, ", %s_param *%sgrad, %s %shess[%s_PARAM_COUNT]"
+                      "[%s_PARAM_COUNT]", m, prefix, real, prefix, M, M);
+        free(M);
+    }
+    if (st->uses_work)
+        buf_printf(b, ", %s *%swork", real, prefix);
+    buf_put(b, ")");
+}
+
+/* "value and gradient", "value, gradient and tangent", ...: the banner's
+ * words for what is emitted. */
+const char *emit_what_is_emitted(const Ir *ir, int emit)
+{
+    const char *words = "";
+    int n = 0, total = 0;
+    for (int fn = 0; fn < FN_COUNT; fn++)
+        total += (emit >> fn) & 1;
+    for (int fn = 0; fn < FN_COUNT; fn++)
+        if (emit & (1 << fn)) {
+            n++;
+            words = arena_printf(ir->arena, "%s%s%s", words,
+                                 n == 1 ? "" : n == total ? " and " : ", ",
+                                 emit_fn_name((Function)fn));
+        }
+    return words;
+}
+
+/* What a function does, for the header. */
+static void function_comment(Buf *h, const Ir *ir, Function fn, int sized)
+{
+    const char *m = ir->model, *out = ir->arrays.items[ir->output].name;
+    switch (fn) {
+    case FN_VALUE:
+        buf_printf(h, "/* Returns the model's output, %s%s. */\n", out,
+                   sized ? " (NaN when a size is negative or too large)" : "");
+        break;
+    case FN_GRADIENT:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does and overwrites every member "
+                   "of\n * *grad with the derivative of %s with respect to that "
+                   "param%s. */\n", out, m, out,
+                   sized ? "\n * (leaving *grad unchanged when it returns NaN "
+                           "for invalid sizes)" : "");
+        break;
+    case FN_TANGENT:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does and sets *dvalue to its "
+                   "derivative along\n * dir: the gradient times dir, the "
+                   "sum over all params of the\n * derivative with respect "
+                   "to it times its member of *dir%s. */\n", out, m,
+                   sized ? "\n * (leaving *dvalue unchanged when it returns "
+                           "NaN for invalid sizes)" : "");
+        break;
+    case FN_HESSVEC:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does, writes its gradient into "
+                   "*grad, and\n * overwrites every member of *hv with the "
+                   "Hessian of %s times dir:\n * the derivative of that "
+                   "member of the gradient along dir%s. */\n", out, m, out,
+                   sized ? "\n * (leaving *grad and *hv unchanged when it "
+                           "returns NaN for invalid sizes)" : "");
+        break;
+    case FN_HESSIAN:
+        buf_printf(h,
+                   "/* Returns %s as %s_value does, writes its gradient into "
+                   "*grad, and\n * fills hess with its Hessian, hess[j][k] "
+                   "the second derivative with\n * respect to params j and k "
+                   "in flat order, exactly symmetric: one\n * %s_hessvec "
+                   "per param%s. */\n", out, m, m,
+                   sized ? "\n * (leaving *grad and hess unchanged when it "
+                           "returns NaN for invalid sizes)" : "");
+        break;
+    case FN_COUNT:
+        break;
+    }
+}
+
+void emit_header(const Ir *ir, const EmitOptions *opt,
+                        const Storage *st, Buf *h)
+{
+    const char *m = ir->model, *real = emit_real_type(opt);
+    char *M = emit_upper(m);
+    buf_printf(h,
+               "/* %s - %s of the model %s (%s).\n"
+               " * Generated by dervish %s; edit the model, not this file. */\n"
+               "#ifndef DVS_%s_H\n#define DVS_%s_H\n\n%s"
+               "#ifdef __cplusplus\nextern \"C\" {\n#endif\n\n",
+               opt->header_name, emit_what_is_emitted(ir, opt->emit), m,
+               opt->model_file, opt->version, M, M,
+               st->uses_work ? "#include <stddef.h>\n\n" : "");
+    buf_printf(h, "#define %s_PARAM_COUNT %ld   /* %ss in %s_param */\n\n",
+               M, param_count(ir), real, m);
+    emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
+                "The params: what the gradient is taken with respect to.",
+                real);
+    buf_printf(h,
+               "/* A %s_param seen as a flat vector of %s_PARAM_COUNT %ss,\n"
+               " * in member order (row-major within arrays), for optimisers. */\n"
+               "typedef union %s_param_flat {\n"
+               "    %s_param p;\n"
+               "    %s v[%s_PARAM_COUNT];\n"
+               "} %s_param_flat;\n\n", m, M, real, m, m, real, M, m);
+    if (emit_has_inputs(ir))
+        emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
+                    "The inputs: data, not differentiated.", real);
+    if (st->uses_work) {
+        buf_printf(h, "/* The %ss the work argument of the functions below "
+                      "must hold\n * (0 allowed: then work may be NULL); 0 also "
+                      "when a size is\n * negative or the count overflows. */\n",
+                   real);
+        layout_prototype(h, ir, st, "");
+        buf_put(h, ";\n\n");
+    }
+    for (int fn = 0; fn < FN_COUNT; fn++) {
+        if (!(opt->emit & (1 << fn)))
+            continue;
+        function_comment(h, ir, (Function)fn, st->uses_work);
+        emit_signature(h, ir, st, (Function)fn, "", real);
+        buf_put(h, ";\n\n");
+    }
+    buf_put(h, "#ifdef __cplusplus\n}\n#endif\n\n#endif\n");
+    free(M);
+}
+
+/* The runtime helpers the statements call, in the runtime table's order:
+ * for float code the float forms ("float/NAME") of those taking reals. */
+void emit_helpers(const Ir *ir, const char *reached,
+                         const Storage *st, int real_float, Buf *c)
+{
+    char used[IR_OP_COUNT] = {0};
+    for (int i = 0; i < ir->nodes.len; i++)
+        if (reached[i])
+            used[ir->nodes.items[i].op] = 1;
+    for (int t = 0; t < runtime_text_count; t++) {
+        const char *name = runtime_texts[t].name;
+        int wanted = (st->nslots > 0 && strcmp(name, "count_sum") == 0) ||
+                     (st->uses_product && strcmp(name, "count_product") == 0);
+        int float_form = strncmp(name, "float/", 6) == 0;
+        for (int op = 0; op < IR_OP_COUNT && !wanted &&
+                         float_form == real_float; op++)
+            wanted = used[op] && ir_ops[op].kind == OPK_HELPER &&
+                     strcmp(ir_ops[op].c_spelling, name + 6 * float_form) == 0;
+        if (wanted) {
+            buf_put(c, "\n");
+            buf_put(c, runtime_texts[t].text);
+        }
+    }
+}

@@ -1,0 +1,87 @@
+/* emit_internal.h - what the C emitter's files share: the emitter's state
+ * and the functions one file of it calls in another (emit_c.c writes the
+ * statements and functions, emit_header.c the header and banner words,
+ * emit_parts.c long functions as parts). */
+#ifndef DERVISH_EMIT_INTERNAL_H
+#define DERVISH_EMIT_INTERNAL_H
+
+#include "emit_c.h"
+#include "emit_layout.h"
+
+typedef enum Function {
+    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN, FN_COUNT
+} Function;
+
+typedef struct Emitter {
+    const Ir *ir;
+    const EmitOptions *opt;
+    Buf *out;
+    Function fn;
+    char *declared;     /* per array: declared in the current function */
+    char *argpos_read[FN_COUNT];    /* per function, per array: a statement
+                                       of that function reads it (the winner
+                                       of a max or min is found only when
+                                       it is read) */
+    const IrStmtList *fwd;  /* the function's forward statements */
+    const IrStmtList *rev;  /* and its reverse sweep, or NULL */
+    const IrStmtList *lists[FN_COUNT][2];   /* fwd and rev of each */
+    char *skip;         /* per statement of fwd: not written (see
+                           skip_unread_tangents), or NULL */
+    int uses_p, uses_in, uses_grad, uses_dir, uses_hv, uses_frame;
+    uint32_t last_origin;
+    Storage storage;    /* which arrays live in work */
+    /* shared subexpressions of the statement being emitted */
+    int *seen;          /* per node: the statement count when last seen */
+    int *uses;          /* per node: parent edges within the statement */
+    int *temp;          /* per node: its temporary's number, or 0 */
+    int stamp;          /* statements emitted so far */
+    int *visit;         /* per node: visit_stamp when last visited */
+    int visit_stamp;
+    int ntemps;         /* temporaries named so far in the function */
+    /* row by row: inside a row block, the row var of the statement being
+     * emitted is the block's loop counter */
+    int base;           /* indentation of statements: 1, or 2 in a block */
+    int32_t row_var;    /* the current statement's row var, or -1 */
+    const char *row_name;   /* the block's loop counter */
+    /* a long function is written as parts (see emit_parts.c) */
+    int parted;         /* this function is written in parts */
+    int dry;            /* the run that only finds what the parts share */
+    int part;           /* the part being written, from 1 */
+    int part_stmts;     /* statements in it so far */
+    int *ref_part;      /* per array: the part that last referred to it */
+    char *framed;       /* per array: lives in the frame the parts share */
+    Buf *text;          /* the function's own text (its parts go here
+                           too, ahead of it) */
+    Buf part_body;      /* the current part's statements */
+    Buf *back;          /* with #line: where the last return to the C file */
+    size_t back_at;     /* was written, and the length after it */
+} Emitter;
+
+/* emit_c.c */
+const char *emit_real_type(const EmitOptions *opt);
+char *emit_upper(const char *s);     /* a malloc'd copy in capitals */
+int emit_is_external(const IrArray *a, const Ir *ir);
+const char *emit_c_type(const Emitter *e, const IrArray *a);
+void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len);
+void emit_sweeps(Emitter *e);
+
+/* emit_header.c */
+int emit_has_inputs(const Ir *ir);
+const char *emit_fn_name(Function fn);
+void emit_signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
+               const char *prefix, const char *real);
+const char *emit_what_is_emitted(const Ir *ir, int emit);
+void emit_header(const Ir *ir, const EmitOptions *opt, const Storage *st,
+                 Buf *h);
+void emit_helpers(const Ir *ir, const char *reached, const Storage *st,
+                  int real_float, Buf *c);
+
+/* emit_parts.c */
+void emit_close_part(Emitter *e);
+void emit_part_break(Emitter *e, int n);
+void emit_sweep_heading(Emitter *e, const char *text);
+void emit_plan_frame(Emitter *e, Function fn);
+void emit_frame(Emitter *e, Function fn);
+void emit_part_calls(Emitter *e, Function fn, Buf *body);
+
+#endif
