@@ -9,7 +9,7 @@
 /* Most operations the def calls of one definition may expand to: later
  * passes walk each statement's expression as a tree, and nested calls can
  * make that tree exponentially larger than the text. */
-#define MAX_EXPANDED 1000000
+#define MAX_EXPANDED 100000
 
 DefInfo *rs_new_def(Resolver *r, const char *name, Span name_span)
 {
