@@ -5,19 +5,16 @@
  * the winners of max and min, rows.  The Hessian times a direction is
  * compared with differences of the gradient along it. */
 #include "products.h"
+#include "checkpoint.h"
 #include "splitmix.h"
 
 #include <math.h>
 #include <stdlib.h>
 
+/* n zeroed doubles (check_alloc exits when memory runs out) */
 static double *doubles(long n)
 {
-    double *v = calloc((size_t)(n ? n : 1), sizeof *v);
-    if (!v) {
-        fputs("dervish: out of memory\n", stderr);
-        exit(3);
-    }
-    return v;
+    return check_alloc((size_t)n * sizeof(double));
 }
 
 /* A random direction from SEED and SALT: uniform in [-1, 1), 2^-20 apart,
