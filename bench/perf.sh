@@ -3,7 +3,8 @@
 # perf.sh [DERVISH] - dervish's performance benchmarks: (1) a two-layer
 # network against a hand-written gradient, (2) a 10^4-statement scalar chain
 # against central differences, (3) More, Garbow & Hillstrom test functions,
-# (4) compiler scaling (perf_scale.sh). See bench/PERF.md. Files go to
+# (4) compiler scaling (perf_scale.sh), (5) a dense Jacobian of 4 outputs
+# and 40 params (run before 4). See bench/PERF.md. Files go to
 # $PERF_OUT (default build/perf); set PERF_SIZES to change the scaling sizes.
 set -eu
 here=$(cd "$(dirname "$0")" && pwd)
@@ -40,6 +41,15 @@ for model in "$here"/mgh_*.dvs; do
 done
 $cc $flags -o "$out/perf_mgh" "$here/perf_mgh.c" "$here/perf_timing.c" $mgh -lm
 "$out/perf_mgh"
+echo
+
+# benchmark 5 first in its output: the scaling runs take minutes
+"$dervish" build --emit value,adjoint,tangent,jacobian -o "$out/jac40.c" \
+    "$here/jac40.dvs"
+$cc $flags -o "$out/perf_jacobian" "$here/perf_jacobian.c" "$here/perf_timing.c" \
+    "$out/jac40.c" -lm
+"$out/perf_jacobian"
+echo "  the emitter chose: $(grep -o 'One [a-z]* sweep per [a-z ]*' "$out/jac40.c")"
 echo
 
 echo "4. compiler scaling: chains of 100 params (gen_chain.sh)"

@@ -739,3 +739,30 @@ void point_print(FILE *out, const DvCompilation *c, const CheckOptions *opt,
     print_header(out, c, opt, pt);
     print_values(out, ev, pt);
 }
+
+char *check_entry_name(const Ir *ir, long k, int outputs)
+{
+    int count = outputs ? ir->outputs.len : ir->arrays.len;
+    for (int i = 0; i < count; i++) {
+        const IrArray *a =
+            &ir->arrays.items[outputs ? ir->outputs.items[i] : i];
+        if (!outputs && a->role != ROLE_PARAM)
+            continue;
+        long n = ir_array_size(a);
+        if (k >= n) {
+            k -= n;
+            continue;
+        }
+        long at[IR_MAX_RANK];
+        for (int d = a->rank - 1; d >= 0; d--) {
+            at[d] = k % a->dim[d];
+            k /= a->dim[d];
+        }
+        char *s = arena_printf(ir->arena, "%s", a->name);
+        for (int d = 0; d < a->rank; d++)
+            s = arena_printf(ir->arena, "%s[%ld]", s, at[d]);
+        return s;
+    }
+    DV_UNREACHABLE();
+    return NULL;
+}

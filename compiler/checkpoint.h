@@ -64,4 +64,8 @@ void point_print(FILE *out, const DvCompilation *c, const CheckOptions *opt,
 
 void point_free(Point *pt);
 
+/* The model's name for flat entry k of the params (outputs: of the
+ * outputs), e.g. W[1][2], in the IR's arena. */
+char *check_entry_name(const Ir *ir, long k, int outputs);
+
 #endif

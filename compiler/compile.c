@@ -40,6 +40,57 @@ static void list_paths(DvCompilation *c)
         c->paths[c->npaths++] = f->src.path;
 }
 
+/* --emit against the model's outputs: one scalar output has a gradient
+ * and its second derivatives, outputs in a struct an adjoint and a
+ * Jacobian.  The dense Hessian brings the Hessian-vector product it
+ * calls. */
+static void choose_functions(DvCompilation *c, const Ir *ir, int asked)
+{
+    int scalar = !ir->struct_output;
+    c->emit = asked ? asked : scalar ? DV_EMIT_DEFAULT : DV_EMIT_STRUCT_DEFAULT;
+    int wrong = c->emit & (scalar ? DV_EMIT_STRUCT_ONLY : DV_EMIT_SCALAR_ONLY);
+    if (wrong) {
+        static const char *const kinds[] = {"value", "gradient", "tangent",
+                                            "hessvec", "hessian", "adjoint",
+                                            "jacobian"};
+        int k = 0;
+        while (!(wrong & (1 << k)))
+            k++;
+        if (scalar)
+            diag_error(&c->diag, ir->output_span,
+                       "--emit %s is for models whose outputs are not one "
+                       "scalar; '%s' is one: emit gradient (or tangent)",
+                       kinds[k], ir->arrays.items[ir->output].name);
+        else
+            diag_error(&c->diag, ir->output_stmt,
+                       "--emit %s needs one scalar output, and this model's "
+                       "outputs fill a struct: emit adjoint (the gradient of "
+                       "any weighting of the outputs) or jacobian", kinds[k]);
+    }
+    if (c->emit & DV_EMIT_HESSIAN)
+        c->emit |= DV_EMIT_HESSVEC;
+}
+
+/* The Jacobian takes whichever is cheaper: one reverse sweep (forward
+ * statements and adjoints) per output entry, or one tangent sweep per
+ * param; the sweep it calls is emitted too. */
+static void plan_jacobian(DvCompilation *c, const Ir *ir)
+{
+    long nout = 0, nparam = 0;
+    for (int i = 0; i < ir->arrays.len; i++) {
+        const IrArray *a = &ir->arrays.items[i];
+        if (a->role == ROLE_PARAM)
+            nparam += ir_array_size(a);
+        if (a->is_output)
+            nout += ir_array_size(a);
+    }
+    c->work_adjoint = ir_work(ir, &ir->forward) + ir_work(ir, &ir->reverse);
+    c->work_tangent = ir_work(ir, &ir->tangent);
+    c->jacobian_by_tangent = (double)nparam * (double)c->work_tangent <
+                             (double)nout * (double)c->work_adjoint;
+    c->emit |= c->jacobian_by_tangent ? DV_EMIT_TANGENT : DV_EMIT_ADJOINT;
+}
+
 int dv_compile(DvCompilation *c, const char *path, const char *text,
                size_t len, const DvOptions *opt)
 {
@@ -57,23 +108,26 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->diag.files = &c->files;
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
     c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
-    c->emit = opt->emit ? opt->emit : DV_EMIT_DEFAULT;
     c->line_directives = opt->line_directives;
     c->real_float = opt->real_float;
-    if (c->emit & DV_EMIT_HESSIAN)
-        c->emit |= DV_EMIT_HESSVEC;     /* the Hessian calls it */
 
     /* resolve parses the source itself, one statement's tree at a time */
     Ir *ir = resolve_model(&c->arena, &c->diag, &c->src, NULL, opt->name,
                            dv_stem(&c->arena, path));
     list_paths(c);
+    if (!c->diag.errors)
+        choose_functions(c, ir, opt->emit);
     if (c->diag.errors)
         return 1;
     ir_verify(ir);
     stream_plan(ir);
     reverse_pass(ir);
-    if (c->emit & (DV_EMIT_TANGENT | DV_EMIT_HESSVEC))
-        tangent_pass(ir, c->emit & DV_EMIT_TANGENT, c->emit & DV_EMIT_HESSVEC);
+    /* the Jacobian's check compares its rows with tangent sweeps */
+    if (c->emit & (DV_EMIT_TANGENT | DV_EMIT_HESSVEC | DV_EMIT_JACOBIAN))
+        tangent_pass(ir, c->emit & (DV_EMIT_TANGENT | DV_EMIT_JACOBIAN),
+                     c->emit & DV_EMIT_HESSVEC);
+    if (c->emit & DV_EMIT_JACOBIAN)
+        plan_jacobian(c, ir);
     /* the passes that make nodes are done: give the node table back */
     arena_release(&c->arena, ir->node_hash,
                   (size_t)ir->node_hash_cap * sizeof *ir->node_hash);
@@ -95,6 +149,9 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.stack_limit = c->stack_limit;
     o.part_size = c->part_size;
     o.emit = c->emit;
+    o.jacobian_by_tangent = c->jacobian_by_tangent;
+    o.work_adjoint = c->work_adjoint;
+    o.work_tangent = c->work_tangent;
     o.model_path = c->src.path;
     o.line_directives = c->line_directives;
     o.real_float = c->real_float;

@@ -19,8 +19,17 @@
 
 /* The functions dervish build emits (DvOptions.emit, --emit), as bits. */
 enum { DV_EMIT_VALUE = 1, DV_EMIT_GRADIENT = 2, DV_EMIT_TANGENT = 4,
-       DV_EMIT_HESSVEC = 8, DV_EMIT_HESSIAN = 16 };
+       DV_EMIT_HESSVEC = 8, DV_EMIT_HESSIAN = 16, DV_EMIT_ADJOINT = 32,
+       DV_EMIT_JACOBIAN = 64 };
+/* The defaults: for one scalar output, and for outputs in a struct. */
 #define DV_EMIT_DEFAULT (DV_EMIT_VALUE | DV_EMIT_GRADIENT)
+#define DV_EMIT_STRUCT_DEFAULT \
+    (DV_EMIT_VALUE | DV_EMIT_ADJOINT | DV_EMIT_JACOBIAN)
+/* What only one scalar output has, and what only outputs in a struct
+ * have. */
+#define DV_EMIT_SCALAR_ONLY \
+    (DV_EMIT_GRADIENT | DV_EMIT_HESSVEC | DV_EMIT_HESSIAN)
+#define DV_EMIT_STRUCT_ONLY (DV_EMIT_ADJOINT | DV_EMIT_JACOBIAN)
 
 typedef struct DvOptions {
     const char *name;       /* --name: symbol prefix, or NULL */
@@ -45,6 +54,8 @@ typedef struct DvCompilation {
     long stack_limit;       /* for the emitter */
     long part_size;         /* for the emitter */
     int emit;               /* DV_EMIT_* bits: what is emitted and checked */
+    int jacobian_by_tangent;    /* see EmitOptions */
+    long work_adjoint, work_tangent;
     int line_directives;    /* #line directives in the emitted C */
     int real_float;         /* emit float, not double */
     SourceSet files;        /* the files 'use' statements read */

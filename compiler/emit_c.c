@@ -35,7 +35,16 @@ const char *emit_real_type(const EmitOptions *opt)
     return opt->real_float ? "float" : "double";
 }
 
-static const char *real_suffix(const EmitOptions *opt)
+const char *emit_size_failure(const Ir *ir, const EmitOptions *opt)
+{
+    /* NAN is a float: the cast keeps -Wdouble-promotion quiet */
+    return ir->struct_output ? " {\n        " DV_PREFIX "outputs_nan(" DV_PREFIX
+                               "out);\n        return;\n    }"
+           : opt->real_float ? "\n        return NAN;"
+                             : "\n        return (double)NAN;";
+}
+
+const char *emit_real_suffix(const EmitOptions *opt)
 {
     return opt->real_float ? "f" : "";
 }
@@ -46,8 +55,8 @@ static void format_number(char *s, size_t n, double v, int as_float)
 {
     if (as_float)
         v = (float)v;
-    if (isnan(v)) {
-        snprintf(s, n, "NAN");      /* a float in C99 already */
+    if (isnan(v)) {     /* NAN is a float */
+        snprintf(s, n, as_float ? "NAN" : "(double)NAN");
         return;
     }
     if (isinf(v)) {
@@ -150,21 +159,9 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
 {
     const IrArray *a = &e->ir->arrays.items[array];
     IrHome home = ir_home(e->ir, a);
-    if (home == HOME_P) {
-        buf_put(e->out, DV_PREFIX "p->");
-        e->uses_p = 1;
-    } else if (a->role == ROLE_INPUT) {
-        buf_put(e->out, DV_PREFIX "in->");
-        e->uses_in = 1;
-    } else if (home == HOME_GRAD) {
-        buf_put(e->out, DV_PREFIX "grad->");
-        e->uses_grad = 1;
-    } else if (home == HOME_DIR) {
-        buf_put(e->out, DV_PREFIX "dir->");
-        e->uses_dir = 1;
-    } else if (home == HOME_HV) {
-        buf_put(e->out, DV_PREFIX "hv->");
-        e->uses_hv = 1;
+    if (home != HOME_LOCAL) {
+        buf_printf(e->out, DV_PREFIX "%s->", emit_home_name(home));
+        EMIT_USE(e, home);
     } else if (e->dry) {
         if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
             e->framed[array] = 1;
@@ -224,7 +221,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
         } else if (n->op == IR_SIZE) {
             buf_printf(e->out, "(%s)" DV_PREFIX "in->%s",
                        emit_real_type(e->opt), ir->sizes.items[n->var].name);
-            e->uses_in = 1;
+            EMIT_USE(e, HOME_IN);
         } else {
             buf_put(e->out, var_name(e, n->var));
         }
@@ -260,7 +257,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             buf_put(e->out, DV_PREFIX);
         buf_put(e->out, info->c_spelling);
         if (info->kind == OPK_CALL)     /* <math.h>'s float form: expf */
-            buf_put(e->out, real_suffix(e->opt));
+            buf_put(e->out, emit_real_suffix(e->opt));
         buf_put(e->out, "(");
         for (int i = 0; i < n->nargs; i++) {
             if (i)
@@ -333,7 +330,7 @@ static int has_shared(Emitter *e, NodeId id)
 
 int emit_is_external(const IrArray *a, const Ir *ir)
 {
-    return a->role == ROLE_INPUT || ir_home(ir, a) != HOME_LOCAL;
+    return ir_home(ir, a) != HOME_LOCAL;
 }
 
 const char *emit_c_type(const Emitter *e, const IrArray *a)
@@ -666,7 +663,8 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
         buf_printf(e->out, "for (%s %s = 0; %s < %s; %s++)%s\n",
                    sized ? "long" : "int", iv->name, iv->name,
                    layout_extent(ir, iv->extent), iv->name, block ? " {" : "");
-        e->uses_in |= sized;
+        if (sized)
+            EMIT_USE(e, HOME_IN);
     }
     if (shared) {
         e->visit_stamp++;
@@ -841,7 +839,7 @@ static void emit_rows(Emitter *e, const IrStmtList *list, int from, int to,
     buf_printf(e->out, "\n    for (long %s = 0; %s < %s; %s++) {\n",
                e->row_name, e->row_name,
                layout_extent(ir, IR_EXTENT_OF_SIZE(ir->row_size)), e->row_name);
-    e->uses_in = 1;
+    EMIT_USE(e, HOME_IN);
     e->base = 2;
     e->last_origin = UINT32_MAX;
     for (int i = fwd_from; i >= 0 && i < fwd_to; i++) {
@@ -1039,7 +1037,7 @@ static void skip_unread_tangents(Emitter *e)
 void emit_sweeps(Emitter *e)
 {
     const Ir *ir = e->ir;
-    e->uses_p = e->uses_in = e->uses_grad = e->uses_dir = e->uses_hv = 0;
+    e->used_homes = 0;
     e->uses_frame = 0;
     e->ntemps = 0;
     e->base = 1;
@@ -1100,27 +1098,30 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
         e->out = &body;
         emit_sweeps(e);
     }
-    int32_t none = ir_tuple((Ir *)ir, NULL, 0);
-    if (fn == FN_TANGENT) {
-        buf_put(&body, "\n    *" DV_PREFIX "dvalue = ");
-        if (ir->arrays.items[ir->output].varied)
-            emit_access(e, ir->arrays.items[ir->output].tangent, none);
-        else
-            buf_printf(&body, "0.0%s",  /* the output does not depend on p */
-                       real_suffix(e->opt));
-        buf_put(&body, ";");
+    if (ir->struct_output) {
+        buf_put(&body, "}\n");     /* the statements filled *out */
+    } else {
+        int32_t none = ir_tuple((Ir *)ir, NULL, 0);
+        if (fn == FN_TANGENT) {
+            buf_put(&body, "\n    *" DV_PREFIX "dvalue = ");
+            if (ir->arrays.items[ir->output].varied)
+                emit_access(e, ir->arrays.items[ir->output].tangent, none);
+            else
+                buf_printf(&body, "0.0%s",  /* the output does not depend on p */
+                           emit_real_suffix(e->opt));
+            buf_put(&body, ";");
+        }
+        buf_put(&body, "\n    return ");
+        emit_access(e, ir->output, none);
+        buf_put(&body, ";\n}\n");
     }
-    buf_put(&body, "\n    return ");
-    emit_access(e, ir->output, none);
-    buf_put(&body, ";\n}\n");
 
     buf_put(c, "\n");
     emit_signature(c, ir, &e->storage, fn, DV_PREFIX, emit_real_type(e->opt));
     buf_put(c, "\n{\n");
-    if (!e->uses_p)
-        buf_put(c, "    (void)" DV_PREFIX "p;\n");
-    if ((fn == FN_TANGENT || fn == FN_HESSVEC) && !e->uses_dir)
-        buf_put(c, "    (void)" DV_PREFIX "dir;\n");   /* no param matters */
+    if (e->storage.uses_work && e->storage.has_input)
+        EMIT_USE(e, HOME_IN);   /* the size check reads it */
+    emit_unused_args(c, e, fn);
     if (e->storage.uses_work) {
         /* sizes are checked before anything is computed or written */
         int work_read = 0;
@@ -1128,64 +1129,27 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
             work_read |= e->declared[i] && e->storage.slot[i] >= 0;
         if (!work_read)
             buf_put(c, "    (void)" DV_PREFIX "work;\n");
-        layout_emit_pointers(c, ir, &e->storage);
-    } else if (emit_has_inputs(ir) && !e->uses_in) {
-        buf_put(c, "    (void)" DV_PREFIX "in;\n");
+        layout_emit_pointers(c, &e->storage, emit_size_failure(ir, e->opt));
     }
     emit_put_code(e, c, body.data, body.len);
     buf_free(&body);
 }
 
-/* The dense Hessian: a Hessian-vector product with each unit vector gives
- * a column; the mean of the two computed halves makes it exactly
- * symmetric (they differ by rounding). */
-static void emit_hessian(Emitter *e, Function fn, Buf *c)
+/* What the functions of a sized model with an output struct do when the
+ * sizes are invalid. */
+static void emit_outputs_nan(Buf *c, const Ir *ir, const char *real)
 {
-    const Ir *ir = e->ir;
-    const char *m = ir->model, *real = emit_real_type(e->opt);
-    const char *sfx = real_suffix(e->opt);
+    const char *m = ir->model;
     char *M = emit_upper(m);
-    int in = e->storage.has_input, work = e->storage.uses_work;
-    buf_put(c, "\n");
-    emit_signature(c, ir, &e->storage, fn, DV_PREFIX, emit_real_type(e->opt));
-    buf_put(c, "\n{\n");
-    if (work) {
-        /* invalid sizes: NaN before anything is written */
-        layout_emit_pointers(c, ir, &e->storage);
-        buf_put(c, "    (void)" DV_PREFIX "at;\n");
-    }
-    buf_printf(c,
-               "    %s_param_flat " DV_PREFIX "dir, " DV_PREFIX "col;\n"
-               "    %s " DV_PREFIX "y = 0.0%s;\n"
-               "    for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
-               DV_PREFIX "j++)\n"
-               "        " DV_PREFIX "dir.v[" DV_PREFIX "j] = 0.0%s;\n"
-               "    for (int " DV_PREFIX "k = 0; " DV_PREFIX "k < %s_PARAM_COUNT; "
-               DV_PREFIX "k++) {\n"
-               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 1.0%s;\n"
-               "        " DV_PREFIX "y = %s_hessvec(" DV_PREFIX "p, %s&" DV_PREFIX
-               "dir.p, " DV_PREFIX "grad, &" DV_PREFIX "col.p%s);\n"
-               "        " DV_PREFIX "dir.v[" DV_PREFIX "k] = 0.0%s;\n"
-               "        for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
-               DV_PREFIX "j++)\n"
-               "            " DV_PREFIX "hess[" DV_PREFIX "j][" DV_PREFIX "k] = "
-               DV_PREFIX "col.v[" DV_PREFIX "j];\n"
-               "    }\n"
-               "    for (int " DV_PREFIX "j = 0; " DV_PREFIX "j < %s_PARAM_COUNT; "
-               DV_PREFIX "j++)\n"
-               "        for (int " DV_PREFIX "k = " DV_PREFIX "j + 1; " DV_PREFIX
-               "k < %s_PARAM_COUNT; " DV_PREFIX "k++) {\n"
-               "            %s " DV_PREFIX "mean = 0.5%s * (" DV_PREFIX "hess["
-               DV_PREFIX "j][" DV_PREFIX "k] + " DV_PREFIX "hess[" DV_PREFIX "k]["
-               DV_PREFIX "j]);\n"
-               "            " DV_PREFIX "hess[" DV_PREFIX "j][" DV_PREFIX "k] = "
-               DV_PREFIX "mean;\n"
-               "            " DV_PREFIX "hess[" DV_PREFIX "k][" DV_PREFIX "j] = "
-               DV_PREFIX "mean;\n"
-               "        }\n"
-               "    return " DV_PREFIX "y;\n}\n",
-               m, real, sfx, M, sfx, M, sfx, m, in ? DV_PREFIX "in, " : "",
-               work ? ", " DV_PREFIX "work" : "", sfx, M, M, M, real, sfx);
+    buf_printf(c, "\n/* Invalid sizes: every output is NaN. */\n"
+                  "static void " DV_PREFIX "outputs_nan(%s_output *" DV_PREFIX
+                  "out)\n{\n"
+                  "    %s_output_flat " DV_PREFIX "nan;\n"
+                  "    for (int " DV_PREFIX "i = 0; " DV_PREFIX "i < "
+                  "%s_OUTPUT_COUNT; " DV_PREFIX "i++)\n"
+                  "        " DV_PREFIX "nan.v[" DV_PREFIX "i] = (%s)NAN;\n"
+                  "    *" DV_PREFIX "out = " DV_PREFIX "nan.o;\n}\n",
+               m, m, M, real);   /* NAN is a float */
     free(M);
 }
 
@@ -1216,7 +1180,7 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     const IrStmtList *const lists[FN_COUNT][2] = {
         {&ir->forward, NULL}, {&ir->forward, &ir->reverse},
         {&ir->tangent, NULL}, {&ir->hv_forward, &ir->hv_reverse},
-        {NULL, NULL}};
+        {NULL, NULL}, {&ir->forward, &ir->reverse}, {NULL, NULL}};
     memcpy(e.lists, lists, sizeof lists);
     for (int fn = 0; fn < FN_COUNT; fn++) {
         e.argpos_read[fn] = calloc((size_t)ir->arrays.len + 1, 1);
@@ -1248,15 +1212,25 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
                opt->source_name, emit_what_is_emitted(ir, opt->emit), m,
                opt->model_file, opt->version, opt->header_name, m, M,
                emit_real_type(opt), m, M, emit_real_type(opt));
+    if (ir->struct_output)
+        buf_printf(c, "typedef char " DV_PREFIX "output_is_flat[sizeof(%s_output) "
+                      "== %s_OUTPUT_COUNT * sizeof(%s) ? 1 : -1];\n",
+                   m, M, emit_real_type(opt));
     emit_helpers(ir, reached, &e.storage, opt->real_float, c);
-    if (e.storage.uses_work)
+    if (e.storage.uses_work) {
         layout_emit(c, ir, &e.storage, emit_real_type(opt));
-    for (int fn = 0; fn < FN_COUNT; fn++) {
-        if (opt->emit & (1 << fn))
-            (fn == FN_HESSIAN ? emit_hessian : emit_function)(&e, (Function)fn,
-                                                              c);
-        free(e.argpos_read[fn]);
+        if (ir->struct_output)
+            emit_outputs_nan(c, ir, emit_real_type(opt));
     }
+    for (int i = 0; i < FN_COUNT; i++) {
+        Function fn = emit_order[i];
+        if (opt->emit & (1 << fn))
+            (fn == FN_HESSIAN    ? emit_hessian
+             : fn == FN_JACOBIAN ? emit_jacobian
+                                 : emit_function)(&e, fn, c);
+    }
+    for (int fn = 0; fn < FN_COUNT; fn++)
+        free(e.argpos_read[fn]);
     free(e.declared);
     free(reached);
     free(e.seen);

@@ -17,9 +17,13 @@ typedef struct EmitOptions {
     const char *model_path;     /* the model as dervish read it (#line) */
     int line_directives;        /* point each statement's code at the model
                                    with #line */
-    int emit;                   /* the functions emitted: bit 0 value, bit 1
-                                   gradient, bit 2 tangent (DV_EMIT_* in
+    int emit;                   /* the functions emitted (DV_EMIT_* bits in
                                    dervish.h) */
+    int jacobian_by_tangent;    /* the Jacobian takes one tangent sweep
+                                   per param, not one reverse sweep per
+                                   output entry */
+    long work_adjoint;          /* the estimated work of one reverse sweep */
+    long work_tangent;          /* and of one tangent sweep (ir_work) */
     int real_float;             /* float throughout instead of double:
                                    types, literals, math functions and the
                                    runtime helpers' float forms */

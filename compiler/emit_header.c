@@ -2,6 +2,7 @@
  * prototypes and what each function does), the banner words shared with
  * the C source, and the runtime helpers copied into it. */
 #include "emit_internal.h"
+#include "names.h"
 #include "runtime_text.h"
 
 #include <stdlib.h>
@@ -17,7 +18,7 @@ int emit_has_inputs(const Ir *ir)
     return 0;
 }
 
-static long param_count(const Ir *ir)
+long emit_param_count(const Ir *ir)
 {
     long n = 0;
     for (int i = 0; i < ir->arrays.len; i++)
@@ -68,11 +69,117 @@ static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
     buf_printf(h, "} %s;\n\n", type);
 }
 
+long emit_output_count(const Ir *ir)
+{
+    long n = 0;
+    for (int i = 0; i < ir->outputs.len; i++)
+        n += ir_array_size(&ir->arrays.items[ir->outputs.items[i]]);
+    return n;
+}
+
+/* The outputs' struct, in 'output' order, and its flat view. */
+static void emit_output_struct(Buf *h, const Ir *ir, const char *real)
+{
+    const char *m = ir->model;
+    char *M = emit_upper(m);
+    buf_printf(h, "#define %s_OUTPUT_COUNT %ld   /* %ss in %s_output */\n\n",
+               M, emit_output_count(ir), real, m);
+    buf_printf(h, "/* The outputs, in the model's 'output' order. */\n"
+                  "typedef struct %s_output {\n", m);
+    for (int i = 0; i < ir->outputs.len; i++)
+        emit_member(h, ir, &ir->arrays.items[ir->outputs.items[i]], real);
+    buf_printf(h, "} %s_output;\n\n", m);
+    buf_printf(h,
+               "/* A %s_output seen as a flat vector of %s_OUTPUT_COUNT "
+               "%ss, in member\n * order (row-major within arrays): the "
+               "rows of the Jacobian. */\n"
+               "typedef union %s_output_flat {\n"
+               "    %s_output o;\n"
+               "    %s v[%s_OUTPUT_COUNT];\n"
+               "} %s_output_flat;\n\n", m, M, real, m, m, real, M, m);
+    free(M);
+}
+
 const char *emit_fn_name(Function fn)
 {
     static const char *const names[] = {"value", "gradient", "tangent",
-                                        "hessvec", "hessian"};
+                                        "hessvec", "hessian", "adjoint",
+                                        "jacobian"};
     return names[fn];
+}
+
+/* The order the functions are declared and defined in. */
+const Function emit_order[FN_COUNT] = {
+    FN_VALUE, FN_GRADIENT, FN_ADJOINT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN,
+    FN_JACOBIAN};
+
+const char *emit_home_name(IrHome home)
+{
+    static const char *const names[HOME_COUNT] = {
+        "", "p", "in", "grad", "dir", "hv", "out", "seed", "dout"};
+    return names[home];
+}
+
+int emit_args(const Ir *ir, Function fn, IrHome homes[EMIT_MAX_ARGS])
+{
+    int n = 0;
+    homes[n++] = HOME_P;
+    if (emit_has_inputs(ir))
+        homes[n++] = HOME_IN;
+    switch (fn) {
+    case FN_VALUE:
+    case FN_JACOBIAN:
+        if (ir->struct_output)
+            homes[n++] = HOME_OUT;
+        break;
+    case FN_GRADIENT:
+    case FN_HESSIAN:
+        homes[n++] = HOME_GRAD;
+        break;
+    case FN_ADJOINT:
+        homes[n++] = HOME_SEED;
+        homes[n++] = HOME_OUT;
+        homes[n++] = HOME_GRAD;
+        break;
+    case FN_TANGENT:
+        homes[n++] = HOME_DIR;
+        if (ir->struct_output) {
+            homes[n++] = HOME_OUT;
+            homes[n++] = HOME_DOUT;
+        }
+        break;
+    case FN_HESSVEC:
+        homes[n++] = HOME_DIR;
+        homes[n++] = HOME_GRAD;
+        homes[n++] = HOME_HV;
+        break;
+    case FN_COUNT:
+        break;
+    }
+    return n;
+}
+
+/* "const kiln_param *" and the like: what an argument points to.  The
+ * function reads p, in, dir and seed, and writes the others. */
+void emit_arg_type(Buf *b, const Ir *ir, IrHome home)
+{
+    static const char *const structs[HOME_COUNT] = {
+        "", "param", "input", "param", "param", "param", "output", "output",
+        "output"};
+    int read = home == HOME_P || home == HOME_IN || home == HOME_DIR ||
+               home == HOME_SEED;
+    buf_printf(b, "%s%s_%s *", read ? "const " : "", ir->model,
+               structs[home]);
+}
+
+void emit_unused_args(Buf *b, const Emitter *e, Function fn)
+{
+    IrHome homes[EMIT_MAX_ARGS];
+    int n = emit_args(e->ir, fn, homes);
+    for (int i = 0; i < n; i++)
+        if (!(e->used_homes & (1u << homes[i])))
+            buf_printf(b, "    (void)" DV_PREFIX "%s;\n",
+                       emit_home_name(homes[i]));
 }
 
 /* Prototypes, shared by the header and the definitions.  The header names
@@ -82,27 +189,28 @@ void emit_signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
                       const char *prefix, const char *real)
 {
     const char *m = ir->model;
-    buf_printf(b, "%s %s_%s(const %s_param *%sp", real, m, emit_fn_name(fn), m,
-               prefix);
-    if (emit_has_inputs(ir))
-        buf_printf(b, ", const %s_input *%sin", m, prefix);
-    if (fn == FN_TANGENT || fn == FN_HESSVEC)
-        buf_printf(b, ", const %s_param *%sdir", m, prefix);
-    if (fn == FN_TANGENT)
-        buf_printf(b, ", %s *%sdvalue", real, prefix);
-    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%sgrad", m, prefix);
-    if (fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%shv", m, prefix);
-    if (fn == FN_HESSIAN) {
-        char *M = emit_upper(m);
-        buf_printf(b, ", %s_param *%sgrad, %s %shess[%s_PARAM_COUNT]"
-                      "[%s_PARAM_COUNT]", m, prefix, real, prefix, M, M);
-        free(M);
+    char *M = emit_upper(m);
+    buf_printf(b, "%s %s_%s(", ir->struct_output ? "void" : real, m,
+               emit_fn_name(fn));
+    IrHome homes[EMIT_MAX_ARGS];
+    int n = emit_args(ir, fn, homes);
+    for (int i = 0; i < n; i++) {
+        buf_put(b, i ? ", " : "");
+        emit_arg_type(b, ir, homes[i]);
+        buf_printf(b, "%s%s", prefix, emit_home_name(homes[i]));
     }
+    if (fn == FN_TANGENT && !ir->struct_output)
+        buf_printf(b, ", %s *%sdvalue", real, prefix);
+    if (fn == FN_HESSIAN)
+        buf_printf(b, ", %s %shess[%s_PARAM_COUNT][%s_PARAM_COUNT]", real,
+                   prefix, M, M);
+    if (fn == FN_JACOBIAN)
+        buf_printf(b, ", %s %sjac[%s_OUTPUT_COUNT][%s_PARAM_COUNT]", real,
+                   prefix, M, M);
     if (st->uses_work)
         buf_printf(b, ", %s *%swork", real, prefix);
     buf_put(b, ")");
+    free(M);
 }
 
 /* "value and gradient", "value, gradient and tangent", ...: the banner's
@@ -113,14 +221,59 @@ const char *emit_what_is_emitted(const Ir *ir, int emit)
     int n = 0, total = 0;
     for (int fn = 0; fn < FN_COUNT; fn++)
         total += (emit >> fn) & 1;
-    for (int fn = 0; fn < FN_COUNT; fn++)
-        if (emit & (1 << fn)) {
+    for (int i = 0; i < FN_COUNT; i++)
+        if (emit & (1 << emit_order[i])) {
             n++;
             words = arena_printf(ir->arena, "%s%s%s", words,
                                  n == 1 ? "" : n == total ? " and " : ", ",
-                                 emit_fn_name((Function)fn));
+                                 emit_fn_name(emit_order[i]));
         }
     return words;
+}
+
+/* What a function of a model whose outputs fill a struct does. */
+static void struct_function_comment(Buf *h, const Ir *ir, Function fn,
+                                    const EmitOptions *opt, int sized)
+{
+    const char *m = ir->model;
+    const char *nan = sized ? "\n * (every output NaN, and nothing else "
+                              "written, when a size is negative\n * or too "
+                              "large)" : "";
+    switch (fn) {
+    case FN_VALUE:
+        buf_printf(h, "/* Writes the outputs into *out%s. */\n", nan);
+        break;
+    case FN_ADJOINT:
+        buf_printf(h,
+                   "/* Writes the outputs into *out as %s_value does and "
+                   "overwrites every\n * member of *grad with the derivative "
+                   "of the sum over all outputs of\n * the output times its "
+                   "member of *seed: the seed times the Jacobian.\n * One "
+                   "reverse sweep%s. */\n", m, nan);
+        break;
+    case FN_TANGENT:
+        buf_printf(h,
+                   "/* Writes the outputs into *out as %s_value does and "
+                   "overwrites every\n * member of *dout with that output's "
+                   "derivative along dir: the\n * Jacobian times dir. One "
+                   "tangent sweep%s. */\n", m, nan);
+        break;
+    case FN_JACOBIAN:
+        buf_printf(h,
+                   "/* Writes the outputs into *out as %s_value does and "
+                   "fills jac with the\n * Jacobian: jac[i][k] is the "
+                   "derivative of output entry i with respect\n * to param "
+                   "entry k, both in flat order.  %s%s. */\n", m,
+                   opt->jacobian_by_tangent
+                       ? arena_printf(ir->arena, "One %s_tangent per param",
+                                      m)
+                       : arena_printf(ir->arena, "One %s_adjoint per output "
+                                      "entry", m),
+                   nan);
+        break;
+    default:
+        break;
+    }
 }
 
 /* What a function does, for the header. */
@@ -168,7 +321,7 @@ static void function_comment(Buf *h, const Ir *ir, Function fn, int sized)
                    sized ? "\n * (leaving *grad and hess unchanged when it "
                            "returns NaN for invalid sizes)" : "");
         break;
-    case FN_COUNT:
+    default:
         break;
     }
 }
@@ -187,7 +340,7 @@ void emit_header(const Ir *ir, const EmitOptions *opt,
                opt->model_file, opt->version, M, M,
                st->uses_work ? "#include <stddef.h>\n\n" : "");
     buf_printf(h, "#define %s_PARAM_COUNT %ld   /* %ss in %s_param */\n\n",
-               M, param_count(ir), real, m);
+               M, emit_param_count(ir), real, m);
     emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
                 "The params: what the gradient is taken with respect to.",
                 real);
@@ -201,6 +354,8 @@ void emit_header(const Ir *ir, const EmitOptions *opt,
     if (emit_has_inputs(ir))
         emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
                     "The inputs: data, not differentiated.", real);
+    if (ir->struct_output)
+        emit_output_struct(h, ir, real);
     if (st->uses_work) {
         buf_printf(h, "/* The %ss the work argument of the functions below "
                       "must hold\n * (0 allowed: then work may be NULL); 0 also "
@@ -209,11 +364,15 @@ void emit_header(const Ir *ir, const EmitOptions *opt,
         layout_prototype(h, ir, st, "");
         buf_put(h, ";\n\n");
     }
-    for (int fn = 0; fn < FN_COUNT; fn++) {
+    for (int i = 0; i < FN_COUNT; i++) {
+        Function fn = emit_order[i];
         if (!(opt->emit & (1 << fn)))
             continue;
-        function_comment(h, ir, (Function)fn, st->uses_work);
-        emit_signature(h, ir, st, (Function)fn, "", real);
+        if (ir->struct_output)
+            struct_function_comment(h, ir, fn, opt, st->uses_work);
+        else
+            function_comment(h, ir, fn, st->uses_work);
+        emit_signature(h, ir, st, fn, "", real);
         buf_put(h, ";\n\n");
     }
     buf_put(h, "#ifdef __cplusplus\n}\n#endif\n\n#endif\n");

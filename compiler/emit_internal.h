@@ -8,9 +8,14 @@
 #include "emit_c.h"
 #include "emit_layout.h"
 
+/* The emitted functions; each one's --emit bit is 1 << its number. */
 typedef enum Function {
-    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN, FN_COUNT
+    FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN, FN_ADJOINT,
+    FN_JACOBIAN, FN_COUNT
 } Function;
+
+/* The most struct pointers a function takes (p, in, and three more). */
+#define EMIT_MAX_ARGS 5
 
 typedef struct Emitter {
     const Ir *ir;
@@ -27,7 +32,10 @@ typedef struct Emitter {
     const IrStmtList *lists[FN_COUNT][2];   /* fwd and rev of each */
     char *skip;         /* per statement of fwd: not written (see
                            skip_unread_tangents), or NULL */
-    int uses_p, uses_in, uses_grad, uses_dir, uses_hv, uses_frame;
+    unsigned used_homes;    /* bit per IrHome: the code written so far
+                               (since the function or part began) refers
+                               to the caller's struct of that home */
+    int uses_frame;
     uint32_t last_origin;
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
@@ -59,15 +67,31 @@ typedef struct Emitter {
 
 /* emit_c.c */
 const char *emit_real_type(const EmitOptions *opt);
+const char *emit_real_suffix(const EmitOptions *opt);  /* of literals */
+/* What a function does when the sizes are invalid: return NaN, or set
+ * every output to NaN and return. */
+const char *emit_size_failure(const Ir *ir, const EmitOptions *opt);
 char *emit_upper(const char *s);     /* a malloc'd copy in capitals */
 int emit_is_external(const IrArray *a, const Ir *ir);
 const char *emit_c_type(const Emitter *e, const IrArray *a);
 void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len);
 void emit_sweeps(Emitter *e);
 
+#define EMIT_USE(e, home) ((e)->used_homes |= 1u << (home))
+
 /* emit_header.c */
 int emit_has_inputs(const Ir *ir);
+long emit_output_count(const Ir *ir);     /* reals in the output struct */
+long emit_param_count(const Ir *ir);      /* and in the param struct */
 const char *emit_fn_name(Function fn);
+extern const Function emit_order[FN_COUNT];
+/* The caller's structs FN takes, in argument order, into homes; returns
+ * how many.  The argument of home h is called DV_PREFIX + emit_home_name(h). */
+int emit_args(const Ir *ir, Function fn, IrHome homes[EMIT_MAX_ARGS]);
+const char *emit_home_name(IrHome home);
+void emit_arg_type(Buf *b, const Ir *ir, IrHome home);
+/* (void) for each struct argument of FN the code did not refer to. */
+void emit_unused_args(Buf *b, const Emitter *e, Function fn);
 void emit_signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
                const char *prefix, const char *real);
 const char *emit_what_is_emitted(const Ir *ir, int emit);
@@ -75,6 +99,10 @@ void emit_header(const Ir *ir, const EmitOptions *opt, const Storage *st,
                  Buf *h);
 void emit_helpers(const Ir *ir, const char *reached, const Storage *st,
                   int real_float, Buf *c);
+
+/* emit_wrappers.c */
+void emit_hessian(Emitter *e, Function fn, Buf *c);
+void emit_jacobian(Emitter *e, Function fn, Buf *c);
 
 /* emit_parts.c */
 void emit_close_part(Emitter *e);

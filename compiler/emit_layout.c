@@ -9,7 +9,7 @@
  * the gradient, which the caller owns). */
 static int is_local(const Ir *ir, const IrArray *a)
 {
-    return a->role != ROLE_INPUT && ir_home(ir, a) == HOME_LOCAL;
+    return ir_home(ir, a) == HOME_LOCAL;
 }
 
 static void mark_targets(const IrStmtList *list, char *written)
@@ -144,9 +144,9 @@ void layout_emit(Buf *c, const Ir *ir, const Storage *st, const char *real)
     buf_printf(c, "    if (" DV_PREFIX "end > (size_t)-1 / sizeof(%s))\n"
                   "        return (size_t)-1;\n", real);
     buf_put(c, "    return " DV_PREFIX "end;\n}\n\n");
-    buf_printf(c, "/* The %ss of work %s_value and %s_gradient need; 0 "
-                  "when a size is\n * negative or the count overflows (then "
-                  "they return NaN). */\n", real, m, m);
+    buf_printf(c, "/* The %ss of work the functions of %s need; 0 when a "
+                  "size is\n * negative or the count overflows (then they "
+                  "fail with NaN). */\n", real, m);
     layout_prototype(c, ir, st, DV_PREFIX);
     buf_printf(c, "\n{\n    size_t " DV_PREFIX "at[%d];\n"
                   "    size_t " DV_PREFIX "need = " DV_PREFIX "layout(%s"
@@ -157,12 +157,11 @@ void layout_emit(Buf *c, const Ir *ir, const Storage *st, const char *real)
                st->has_input ? DV_PREFIX "in, " : "");
 }
 
-void layout_emit_pointers(Buf *c, const Ir *ir, const Storage *st)
+void layout_emit_pointers(Buf *c, const Storage *st, const char *fail)
 {
     buf_printf(c, "    size_t " DV_PREFIX "at[%d];\n"
                   "    if (" DV_PREFIX "layout(%s" DV_PREFIX "at) == "
-                  "(size_t)-1)\n        return NAN;\n",
+                  "(size_t)-1)%s\n",
                st->nslots > 0 ? st->nslots : 1,
-               st->has_input ? DV_PREFIX "in, " : "");
-    (void)ir;
+               st->has_input ? DV_PREFIX "in, " : "", fail);
 }

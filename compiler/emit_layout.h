@@ -29,9 +29,10 @@ const char *layout_extent(const Ir *ir, int extent);
  * real is the emitted code's real type, "double" or "float". */
 void layout_emit(Buf *c, const Ir *ir, const Storage *st, const char *real);
 
-/* Emit the check of the sizes at the start of a function, which returns
- * NAN when they are invalid, and the offsets of the work arrays. */
-void layout_emit_pointers(Buf *c, const Ir *ir, const Storage *st);
+/* Emit the check of the sizes at the start of a function, and the offsets
+ * of the work arrays.  FAIL is what follows the condition: the statement
+ * run when the sizes are invalid, on a new line, or a block. */
+void layout_emit_pointers(Buf *c, const Storage *st, const char *fail);
 
 /* The work_count prototype, for the header. */
 void layout_prototype(Buf *h, const Ir *ir, const Storage *st,

@@ -17,16 +17,15 @@
  * work (whose arrays the frame points into), and the frame. */
 static void part_params(Buf *b, const Emitter *e, Function fn, int named)
 {
-    const char *m = e->ir->model;
-    buf_printf(b, "(const %s_param *%s", m, named ? DV_PREFIX "p" : "");
-    if (e->storage.has_input)
-        buf_printf(b, ", const %s_input *%s", m, named ? DV_PREFIX "in" : "");
-    if (fn == FN_TANGENT || fn == FN_HESSVEC)
-        buf_printf(b, ", const %s_param *%s", m, named ? DV_PREFIX "dir" : "");
-    if (fn == FN_GRADIENT || fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "grad" : "");
-    if (fn == FN_HESSVEC)
-        buf_printf(b, ", %s_param *%s", m, named ? DV_PREFIX "hv" : "");
+    IrHome homes[EMIT_MAX_ARGS];
+    int n = emit_args(e->ir, fn, homes);
+    buf_put(b, "(");
+    for (int i = 0; i < n; i++) {
+        buf_put(b, i ? ", " : "");
+        emit_arg_type(b, e->ir, homes[i]);
+        if (named)
+            buf_printf(b, DV_PREFIX "%s", emit_home_name(homes[i]));
+    }
     buf_printf(b, ", struct " DV_PREFIX "%s_frame *%s)", emit_fn_name(fn),
                named ? DV_PREFIX "f" : "");
 }
@@ -44,23 +43,14 @@ void emit_close_part(Emitter *e)
                    e->part);
         part_params(t, e, e->fn, 1);
         buf_put(t, "\n{\n");
-        if (!e->uses_p)
-            buf_put(t, "    (void)" DV_PREFIX "p;\n");
-        if (e->storage.has_input && !e->uses_in)
-            buf_put(t, "    (void)" DV_PREFIX "in;\n");
-        if ((e->fn == FN_TANGENT || e->fn == FN_HESSVEC) && !e->uses_dir)
-            buf_put(t, "    (void)" DV_PREFIX "dir;\n");
-        if ((e->fn == FN_GRADIENT || e->fn == FN_HESSVEC) && !e->uses_grad)
-            buf_put(t, "    (void)" DV_PREFIX "grad;\n");
-        if (e->fn == FN_HESSVEC && !e->uses_hv)
-            buf_put(t, "    (void)" DV_PREFIX "hv;\n");
+        emit_unused_args(t, e, e->fn);
         if (!e->uses_frame)
             buf_put(t, "    (void)" DV_PREFIX "f;\n");
         emit_put_code(e, t, body->data, body->len);
         buf_put(t, "}\n");
     }
     body->len = 0;
-    e->uses_p = e->uses_in = e->uses_grad = e->uses_dir = e->uses_hv = 0;
+    e->used_homes = 0;
     e->uses_frame = 0;
 }
 
@@ -109,9 +99,11 @@ void emit_plan_frame(Emitter *e, Function fn)
     emit_sweeps(e);
     emit_close_part(e);
     e->dry = 0;
-    e->framed[ir->output] = 1;
-    if (fn == FN_TANGENT && ir->arrays.items[ir->output].varied)
-        e->framed[ir->arrays.items[ir->output].tangent] = 1;
+    if (!ir->struct_output) {
+        e->framed[ir->output] = 1;
+        if (fn == FN_TANGENT && ir->arrays.items[ir->output].varied)
+            e->framed[ir->arrays.items[ir->output].tangent] = 1;
+    }
     for (int i = 0; i < ir->arrays.len; i++) {
         const IrArray *a = &ir->arrays.items[i];
         if (e->storage.slot[i] >= 0)
@@ -129,10 +121,12 @@ void emit_frame(Emitter *e, Function fn)
                         "computes and\n * another reads. */\n"
                         "struct " DV_PREFIX "%s_frame {\n",
                ir->model, emit_fn_name(fn), emit_fn_name(fn));
+    int members = 0;
     for (int i = 0; i < ir->arrays.len; i++) {
         const IrArray *a = &ir->arrays.items[i];
         if (!e->framed[i])
             continue;
+        members++;
         if (e->storage.slot[i] >= 0) {
             buf_printf(e->text, "    %s *%s;   /* in work */\n",
                        emit_real_type(e->opt), a->name);
@@ -143,6 +137,9 @@ void emit_frame(Emitter *e, Function fn)
             buf_printf(e->text, "[%d]", a->dim[k]);
         buf_put(e->text, ";\n");
     }
+    if (!members)   /* the outputs live in *out; C has no empty structs */
+        buf_put(e->text, "    char " DV_PREFIX "nothing;   /* the parts share "
+                         "no values */\n");
     buf_put(e->text, "};\n");
 }
 
@@ -171,15 +168,13 @@ void emit_part_calls(Emitter *e, Function fn, Buf *body)
         }
     buf_printf(body, "    for (int " DV_PREFIX "k = 0; " DV_PREFIX "k < %d; "
                      DV_PREFIX "k++)\n        " DV_PREFIX "%s_parts[" DV_PREFIX
-                     "k](" DV_PREFIX "p, %s%s&" DV_PREFIX "frame);\n",
-               e->part, f, e->storage.has_input ? DV_PREFIX "in, " : "",
-               fn == FN_GRADIENT  ? DV_PREFIX "grad, "
-               : fn == FN_TANGENT ? DV_PREFIX "dir, "
-               : fn == FN_HESSVEC ? DV_PREFIX "dir, " DV_PREFIX "grad, "
-                                    DV_PREFIX "hv, "
-                                  : "");
-    e->uses_p = 1;
-    e->uses_in = 1;
-    e->uses_dir = 1;
+                     "k](", e->part, f);
+    IrHome homes[EMIT_MAX_ARGS];
+    int n = emit_args(ir, fn, homes);
+    for (int i = 0; i < n; i++) {
+        buf_printf(body, DV_PREFIX "%s, ", emit_home_name(homes[i]));
+        EMIT_USE(e, homes[i]);
+    }
+    buf_put(body, "&" DV_PREFIX "frame);\n");
     e->part = 0;        /* the return reads the frame itself */
 }

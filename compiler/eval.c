@@ -352,10 +352,88 @@ static void run_list(Evaluation *ev, const IrStmtList *list, const Plan *plans)
         run_stmt(ev, &list->items[i], &plans[i]);
 }
 
+/* The seed array of output array i (ROLE_SEED), or -1 before the
+ * reverse pass made it. */
+static int32_t seed_of(const Ir *ir, int32_t out)
+{
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_SEED &&
+            ir->arrays.items[i].primal == out)
+            return i;
+    return -1;
+}
+
+/* For outputs in a struct, the sum of each element of OF(output array)
+ * times its seed; else the one output's element.  OF gives the output
+ * array itself, or its tangent. */
+static double seeded(const Evaluation *ev, int tangents)
+{
+    const Ir *ir = ev->ir;
+    double sum = 0;
+    for (int i = 0; i < ir->outputs.len; i++) {
+        int32_t out = ir->outputs.items[i];
+        int32_t of = tangents ? ir->arrays.items[out].tangent : out;
+        if (!ir->struct_output)
+            return of >= 0 ? ev->data[of][0] : 0.0;
+        int32_t seed = seed_of(ir, out);
+        if (of < 0 || seed < 0)
+            continue;
+        for (long e = 0; e < ev->count[out]; e++)
+            sum += ev->data[seed][e] * ev->data[of][e];
+    }
+    return sum;
+}
+
+long eval_output_count(const Evaluation *ev)
+{
+    long n = 0;
+    for (int i = 0; i < ev->ir->outputs.len; i++)
+        n += ev->count[ev->ir->outputs.items[i]];
+    return n;
+}
+
+/* Copy the output arrays' elements (tangents: their tangents') into to,
+ * flat; an output without a tangent has derivative 0. */
+static void copy_outputs(const Evaluation *ev, int tangents, double *to)
+{
+    const Ir *ir = ev->ir;
+    long k = 0;
+    for (int i = 0; i < ir->outputs.len; i++) {
+        int32_t out = ir->outputs.items[i];
+        int32_t of = tangents ? ir->arrays.items[out].tangent : out;
+        int varied = !tangents || ir->arrays.items[out].varied;
+        for (long e = 0; e < ev->count[out]; e++)
+            to[k++] = of >= 0 && varied ? ev->data[of][e] : 0.0;
+    }
+}
+
+void eval_outputs(const Evaluation *ev, double *out)
+{
+    copy_outputs(ev, 0, out);
+}
+
+void eval_output_tangents(const Evaluation *ev, double *dout)
+{
+    copy_outputs(ev, 1, dout);
+}
+
+void eval_set_seed(Evaluation *ev, const double *seed)
+{
+    const Ir *ir = ev->ir;
+    long k = 0;
+    for (int i = 0; i < ir->outputs.len; i++) {
+        int32_t out = ir->outputs.items[i];
+        int32_t s = seed_of(ir, out);
+        for (long e = 0; e < ev->count[out]; e++, k++)
+            if (s >= 0)
+                ev->data[s][e] = seed[k];
+    }
+}
+
 double eval_value(Evaluation *ev)
 {
     run_list(ev, &ev->ir->forward, ev->fplan);
-    return ev->data[ev->ir->output][0];
+    return seeded(ev, 0);
 }
 
 double eval_gradient(Evaluation *ev, double *grad)
@@ -416,9 +494,8 @@ double eval_tangent(Evaluation *ev, const double *dir, double *dvalue)
     set_direction(ev, dir);
     run_list(ev, &ir->tangent, ev->tplan);
     const IrArray *out = &ir->arrays.items[ir->output];
-    *dvalue = out->varied && out->tangent >= 0 ? ev->data[out->tangent][0]
-                                               : 0.0;
-    return ev->data[ir->output][0];
+    *dvalue = ir->struct_output || out->varied ? seeded(ev, 1) : 0.0;
+    return seeded(ev, 0);
 }
 
 /* ------------------------------------------------------- complex step */
@@ -642,7 +719,14 @@ EvalStep eval_complex_step(Evaluation *ev, long k, double h)
     ev->blocked = -1;
     for (int i = 0; i < ir->forward.len; i++)
         crun_stmt(ev, &ir->forward.items[i], &ev->fplan[i]);
-    Cplx y = ev->cdata[ir->output][0];
+    Cplx y = 0;
+    for (int i = 0; i < ir->outputs.len; i++) {
+        int32_t out = ir->outputs.items[i], seed = seed_of(ir, out);
+        for (long e = 0; e < ev->count[out]; e++)
+            y += ir->struct_output
+                     ? (seed >= 0 ? ev->data[seed][e] : 0) * ev->cdata[out][e]
+                     : ev->cdata[out][e];
+    }
     EvalStep step = {creal(y), cimag(y) / h, ev->blocked};
     return step;
 }

@@ -42,7 +42,21 @@ double *eval_slot(Evaluation *ev, const char *name);
 long eval_param_count(const Evaluation *ev);
 double *eval_param(Evaluation *ev, long k);    /* entry k, 0 <= k < count */
 
-/* The output for the current params and inputs (the forward statements). */
+/* Models whose outputs fill a struct: their count of output elements,
+ * the seed the adjoint sweep starts from (seed[count], flat in output
+ * order; all zero until set), and after eval_value or eval_tangent the
+ * outputs and after eval_tangent their tangents, flat, into out[count]
+ * or dout[count].  For one scalar output the count is 1 and the seed is
+ * always 1. */
+long eval_output_count(const Evaluation *ev);
+void eval_set_seed(Evaluation *ev, const double *seed);
+void eval_outputs(const Evaluation *ev, double *out);
+void eval_output_tangents(const Evaluation *ev, double *dout);
+
+/* The output for the current params and inputs (the forward statements);
+ * for outputs in a struct, the sum of each output element times its
+ * seed, a scalar whose gradient the reverse sweep gives: so every
+ * function below sees the seeded sum as the output. */
 double eval_value(Evaluation *ev);
 
 /* The output, and its gradient in flat param order in grad[count]

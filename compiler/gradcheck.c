@@ -141,32 +141,6 @@ static int cmp_entry(const void *pa, const void *pb)
 
 /* ------------------------------------------------------------ report */
 
-/* The model's name for flat param entry k, e.g. W[1][2]. */
-static char *entry_name(const Ir *ir, long k)
-{
-    for (int i = 0; i < ir->arrays.len; i++) {
-        const IrArray *a = &ir->arrays.items[i];
-        if (a->role != ROLE_PARAM)
-            continue;
-        long n = ir_array_size(a);
-        if (k >= n) {
-            k -= n;
-            continue;
-        }
-        long at[IR_MAX_RANK];
-        for (int d = a->rank - 1; d >= 0; d--) {
-            at[d] = k % a->dim[d];
-            k /= a->dim[d];
-        }
-        char *s = arena_printf(ir->arena, "%s", a->name);
-        for (int d = 0; d < a->rank; d++)
-            s = arena_printf(ir->arena, "%s[%ld]", s, at[d]);
-        return s;
-    }
-    DV_UNREACHABLE();
-    return NULL;
-}
-
 /* Where a number's decimal point (or exponent, or end) falls. */
 static int integer_digits(const char *s)
 {
@@ -186,7 +160,7 @@ static void print_table(FILE *out, const Ir *ir, const Entry *es, long n)
     int width[NCOL], left[NCOL] = {0}, right[NCOL] = {0};
     for (long i = 0; i < n; i++) {
         const char **row = cell + i * NCOL;
-        row[0] = entry_name(ir, es[i].k);
+        row[0] = check_entry_name(ir, es[i].k, 0);
         row[1] = arena_printf(ir->arena, "%.15g", es[i].reverse);
         int none = es[i].status == ST_UNCHECKED;
         row[2] = none ? "-" : arena_printf(ir->arena, "%.15g", es[i].numeric);
@@ -252,6 +226,29 @@ static void print_notes(FILE *out, const Entry *es, long n,
                 "Richardson extrapolation alone\n", count > 1 ? "them" : "it");
 }
 
+/* The outputs (the first few), the random seed weighting them, and the
+ * weighted sum the table's derivatives are of. */
+static void print_outputs(FILE *out, const Ir *ir, Evaluation *ev,
+                          const double *seed, unsigned long seed_option,
+                          double sum)
+{
+    enum { SHOWN = 12 };
+    long n = eval_output_count(ev);
+    double *y = check_alloc((size_t)n * sizeof *y);
+    eval_outputs(ev, y);
+    fprintf(out, "outputs, each with a random weight (seed %lu):\n",
+            seed_option);
+    for (long k = 0; k < n && k < SHOWN; k++)
+        fprintf(out, "  %s = %.15g  (weight %.15g)\n",
+                check_entry_name(ir, k, 1), y[k], seed[k]);
+    if (n > SHOWN)
+        fprintf(out, "  ... and %ld more\n", n - SHOWN);
+    fprintf(out, "value: the weighted sum of the outputs = %.15g\n"
+                 "  (the adjoint sweep seeded with the weights gives its "
+                 "gradient)\n\n", sum);
+    free(y);
+}
+
 int check_run(const DvCompilation *c, const CheckOptions *opt)
 {
     const Ir *ir = c->ir;
@@ -267,9 +264,21 @@ int check_run(const DvCompilation *c, const CheckOptions *opt)
 
     long n = eval_param_count(ev);
     double *grad = check_alloc((size_t)n * sizeof *grad);
-    double f0 = eval_gradient(ev, grad);
+    double *seed = NULL;
     const char *output = ir->arrays.items[ir->output].name;
-    fprintf(out, "value: %s = %.15g\n\n", output, f0);
+    if (ir->struct_output) {
+        /* the adjoint with a random seed is the gradient of the outputs
+         * weighted by it: a scalar like any other */
+        seed = products_random_vector(eval_output_count(ev), opt->seed,
+                                      0x73656564ULL);
+        eval_set_seed(ev, seed);
+        output = "the weighted sum";
+    }
+    double f0 = eval_gradient(ev, grad);
+    if (seed)
+        print_outputs(out, ir, ev, seed, opt->seed, f0);
+    else
+        fprintf(out, "value: %s = %.15g\n\n", output, f0);
     if (!isfinite(f0)) {
         fprintf(out, "check: %s is not finite at this point, so no derivative "
                 "can be compared;\n  choose other values with --at\n", output);
@@ -304,7 +313,13 @@ int check_run(const DvCompilation *c, const CheckOptions *opt)
             status |= products_check_hessvec(ev, grad, opt->seed,
                                              opt->tolerance, out);
         }
+        if (c->emit & DV_EMIT_JACOBIAN) {
+            fputc('\n', out);
+            status |= products_check_jacobian(ir, ev, seed, opt->tolerance,
+                                              out);
+        }
     }
+    free(seed);
     free(grad);
     point_free(&pt);
     eval_free(ev);

@@ -136,7 +136,7 @@ static void put_value_label(const Graph *g, Buf *b, int32_t array)
     }
     if (a->rank)
         buf_put(b, "]");
-    int output = array == ir->output;
+    int output = a->is_output;
     if (a->role == ROLE_PARAM)
         buf_put(b, output ? "\\nparam, output" : "\\nparam");
     else if (a->role == ROLE_INPUT)
@@ -150,7 +150,7 @@ static void put_value_label(const Graph *g, Buf *b, int32_t array)
 static const char *value_style(const Ir *ir, int32_t array)
 {
     const IrArray *a = &ir->arrays.items[array];
-    int output = array == ir->output;
+    int output = a->is_output;
     switch (a->role) {
     case ROLE_PARAM:
         return output ? STYLE_PARAM ", peripheries=2" : STYLE_PARAM;

@@ -3,6 +3,7 @@
 #include "ir.h"
 #include "names.h"
 
+#include <limits.h>
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -312,27 +313,41 @@ int32_t ir_whole_tuple(Ir *ir, int32_t array)
 
 IrHome ir_home(const Ir *ir, const IrArray *a)
 {
-    if (a->role == ROLE_PARAM)
+    switch (a->role) {
+    case ROLE_PARAM:
         return HOME_P;
-    if (a->role != ROLE_ADJOINT && a->role != ROLE_TANGENT)
-        return HOME_LOCAL;
+    case ROLE_INPUT:
+        return HOME_IN;
+    case ROLE_SEED:
+        return HOME_SEED;
+    case ROLE_ADJOINT:
+    case ROLE_TANGENT:
+        break;
+    default:
+        return a->is_output && ir->struct_output ? HOME_OUT : HOME_LOCAL;
+    }
     IrHome of = ir_home(ir, &ir->arrays.items[a->primal]);
     if (of == HOME_P)
         return a->role == ROLE_ADJOINT ? HOME_GRAD : HOME_DIR;
+    if (of == HOME_OUT && a->role == ROLE_TANGENT)
+        return HOME_DOUT;
     return of == HOME_GRAD && a->role == ROLE_TANGENT ? HOME_HV : HOME_LOCAL;
 }
 
 int32_t ir_add_derived(Ir *ir, int32_t array, IrRole role, const char *kind)
 {
     const IrArray *a = &ir->arrays.items[array];
-    size_t skip = a->role == ROLE_TEMP ? strlen(DV_PREFIX) : 0;
-    const char *name = ir_home(ir, a) != HOME_LOCAL
-                           ? a->name
-                           : arena_printf(ir->arena, DV_PREFIX "%s_%s", kind,
-                                          a->name + skip);
-    int32_t d = ir_add_array(ir, name, role, a->rank, a->dim, a->span);
-    ir->arrays.items[d].primal = array;
-    ir->arrays.items[d].row_local = ir->arrays.items[array].row_local;
+    int32_t d = ir_add_array(ir, a->name, role, a->rank, a->dim, a->span);
+    a = &ir->arrays.items[array];
+    IrArray *da = &ir->arrays.items[d];
+    da->primal = array;
+    da->row_local = a->row_local;
+    /* a member of a caller's struct keeps the model's name */
+    if (ir_home(ir, da) == HOME_LOCAL) {
+        size_t skip = a->role == ROLE_TEMP ? strlen(DV_PREFIX) : 0;
+        da->name = arena_printf(ir->arena, DV_PREFIX "%s_%s", kind,
+                                a->name + skip);
+    }
     return d;
 }
 
@@ -405,6 +420,39 @@ void ir_mark_reached(const Ir *ir, const IrStmtList *list, char *used)
 {
     for (int i = 0; i < list->len; i++)
         reach(ir, list->items[i].expr, used);
+}
+
+/* Operations below id not yet counted in this statement (stamp). */
+static long count_ops(const Ir *ir, NodeId id, int *seen, int stamp)
+{
+    if (seen[id] == stamp)
+        return 0;
+    seen[id] = stamp;
+    const IrNode *n = ir_at(ir, id);
+    long ops = n->nargs > 0;
+    for (int i = 0; i < n->nargs; i++)
+        ops += count_ops(ir, n->arg[i], seen, stamp);
+    return ops;
+}
+
+long ir_work(const Ir *ir, const IrStmtList *list)
+{
+    int *seen = calloc((size_t)ir->nodes.len + 1, sizeof *seen);
+    if (!seen)
+        exit(3);
+    double work = 0;
+    for (int i = 0; i < list->len; i++) {
+        const IrStmt *s = &list->items[i];
+        double points = 1;
+        int n = ir_tuple_len(ir, s->domain);
+        for (int k = 0; k < n; k++) {
+            int extent = ir->vars.items[ir_tuple_vars(ir, s->domain)[k]].extent;
+            points *= IR_EXTENT_IS_SIZE(extent) ? 100 : extent;
+        }
+        work += points * (double)(1 + count_ops(ir, s->expr, seen, i + 1));
+    }
+    free(seen);
+    return work < (double)LONG_MAX ? (long)work : LONG_MAX;
 }
 
 /* ----------------------------------------------------- verify, print */

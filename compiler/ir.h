@@ -83,8 +83,11 @@ typedef enum IrRole {
     ROLE_TEMP,          /* a compiler temporary (reduction accumulator) */
     ROLE_ARGPOS,        /* position of a max/min reduction's winner (long) */
     ROLE_ADJOINT,       /* the adjoint of another array */
-    ROLE_TANGENT        /* the tangent (directional derivative) of another
+    ROLE_TANGENT,       /* the tangent (directional derivative) of another
                            array; of a param, the direction */
+    ROLE_SEED           /* the caller's weight on an output (primal) for
+                           the adjoint sweep of a model whose outputs are
+                           not one scalar */
 } IrRole;
 
 typedef struct IrArray {
@@ -105,6 +108,8 @@ typedef struct IrArray {
                            computed from params (a logsumexp shift) */
     uint8_t row_local;  /* row by row: only the current row of it (its
                            first dimension) exists at a time */
+    uint8_t is_output;  /* named by 'output' (or the copy of a param or
+                           input so named, see Ir.outputs) */
 } IrArray;
 
 typedef struct IrIndexVar {
@@ -154,7 +159,14 @@ typedef struct Ir {
                                    reverse sweep's tangents read, */
     IrStmtList hv_reverse;      /* and the reverse statements, each followed
                                    by its tangent (empty unless asked for) */
-    int32_t output;             /* the output array */
+    int32_t output;             /* the output array: the only one when
+                                   struct_output is 0, else the first */
+    VEC(int32_t) outputs;       /* every output array, in 'output' order;
+                                   with struct_output, a param or input
+                                   named as an output is copied into a
+                                   value array of its name */
+    int struct_output;          /* the outputs are not one scalar: the
+                                   emitted functions fill an output struct */
     int32_t row_size;           /* row by row over this size, or -1 */
     const char *row_plan;       /* why row by row was or was not chosen */
     Span output_span;           /* the output's name in its statement */
@@ -195,10 +207,15 @@ int32_t ir_add_var(Ir *ir, const char *name, int extent);
  * ARRAY, for statements over all of it. */
 int32_t ir_whole_tuple(Ir *ir, int32_t array);
 
-/* The caller's struct an array lives in: a param (in *p), its adjoint (the
- * gradient, *grad), its tangent (the direction, *dir), or the tangent of
- * its adjoint (a Hessian times the direction, *hv); else a local. */
-typedef enum IrHome { HOME_LOCAL, HOME_P, HOME_GRAD, HOME_DIR, HOME_HV } IrHome;
+/* The caller's struct an array lives in: a param (in *p), an input (*in),
+ * a param's adjoint (the gradient, *grad), its tangent (the direction,
+ * *dir), or the tangent of its adjoint (a Hessian times the direction,
+ * *hv); with struct_output, an output (*out), the seed of its adjoint
+ * (*seed) and its tangent (*dout); else a local. */
+typedef enum IrHome {
+    HOME_LOCAL, HOME_P, HOME_IN, HOME_GRAD, HOME_DIR, HOME_HV, HOME_OUT,
+    HOME_SEED, HOME_DOUT, HOME_COUNT
+} IrHome;
 IrHome ir_home(const Ir *ir, const IrArray *a);
 
 /* A new array of ROLE (ROLE_ADJOINT, ROLE_TANGENT) derived from ARRAY, of
@@ -233,6 +250,12 @@ int ir_is_condition(const Ir *ir, NodeId id);
 /* Set used[id] for every node the statements of LIST reach (used has one
  * flag per node). */
 void ir_mark_reached(const Ir *ir, const IrStmtList *list, char *used);
+
+/* An estimate of the work of running LIST once: per statement, the
+ * operations of its expression (distinct nodes that are not leaves) plus
+ * one for the store, times the points of its domain, a runtime size
+ * counted as 100 points. */
+long ir_work(const Ir *ir, const IrStmtList *list);
 
 /* Check the IR's invariants; reports a fault and aborts when one fails. */
 void ir_verify(const Ir *ir);

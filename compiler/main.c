@@ -35,8 +35,10 @@ static const char usage[] =
     "         --real TYPE      the emitted code's real type: double or float\n"
     "                          (default double)\n"
     "         --emit LIST      the functions to write, of value, gradient,\n"
-    "                          tangent, hessvec and hessian\n"
-    "                          (default: value,gradient)\n"
+    "                          tangent, hessvec and hessian (one scalar\n"
+    "                          output), or value, adjoint, tangent and\n"
+    "                          jacobian (outputs in a struct); default\n"
+    "                          value,gradient or value,adjoint,jacobian\n"
     "         --explain        say how the gradient uses memory, and why\n"
     "         --line-directives  point the C compiler and debugger at the\n"
     "                          model's lines (#line)\n"
@@ -53,7 +55,7 @@ static const char usage[] =
     "         --name NAME      symbol prefix\n"
     "         -I DIR           look in DIR for used files, as for build\n"
     "         --emit LIST      also check these functions' derivatives\n"
-    "                          (tangent, hessvec)\n"
+    "                          (tangent, hessvec, jacobian)\n"
     "         --fail-on-warning  treat warnings as errors\n"
     "       dervish graph [options] MODEL.dvs    write the computation graph\n"
     "                                            in Graphviz DOT\n"
@@ -115,14 +117,17 @@ static int is_count(const char *s)
 static int emit_bits(const char *list)
 {
     static const char *const kinds[] = {"value", "gradient", "tangent",
-                                        "hessvec", "hessian"};
+                                        "hessvec", "hessian", "adjoint",
+                                        "jacobian"};
+    enum { NKINDS = sizeof kinds / sizeof *kinds };
     int bits = 0;
     for (const char *p = list;; p++) {
         size_t n = strcspn(p, ",");
         int k = 0;
-        while (k < 5 && !(strlen(kinds[k]) == n && strncmp(p, kinds[k], n) == 0))
+        while (k < NKINDS &&
+               !(strlen(kinds[k]) == n && strncmp(p, kinds[k], n) == 0))
             k++;
-        if (k == 5)
+        if (k == NKINDS)
             return 0;
         bits |= 1 << k;
         p += n;
@@ -220,8 +225,8 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
                            "doubles, at least 1, not '%s'", a->stack_limit);
     if (a->emit_list && !(a->emit = emit_bits(a->emit_list)))
         return usage_error("--emit takes a comma-separated list of value, "
-                           "gradient, tangent, hessvec and hessian, not '%s'",
-                           a->emit_list);
+                           "gradient, adjoint, tangent, hessvec, hessian and "
+                           "jacobian, not '%s'", a->emit_list);
     if (a->part_size && !is_count(a->part_size))
         return usage_error("--part-size takes a whole number of "
                            "statements, at least 1, not '%s'", a->part_size);

@@ -17,9 +17,7 @@ static double *doubles(long n)
     return check_alloc((size_t)n * sizeof(double));
 }
 
-/* A random direction from SEED and SALT: uniform in [-1, 1), 2^-20 apart,
- * so exact in print and in sums. */
-static double *random_direction(long n, unsigned long seed, uint64_t salt)
+double *products_random_vector(long n, unsigned long seed, uint64_t salt)
 {
     double *dir = doubles(n);
     uint64_t state = seed ^ salt;
@@ -32,7 +30,7 @@ int products_check_tangent(Evaluation *ev, const double *grad,
                            unsigned long seed, double tolerance, FILE *out)
 {
     long n = eval_param_count(ev);
-    double *dir = random_direction(n, seed, 0x7461676e65746e61ULL);
+    double *dir = products_random_vector(n, seed, 0x7461676e65746e61ULL);
     double dot = 0, scale = 0;
     for (long k = 0; k < n; k++) {
         dot += grad[k] * dir[k];
@@ -67,7 +65,7 @@ int products_check_hessvec(Evaluation *ev, const double *grad,
                            unsigned long seed, double tolerance, FILE *out)
 {
     long n = eval_param_count(ev);
-    double *dir = random_direction(n, seed, 0x6865737376656321ULL);
+    double *dir = products_random_vector(n, seed, 0x6865737376656321ULL);
     double *g = doubles(n), *hv = doubles(n), *p0 = doubles(n);
     double *d[2], *gp = doubles(n), *gm = doubles(n);
     eval_hessvec(ev, dir, g, hv);
@@ -116,5 +114,55 @@ int products_check_hessvec(Evaluation *ev, const double *grad,
     free(gm);
     free(d[0]);
     free(d[1]);
+    return bad;
+}
+
+/* The Jacobian of outputs in a struct, two ways: row i from the reverse
+ * sweep seeded with unit vector i, column k from the tangent sweep along
+ * unit vector k.  The emitted Jacobian calls one of the two; their
+ * agreement checks the other's bookkeeping too. */
+int products_check_jacobian(const Ir *ir, Evaluation *ev, const double *seed,
+                            double tolerance, FILE *out)
+{
+    long n = eval_param_count(ev), m = eval_output_count(ev);
+    double *rows = doubles(m * n), *col = doubles(m), *unit_out = doubles(m);
+    double *unit_in = doubles(n);
+    for (long i = 0; i < m; i++) {
+        unit_out[i] = 1;
+        eval_set_seed(ev, unit_out);
+        eval_gradient(ev, rows + i * n);
+        unit_out[i] = 0;
+    }
+    eval_set_seed(ev, seed);
+    long agree = 0, worst_at = 0;
+    double worst = 0, dvalue;
+    for (long k = 0; k < n; k++) {
+        unit_in[k] = 1;
+        eval_tangent(ev, unit_in, &dvalue);
+        eval_output_tangents(ev, col);
+        unit_in[k] = 0;
+        for (long i = 0; i < m; i++) {
+            double r = rows[i * n + k];
+            double err = fabs(r - col[i]) / fmax(1, fabs(col[i]));
+            if (!(err <= worst)) {
+                worst = err;
+                worst_at = i * n + k;
+            }
+            agree += err <= tolerance;
+        }
+    }
+    fprintf(out, "Jacobian, %ld x %ld: %ld of %ld entries of its rows (reverse "
+                 "sweeps) agree with\n  its columns (tangent sweeps); largest "
+                 "error %.1e, at d %s / d %s (tolerance %g)\n",
+            m, n, agree, m * n, worst,
+            check_entry_name(ir, worst_at / n, 1),
+            check_entry_name(ir, worst_at % n, 0), tolerance);
+    int bad = agree < m * n;
+    fprintf(out, "check: the Jacobian's rows and columns %s\n",
+            bad ? "disagree" : "agree");
+    free(rows);
+    free(col);
+    free(unit_out);
+    free(unit_in);
     return bad;
 }

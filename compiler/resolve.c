@@ -1347,20 +1347,23 @@ static void resolve_output(Resolver *r, const AstStmt *s)
                                                        : "constant");
             continue;
         }
-        if (r->noutputs > 1) {
-            diag_error(r->diag, n->span,
-                       "a second output: this version of dervish emits "
-                       "models with exactly one scalar output");
-            continue;
-        }
         const IrArray *a = &r->ir->arrays.items[sym->array];
-        if (a->rank > 0) {
+        if (!ir_array_fixed(a)) {
             diag_error(r->diag, n->span,
-                       "'%s' is an array: this version of dervish emits "
-                       "models with one scalar output (reduce it, e.g. with "
-                       "sum)", n->name);
+                       "'%s' has a runtime size: outputs must have fixed "
+                       "extents", n->name);
             continue;
         }
+        if (a->is_output) {
+            diag_error(r->diag, n->span, "'%s' is already an output",
+                       n->name);
+            continue;
+        }
+        r->ir->arrays.items[sym->array].is_output = 1;
+        VEC_PUSH(r->arena, r->ir->outputs, sym->array);
+        VEC_PUSH(r->arena, r->output_spans, n->span);
+        if (r->ir->outputs.len > 1)
+            continue;
         r->ir->output = sym->array;
         r->ir->output_span = n->span;
         r->ir->output_stmt = s->span;
@@ -1424,15 +1427,81 @@ static void check_model_name(Resolver *r)
                    name, why);
 }
 
+/* ------------------------------------------------------------ outputs */
+
+/* One scalar output is returned; otherwise the outputs fill a struct, and
+ * the emitted code writes them there, so a param or input named as an
+ * output is copied into a value of its name that lives in the struct. */
+static void settle_outputs(Ir *ir)
+{
+    const IrArray *first = &ir->arrays.items[ir->output];
+    ir->struct_output = ir->outputs.len > 1 || first->rank > 0;
+    if (!ir->struct_output)
+        return;
+    for (int i = 0; i < ir->outputs.len; i++) {
+        int32_t from = ir->outputs.items[i];
+        IrArray a = ir->arrays.items[from];
+        if (a.role != ROLE_PARAM && a.role != ROLE_INPUT)
+            continue;
+        ir->arrays.items[from].is_output = 0;
+        int32_t copy = ir_add_array(ir, a.name, ROLE_VALUE, a.rank, a.dim,
+                                    a.span);
+        ir->arrays.items[copy].is_output = 1;
+        ir->outputs.items[i] = copy;
+        if (i == 0)
+            ir->output = copy;
+        int32_t whole = ir_whole_tuple(ir, copy);
+        IrStmt s = ir_stmt(ir, SK_SET, copy, whole, whole,
+                           ir_read(ir, from, whole), a.span);
+        s.note = arena_printf(ir->arena, "the output %s is the %s %s",
+                              a.name, a.role == ROLE_PARAM ? "param" : "input",
+                              a.name);
+        ir_add_stmt(ir, &ir->forward, s);
+    }
+}
+
 /* ------------------------------------------------------- dead values */
+
+/* True when expression id reads an array marked in varied[]. */
+static int reads_marked(const Ir *ir, NodeId id, const char *varied)
+{
+    const IrNode *n = ir_at(ir, id);
+    if (n->op == IR_READ)
+        return varied[n->array];
+    for (int k = 0; k < n->nargs; k++)
+        if (reads_marked(ir, n->arg[k], varied))
+            return 1;
+    return 0;
+}
+
+/* Among outputs in a struct, warn of each one no param reaches: its row
+ * of the Jacobian is zero, which is likely a slip in the model. */
+static void warn_constant_outputs(Resolver *r)
+{
+    Ir *ir = r->ir;
+    char *varied = arena_alloc(r->arena, (size_t)ir->arrays.len);
+    for (int i = 0; i < ir->arrays.len; i++)
+        varied[i] = ir->arrays.items[i].role == ROLE_PARAM;
+    for (int i = 0; i < ir->forward.len; i++) {
+        const IrStmt *s = &ir->forward.items[i];
+        if (!varied[s->target] && reads_marked(ir, s->expr, varied))
+            varied[s->target] = 1;
+    }
+    for (int i = 0; i < ir->outputs.len; i++)
+        if (!varied[ir->outputs.items[i]])
+            diag_warning(r->diag, r->output_spans.items[i], "output '%s' does "
+                         "not depend on any param; its rows of the Jacobian "
+                         "are zero",
+                         ir->arrays.items[ir->outputs.items[i]].name);
+    arena_release(r->arena, varied, (size_t)ir->arrays.len);
+}
 
 /* Keep the statements some output depends on; warn about the rest. */
 static void prune(Resolver *r)
 {
     Ir *ir = r->ir;
     for (int i = 0; i < ir->arrays.len; i++)
-        ir->arrays.items[i].used = 0;
-    ir->arrays.items[ir->output].used = 1;
+        ir->arrays.items[i].used = ir->arrays.items[i].is_output;
     int kept = ir->forward.len;
     char *keep = arena_alloc(r->arena, (size_t)(kept ? kept : 1));
     VEC(NodeId) stack = {0};
@@ -1478,12 +1547,21 @@ static void prune(Resolver *r)
             continue;
         if (a->used)
             any_param = 1;
+        else if (ir->struct_output)
+            diag_warning(r->diag, a->span,
+                         "param '%s' affects no output; its column of the "
+                         "Jacobian is always zero", a->name);
         else
             diag_warning(r->diag, a->span,
                          "param '%s' does not affect the output; its "
                          "gradient is always zero", a->name);
     }
-    if (!any_param)
+    if (!any_param && ir->struct_output)
+        diag_warning(r->diag, ir->output_span,
+                     "no output depends on any param; the Jacobian is zero");
+    else if (ir->struct_output)
+        warn_constant_outputs(r);
+    else if (!any_param)
         diag_warning(r->diag, ir->output_span,
                      "output '%s' does not depend on any param; its "
                      "gradient is zero", ir->arrays.items[ir->output].name);
@@ -1682,8 +1760,10 @@ static Ir *finish(Resolver *r)
         diag_error(diag, start_at,
                    "the model has no output: add 'output NAME' naming the "
                    "value to differentiate");
-    if (diag->errors == 0 && r->ir->output >= 0)
+    if (diag->errors == 0 && r->ir->output >= 0) {
+        settle_outputs(r->ir);
         prune(r);
+    }
     release_resolver(r);
     return r->ir;
 }

@@ -110,6 +110,7 @@ typedef struct Resolver {
     VEC(DefinedValue) defined;
     int nparams;
     int noutputs;
+    VEC(Span) output_spans; /* of each of ir->outputs, in the statement */
 
     /* what the first pass (outline) saw of the whole model */
     VEC(ModelStmt) models;  /* the model statements */

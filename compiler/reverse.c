@@ -48,7 +48,7 @@ static void activity(Ir *ir)
     for (int i = 0; i < ir->arrays.len; i++) {
         IrArray *a = &ir->arrays.items[i];
         a->varied = a->role == ROLE_PARAM;
-        a->useful = i == ir->output;
+        a->useful = a->is_output;
     }
     for (int i = 0; i < ir->forward.len; i++) {
         const IrStmt *s = &ir->forward.items[i];
@@ -196,6 +196,33 @@ static void drop_unread(Ir *ir)
     }
 }
 
+/* The sweep starts from the outputs' adjoints: 1 for one scalar output,
+ * else the caller's seed, one for each output element. */
+static void seed_outputs(Reverse *rv)
+{
+    Ir *ir = rv->ir;
+    Span at = ir->output_stmt;
+    if (!ir->struct_output) {
+        int32_t adj_out = adjoint_of(rv, ir->output);
+        int32_t none = ir_tuple(ir, NULL, 0);
+        if (ir->arrays.items[ir->output].varied) {
+            emit_stmt(rv, SK_SET, adj_out, none, none, ir_const(ir, 1), at);
+            rv->written[adj_out] = 1;
+        }
+        return;
+    }
+    for (int i = 0; i < ir->outputs.len; i++) {
+        int32_t out = ir->outputs.items[i];
+        int32_t seed = ir_add_derived(ir, out, ROLE_SEED, "seed");
+        if (!ir->arrays.items[out].varied)
+            continue;
+        int32_t adj = adjoint_of(rv, out);
+        int32_t whole = ir_whole_tuple(ir, adj);
+        emit_stmt(rv, SK_SET, adj, whole, whole, ir_read(ir, seed, whole), at);
+        rv->written[adj] = 1;
+    }
+}
+
 void reverse_pass(Ir *ir)
 {
     Reverse rv;
@@ -203,15 +230,10 @@ void reverse_pass(Ir *ir)
     rv.ir = ir;
     rv.row_var = -1;
     activity(ir);
-    /* adjoints are created on demand; size the flags for the worst case */
-    rv.written = arena_alloc(ir->arena, (size_t)(2 * ir->arrays.len + 1));
-    int32_t adj_out = adjoint_of(&rv, ir->output);
-    int32_t none = ir_tuple(ir, NULL, 0);
-    Span at = ir->output_stmt;
-    if (ir->arrays.items[ir->output].varied) {
-        emit_stmt(&rv, SK_SET, adj_out, none, none, ir_const(ir, 1), at);
-        rv.written[adj_out] = 1;
-    }
+    /* adjoints and seeds are created on demand; size the flags for the
+     * worst case */
+    rv.written = arena_alloc(ir->arena, (size_t)(3 * ir->arrays.len + 1));
+    seed_outputs(&rv);
     for (int i = ir->forward.len - 1; i >= 0; i--)
         reverse_stmt(&rv, &ir->forward.items[i]);
     rv.row_var = -1;
@@ -229,6 +251,8 @@ void reverse_pass(Ir *ir)
                 ir->arena, ir->arrays.items[i].useful
                                 ? "the derivative with respect to %s is zero "
                                   "everywhere"
+                                : ir->struct_output
+                                ? "%s affects no output"
                                 : "%s does not affect the output",
                 ir->arrays.items[i].name);
             rv.written[adj] = 1;

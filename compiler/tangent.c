@@ -188,6 +188,26 @@ static void reverse_tangents(Tangent *tg)
     }
 }
 
+/* Every member of the caller's *dout is overwritten: with zero for an
+ * output that does not depend on the params. */
+static void zero_output_tangents(Ir *ir)
+{
+    if (!ir->struct_output)
+        return;
+    for (int i = 0; i < ir->outputs.len; i++) {
+        const IrArray *out = &ir->arrays.items[ir->outputs.items[i]];
+        if (out->varied)
+            continue;
+        int32_t tan = out->tangent;
+        int32_t whole = ir_whole_tuple(ir, tan);
+        IrStmt z = ir_stmt(ir, SK_SET, tan, whole, whole, ir_const(ir, 0),
+                           ir->arrays.items[tan].span);
+        z.note = arena_printf(ir->arena, "%s does not depend on the params",
+                              ir->arrays.items[tan].name);
+        ir_add_stmt(ir, &ir->tangent, z);
+    }
+}
+
 void tangent_pass(Ir *ir, int tangent, int hessvec)
 {
     Tangent tg;
@@ -196,14 +216,17 @@ void tangent_pass(Ir *ir, int tangent, int hessvec)
     IrStmtList all = {0};
     for (int i = 0; i < ir->forward.len; i++)
         tangent_stmt(&tg, &ir->forward.items[i], &all);
-    /* the output's tangent exists even when it is zero by construction */
-    tangent_of(ir, ir->output);
+    /* the outputs' tangents exist even when zero by construction */
+    for (int i = 0; i < ir->outputs.len; i++)
+        tangent_of(ir, ir->outputs.items[i]);
     if (tangent) {
         copy_list(ir, &all, &ir->tangent);
         char *need = arena_alloc(ir->arena, (size_t)ir->arrays.len);
-        need[ir->arrays.items[ir->output].tangent] = 1;
+        for (int i = 0; i < ir->outputs.len; i++)
+            need[ir->arrays.items[ir->outputs.items[i]].tangent] = 1;
         IrStmtList *lists[1] = {&ir->tangent};
         keep_needed(ir, lists, 1, need);
+        zero_output_tangents(ir);
     }
     if (hessvec) {
         reverse_tangents(&tg);

@@ -16,7 +16,8 @@
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 
-static void compile(const uint8_t *data, size_t size, int emit, int *nodes)
+static void compile(const uint8_t *data, size_t size, int emit, int *nodes,
+                    int *struct_output)
 {
     DvCompilation c;
     DvOptions opt;
@@ -28,16 +29,20 @@ static void compile(const uint8_t *data, size_t size, int emit, int *nodes)
         buf_free(&src);
         buf_free(&hdr);
         *nodes = c.ir->nodes.len;
+        *struct_output = c.ir->struct_output;
     }
     dv_free(&c);
 }
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
-    int nodes = -1;
-    compile(data, size, DV_EMIT_DEFAULT, &nodes);
+    int nodes = -1, struct_output = 0;
+    compile(data, size, 0, &nodes, &struct_output);     /* the defaults */
     if (nodes >= 0 && nodes <= PRODUCTS_MAX_NODES)
-        compile(data, size, DV_EMIT_DEFAULT | DV_EMIT_TANGENT |
-                                DV_EMIT_HESSIAN, &nodes);
+        compile(data, size,
+                struct_output ? DV_EMIT_STRUCT_DEFAULT | DV_EMIT_TANGENT
+                              : DV_EMIT_DEFAULT | DV_EMIT_TANGENT |
+                                    DV_EMIT_HESSIAN,
+                &nodes, &struct_output);
     return 0;
 }

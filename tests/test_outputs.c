@@ -155,17 +155,18 @@ START_TEST(usage_errors)
                                       "'single'"},
         {"check --real float m.dvs", "unknown option '--real'"},
         {"build m.dvs --emit", "option --emit needs a value"},
-        {"build --emit jacobian m.dvs", "--emit takes a comma-separated "
-                                        "list of value, gradient, tangent, "
-                                        "hessvec and hessian, not "
-                                        "'jacobian'"},
+        {"build --emit jacobians m.dvs", "--emit takes a comma-separated "
+                                         "list of value, gradient, adjoint, "
+                                         "tangent, hessvec, hessian and "
+                                         "jacobian, not 'jacobians'"},
         {"build --emit value,,tangent m.dvs", "--emit takes a "
                                               "comma-separated list of value, "
-                                              "gradient, tangent, hessvec and "
-                                              "hessian, not 'value,,tangent'"},
+                                              "gradient, adjoint, tangent, "
+                                              "hessvec, hessian and jacobian, "
+                                              "not 'value,,tangent'"},
         {"check --emit '' m.dvs", "--emit takes a comma-separated list of "
-                                  "value, gradient, tangent, hessvec and "
-                                  "hessian, not ''"},
+                                  "value, gradient, adjoint, tangent, "
+                                  "hessvec, hessian and jacobian, not ''"},
         {"graph --emit value m.dvs", "unknown option '--emit'"},
         {"check m.dvs --size", "option --size needs a value"},
         {"build --size n=4 m.dvs", "unknown option '--size'"},

@@ -656,17 +656,16 @@ START_TEST(model_level_errors)
                "naming the value to differentiate\n"
                "    y = a\n"
                "    ^~~~~\n");
-    check_diag("param a, x[3]\ny = a\nz = a\noutput y, z\n", 1, 0,
-               "t.dvs:4:11: error: a second output: this version of dervish "
-               "emits models with exactly one scalar output\n"
-               "    output y, z\n"
-               "              ^\n");
-    check_diag("param x[3]\noutput x\n", 1, 0,
-               "t.dvs:2:8: error: 'x' is an array: this version of dervish "
-               "emits models with one scalar output (reduce it, e.g. with "
-               "sum)\n"
-               "    output x\n"
-               "           ^\n");
+    check_diag("param a, x[3]\ny = a\nz = a\noutput y, z, y\n", 1, 0,
+               "t.dvs:4:14: error: 'y' is already an output\n"
+               "    output y, z, y\n"
+               "                 ^\n");
+    check_diag("param a, x[3]\ny = a\nz = a\noutput y, z\n", 0, 1,
+               "t.dvs:1:10: warning: param 'x' affects no output; its column "
+               "of the Jacobian is always zero\n"
+               "    param a, x[3]\n"
+               "             ^~~~\n");
+    check_diag("param x[3]\noutput x\n", 0, 0, "");     /* a struct */
 }
 END_TEST
 
