@@ -165,10 +165,6 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     } else if (home == HOME_HV) {
         buf_put(e->out, DV_PREFIX "hv->");
         e->uses_hv = 1;
-    } else if (e->dry) {
-        if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
-            e->framed[array] = 1;
-        e->ref_part[array] = e->part;
     } else if (e->parted && e->framed[array]) {
         buf_put(e->out, e->part ? DV_PREFIX "f->" : DV_PREFIX "frame.");
         e->uses_frame = 1;
@@ -594,6 +590,45 @@ void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
     }
 }
 
+/* The dry run of a function in parts (emit_plan_frame) notes each local
+ * array a part refers to; an array two parts refer to goes in the frame. */
+static void note_ref(Emitter *e, int32_t array)
+{
+    const IrArray *a = &e->ir->arrays.items[array];
+    if (a->role == ROLE_INPUT || ir_home(e->ir, a) != HOME_LOCAL)
+        return;
+    if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
+        e->framed[array] = 1;
+    e->ref_part[array] = e->part;
+}
+
+static void note_expr_refs(Emitter *e, NodeId id)
+{
+    if (e->visit[id] == e->visit_stamp)
+        return;
+    e->visit[id] = e->visit_stamp;
+    const IrNode *n = ir_at(e->ir, id);
+    if (n->op == IR_READ)
+        note_ref(e, n->array);
+    for (int i = 0; i < n->nargs; i++)
+        note_expr_refs(e, n->arg[i]);
+}
+
+/* The arrays emit_body would write s with: its target, what its
+ * expression reads (inline or in temporaries), and a winner's position. */
+static void note_stmt_refs(Emitter *e, const IrStmt *s)
+{
+    note_ref(e, s->target);
+    if (s->kind == SK_SET &&
+        e->ir->arrays.items[s->target].role == ROLE_ARGPOS)
+        return;     /* written as 0, reads nothing */
+    e->visit_stamp++;
+    note_expr_refs(e, s->expr);
+    if ((s->kind == SK_MAX || s->kind == SK_MIN) && s->argpos >= 0 &&
+        e->argpos_read[e->fn][s->argpos])
+        note_ref(e, s->argpos);
+}
+
 /* Emit statements s[0..n) of one model line and one domain in a single
  * loop nest: a subexpression shared by any of them is computed once per
  * point, into a temporary (the adjoints of one statement often share the
@@ -606,6 +641,11 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     const IrArray *t0 = &ir->arrays.items[s0->target];
     if (t0->role == ROLE_ARGPOS && !e->argpos_read[e->fn][s0->target])
         return;     /* only derivatives read a winner's position */
+    if (e->dry) {
+        for (int g = 0; g < count; g++)
+            note_stmt_refs(e, s[g]);
+        return;
+    }
 
     if (s0->origin.off != e->last_origin) {
         int line, col;
@@ -627,7 +667,7 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     /* with #line directives the group's code goes through a scratch
      * buffer, so that each of its lines can be pointed at the model */
     Buf *out = e->out, code = {0};
-    if (e->opt->line_directives && !e->dry)
+    if (e->opt->line_directives)
         e->out = &code;
     int scalar_init[GROUP_MAX];
     for (int g = 0; g < count; g++)
