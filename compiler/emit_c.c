@@ -69,6 +69,21 @@ static void format_number(char *s, size_t n, double v, int as_float)
         strncat(s, "f", n - strlen(s) - 1);
 }
 
+/* The literal of constant v, from the emitter's slots when it was
+ * written before. */
+static const char *number_text(Emitter *e, double v)
+{
+    uint64_t bits;
+    memcpy(&bits, &v, sizeof bits);
+    NumberText *slot =
+        &e->numbers[((bits * 0x9e3779b97f4a7c15ULL) >> 40) % NUMBER_SLOTS];
+    if (!slot->text[0] || slot->bits != bits) {
+        slot->bits = bits;
+        format_number(slot->text, sizeof slot->text, v, e->opt->real_float);
+    }
+    return slot->text;
+}
+
 /* Copy model text into a C comment: one line, whitespace folded, model
  * comments dropped, and nothing that could end the comment, open another
  * or form a trigraph. */
@@ -175,8 +190,11 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     /* a row-local array has only the current row: its row subscript goes */
     int first = a->row_local;
     if (e->storage.slot[array] < 0 && (a->row_local || ir_array_fixed(a))) {
-        for (int k = first; k < n; k++)
-            buf_printf(e->out, "[%s]", var_name(e, v[k]));
+        for (int k = first; k < n; k++) {
+            buf_put(e->out, "[");
+            buf_put(e->out, var_name(e, v[k]));
+            buf_put(e->out, "]");
+        }
         return;
     }
     /* a flat array (sized input, or kept in work): row-major position in
@@ -200,7 +218,8 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     const Ir *ir = e->ir;
     const IrNode *n = ir_at(ir, id);
     if (e->seen[id] == e->stamp && e->temp[id] > 0) {
-        buf_printf(e->out, DV_PREFIX "t%d", e->temp[id]);
+        buf_put(e->out, DV_PREFIX "t");
+        buf_put_long(e->out, e->temp[id]);
         return;
     }
     const IrOpInfo *info = &ir_ops[n->op];
@@ -212,9 +231,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     switch (info->kind) {
     case OPK_LEAF:
         if (n->op == IR_CONST) {
-            char s[40];
-            format_number(s, sizeof s, n->num, e->opt->real_float);
-            buf_put(e->out, s);
+            buf_put(e->out, number_text(e, n->num));
         } else if (n->op == IR_READ) {
             emit_access(e, n->array, n->tuple);
         } else if (n->op == IR_SIZE) {
@@ -240,7 +257,9 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             break;
         }
         emit_expr(e, n->arg[0], p, n->op);
-        buf_printf(e->out, " %s ", info->c_spelling);
+        buf_put(e->out, " ");
+        buf_put(e->out, info->c_spelling);
+        buf_put(e->out, " ");
         emit_expr(e, n->arg[1], p + 1, n->op);
         break;
     case OPK_SELECT:
@@ -347,8 +366,10 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
     const IrNode *x = ir_at(ir, s->expr);
     switch (s->kind) {
     case SK_SET:
-        if (scalar_init)
-            buf_printf(e->out, "%s ", emit_c_type(e, t));
+        if (scalar_init) {
+            buf_put(e->out, emit_c_type(e, t));
+            buf_put(e->out, " ");
+        }
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, " = ");
         if (t->role == ROLE_ARGPOS)
@@ -552,9 +573,7 @@ static void put_model_lines(Emitter *e, const Buf *code, Span origin)
     source_line_col(e->ir->src, origin.off, &line, &col);
     if (e->back == e->out && e->back_at == e->out->len) {
         /* nothing since the last group's return to C: take it back */
-        e->out->len -= strlen(BACK_TO_C);
-        e->out->data[e->out->len] = '\0';
-        e->out->lines--;
+        buf_unput(e->out, strlen(BACK_TO_C));
     }
     for (size_t at = 0; at < code->len;) {
         const char *nl = memchr(code->data + at, '\n', code->len - at);
@@ -575,6 +594,10 @@ static void put_model_lines(Emitter *e, const Buf *code, Span origin)
 void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
 {
     const char *end = text + len;
+    if (!e->opt->line_directives) {
+        buf_putn(to, text, len);    /* no markers in it */
+        return;
+    }
     while (text < end) {
         const char *mark = memchr(text, '\001', (size_t)(end - text));
         if (!mark) {
@@ -583,7 +606,7 @@ void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
         }
         buf_putn(to, text, (size_t)(mark - text));
         /* the directive names the number of the line after it */
-        buf_printf(to, "#line %zu ", to->lines + 2);
+        buf_printf(to, "#line %zu ", buf_lines(to) + 2);
         put_string(to, e->opt->source_name);
         buf_put(to, "\n");
         text = mark + strlen(BACK_TO_C);
@@ -658,8 +681,12 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
             buf_printf(e->out, "/* %s:%d: %s */\n", e->opt->model_file,
                        line, s0->note);
         } else {
-            buf_printf(e->out, "/* %s%s:%d: ", origin_label,
-                       e->opt->model_file, line);
+            buf_put(e->out, "/* ");
+            buf_put(e->out, origin_label);
+            buf_put(e->out, e->opt->model_file);
+            buf_put(e->out, ":");
+            buf_put_long(e->out, line);
+            buf_put(e->out, ": ");
             put_model_text(e->out, ir->src, s0->origin);
             buf_put(e->out, " */\n");
         }

@@ -12,6 +12,14 @@ typedef enum Function {
     FN_VALUE, FN_GRADIENT, FN_TANGENT, FN_HESSVEC, FN_HESSIAN, FN_COUNT
 } Function;
 
+/* A constant's C literal as last written (finding the shortest form
+ * takes several printf and strtod calls, and models repeat constants). */
+typedef struct NumberText {
+    uint64_t bits;      /* the double's bit pattern */
+    char text[40];      /* its literal; empty: the slot is unused */
+} NumberText;
+#define NUMBER_SLOTS 256
+
 typedef struct Emitter {
     const Ir *ir;
     const EmitOptions *opt;
@@ -55,6 +63,7 @@ typedef struct Emitter {
     Buf part_body;      /* the current part's statements */
     Buf *back;          /* with #line: where the last return to the C file */
     size_t back_at;     /* was written, and the length after it */
+    NumberText numbers[NUMBER_SLOTS];  /* recent constants, by bit pattern */
 } Emitter;
 
 /* emit_c.c */
