@@ -217,9 +217,9 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
 {
     const Ir *ir = e->ir;
     const IrNode *n = ir_at(ir, id);
-    if (e->seen[id] == e->stamp && e->temp[id] > 0) {
+    if (e->node[id].seen == e->stamp && e->node[id].temp > 0) {
         buf_put(e->out, DV_PREFIX "t");
-        buf_put_long(e->out, e->temp[id]);
+        buf_put_long(e->out, e->node[id].temp);
         return;
     }
     const IrOpInfo *info = &ir_ops[n->op];
@@ -295,13 +295,13 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
  * each node of its expression. */
 static void count_uses(Emitter *e, NodeId id)
 {
-    if (e->seen[id] == e->stamp) {
-        e->uses[id]++;
+    if (e->node[id].seen == e->stamp) {
+        e->node[id].uses++;
         return;
     }
-    e->seen[id] = e->stamp;
-    e->uses[id] = 1;
-    e->temp[id] = 0;
+    e->node[id].seen = e->stamp;
+    e->node[id].uses = 1;
+    e->node[id].temp = 0;
     const IrNode *n = ir_at(e->ir, id);
     for (int i = 0; i < n->nargs; i++)
         count_uses(e, n->arg[i]);
@@ -313,32 +313,32 @@ static void count_uses(Emitter *e, NodeId id)
  * how many were written; visits are stamped in e->visit. */
 static int hoist(Emitter *e, NodeId id, int depth)
 {
-    if (e->visit[id] == e->visit_stamp)
+    if (e->node[id].visit == e->visit_stamp)
         return 0;
-    e->visit[id] = e->visit_stamp;
+    e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     int written = 0;
     for (int i = 0; i < n->nargs; i++)
         written += hoist(e, n->arg[i], depth);
-    if (e->uses[id] < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
+    if (e->node[id].uses < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
     buf_printf(e->out, "%s " DV_PREFIX "t%d = ", emit_real_type(e->opt),
                e->ntemps + 1);
     emit_expr(e, id, 0, -1);
     buf_put(e->out, ";\n");
-    e->temp[id] = ++e->ntemps;
+    e->node[id].temp = ++e->ntemps;
     return written + 1;
 }
 
 /* Whether the statement has a subexpression worth a temporary. */
 static int has_shared(Emitter *e, NodeId id)
 {
-    if (e->visit[id] == e->visit_stamp)
+    if (e->node[id].visit == e->visit_stamp)
         return 0;
-    e->visit[id] = e->visit_stamp;
+    e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
-    if (e->uses[id] >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
+    if (e->node[id].uses >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
         return 1;
     for (int i = 0; i < n->nargs; i++)
         if (has_shared(e, n->arg[i]))
@@ -627,9 +627,9 @@ static void note_ref(Emitter *e, int32_t array)
 
 static void note_expr_refs(Emitter *e, NodeId id)
 {
-    if (e->visit[id] == e->visit_stamp)
+    if (e->node[id].visit == e->visit_stamp)
         return;
-    e->visit[id] = e->visit_stamp;
+    e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     if (n->op == IR_READ)
         note_ref(e, n->array);
@@ -1269,14 +1269,10 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
 
     e.declared = calloc((size_t)ir->arrays.len + 1, 1);
     char *reached = calloc((size_t)ir->nodes.len + 1, 1);
-    e.seen = calloc((size_t)ir->nodes.len + 1, sizeof *e.seen);
-    e.uses = calloc((size_t)ir->nodes.len + 1, sizeof *e.uses);
-    e.temp = calloc((size_t)ir->nodes.len + 1, sizeof *e.temp);
-    e.visit = calloc((size_t)ir->nodes.len + 1, sizeof *e.visit);
+    e.node = calloc((size_t)ir->nodes.len + 1, sizeof *e.node);
     e.ref_part = calloc((size_t)ir->arrays.len + 1, sizeof *e.ref_part);
     e.framed = calloc((size_t)ir->arrays.len + 1, 1);
-    if (!e.declared || !reached || !e.seen || !e.uses || !e.temp ||
-        !e.visit || !e.ref_part || !e.framed)
+    if (!e.declared || !reached || !e.node || !e.ref_part || !e.framed)
         exit(3);
     /* what each function reads: the runtime helpers of the emitted ones
      * are copied, and winners found where they are read */
@@ -1326,10 +1322,7 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     }
     free(e.declared);
     free(reached);
-    free(e.seen);
-    free(e.uses);
-    free(e.temp);
-    free(e.visit);
+    free(e.node);
     free(e.ref_part);
     free(e.framed);
     buf_free(&e.part_body);

@@ -20,6 +20,15 @@ typedef struct NumberText {
 } NumberText;
 #define NUMBER_SLOTS 256
 
+/* What the emitter notes of one node, together so that a visit touches
+ * one place in memory. */
+typedef struct NodeMarks {
+    int seen;           /* the statement count when last seen */
+    int uses;           /* parent edges within the statement */
+    int temp;           /* its temporary's number, or 0 */
+    int visit;          /* visit_stamp when last visited */
+} NodeMarks;
+
 typedef struct Emitter {
     const Ir *ir;
     const EmitOptions *opt;
@@ -39,11 +48,8 @@ typedef struct Emitter {
     uint32_t last_origin;
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
-    int *seen;          /* per node: the statement count when last seen */
-    int *uses;          /* per node: parent edges within the statement */
-    int *temp;          /* per node: its temporary's number, or 0 */
+    NodeMarks *node;    /* per node */
     int stamp;          /* statements emitted so far */
-    int *visit;         /* per node: visit_stamp when last visited */
     int visit_stamp;
     int ntemps;         /* temporaries named so far in the function */
     /* row by row: inside a row block, the row var of the statement being
