@@ -75,8 +75,9 @@ static const char *number_text(Emitter *e, double v)
 {
     uint64_t bits;
     memcpy(&bits, &v, sizeof bits);
-    NumberText *slot =
-        &e->numbers[((bits * 0x9e3779b97f4a7c15ULL) >> 40) % NUMBER_SLOTS];
+    /* the top bits of the product depend on every bit of the double */
+    NumberText *slot = &e->numbers[(bits * 0x9e3779b97f4a7c15ULL) >>
+                                   (64 - NUMBER_SLOT_BITS)];
     if (!slot->text[0] || slot->bits != bits) {
         slot->bits = bits;
         format_number(slot->text, sizeof slot->text, v, e->opt->real_float);

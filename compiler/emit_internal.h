@@ -18,7 +18,8 @@ typedef struct NumberText {
     uint64_t bits;      /* the double's bit pattern */
     char text[40];      /* its literal; empty: the slot is unused */
 } NumberText;
-#define NUMBER_SLOTS 256
+#define NUMBER_SLOT_BITS 8
+#define NUMBER_SLOTS (1 << NUMBER_SLOT_BITS)
 
 /* What the emitter notes of one node, together so that a visit touches
  * one place in memory. */
