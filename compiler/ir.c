@@ -88,24 +88,33 @@ static uint32_t node_tag(const IrNode *n)
     return (uint32_t)(node_key(n) >> 32);
 }
 
+static void put_entry(uint64_t *t, uint32_t mask, uint64_t entry)
+{
+    uint32_t slot = (uint32_t)(entry >> 32) & mask;
+    while (t[slot])
+        slot = (slot + 1) & mask;
+    t[slot] = entry;
+}
+
 /* (Re)build the node table at most three quarters full (probes are
- * cheap: the hashes in the entries spare reading nodes); it may have
- * been dropped (node_hash NULL) once the passes that make nodes were
- * done. */
+ * cheap: the hashes in the entries spare reading nodes).  A growing table
+ * moves its entries in slot order, so the new one is written almost in
+ * order; one that was dropped (node_hash NULL, once the passes that make
+ * nodes were done) is made again from the nodes. */
 static void rehash_nodes(Ir *ir)
 {
     int cap = ir->node_hash_cap ? 2 * ir->node_hash_cap : 1024;
     while (3 * (size_t)cap < 4 * (size_t)(ir->nodes.len + 1))
         cap *= 2;
-    uint64_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);
-    memset(t, 0, (size_t)cap * sizeof *t);
+    uint64_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);  /* 0s */
     uint32_t mask = (uint32_t)cap - 1;
-    for (int id = 0; id < ir->nodes.len; id++) {
-        uint32_t h = node_tag(&ir->nodes.items[id]);
-        uint32_t slot = h & mask;
-        while (t[slot])
-            slot = (slot + 1) & mask;
-        t[slot] = node_entry(h, id);
+    if (ir->node_hash) {
+        for (int i = 0; i < ir->node_hash_cap; i++)
+            if (ir->node_hash[i])
+                put_entry(t, mask, ir->node_hash[i]);
+    } else {
+        for (int id = 0; id < ir->nodes.len; id++)
+            put_entry(t, mask, node_entry(node_tag(&ir->nodes.items[id]), id));
     }
     arena_release(ir->arena, ir->node_hash,
                   (size_t)ir->node_hash_cap * sizeof *t);
