@@ -88,13 +88,17 @@ static const char *number_text(Emitter *e, double v)
 /* Copy model text into a C comment: one line, whitespace folded, model
  * comments dropped, and nothing that could end the comment, open another
  * or form a trigraph. */
+#define SHOWN_MAX 160    /* characters of model text shown */
+
 static void put_model_text(Buf *b, const Source *src, Span span)
 {
     const char *t = src->text + span.off;
     size_t n = span.len, shown = 0;
+    char text[2 * SHOWN_MAX];  /* each shown character, a space before it */
+    size_t len = 0;
     int space = 0;
     char last = ' ';
-    for (size_t i = 0; i < n && shown < 160; i++) {
+    for (size_t i = 0; i < n && shown < SHOWN_MAX; i++) {
         char c = t[i];
         if (c == '#') {
             while (i + 1 < n && t[i + 1] != '\n')
@@ -111,13 +115,14 @@ static void put_model_text(Buf *b, const Source *src, Span span)
          * or "??" (a trigraph start) */
         if ((space && shown) || (last == '*' && c == '/') ||
             (last == '/' && c == '*') || (last == '?' && c == '?'))
-            buf_put(b, " ");
+            text[len++] = ' ';
         space = 0;
-        buf_putn(b, &c, 1);
+        text[len++] = c;
         last = c;
         shown++;
     }
-    if (shown >= 160)
+    buf_putn(b, text, len);
+    if (shown >= SHOWN_MAX)
         buf_put(b, " ...");
 }
 
