@@ -29,29 +29,50 @@ static void pass_on(Buf *b, const char *s, size_t len)
         b->failed = 1;
 }
 
+static size_t count_lines(const char *s, size_t n)
+{
+    size_t lines = 0;
+    for (const char *p = s, *end = s + n;
+         (p = memchr(p, '\n', (size_t)(end - p))) != NULL; p++)
+        lines++;
+    return lines;
+}
+
+size_t buf_lines(Buf *b)
+{
+    b->lines += count_lines(b->data + b->counted, b->len - b->counted);
+    b->counted = b->len;
+    return b->lines;
+}
+
+void buf_unput(Buf *b, size_t n)
+{
+    size_t len = b->len - n;
+    if (b->counted > len) {
+        b->lines -= count_lines(b->data + len, b->counted - len);
+        b->counted = len;
+    }
+    b->len = len;
+    b->data[len] = '\0';
+}
+
 int buf_flush(Buf *b)
 {
     if (b->sink && b->len > 0) {
+        buf_lines(b);
         pass_on(b, b->data, b->len);
-        b->len = 0;
+        b->len = b->counted = 0;
         b->data[0] = '\0';
     }
     return b->failed ? -1 : 0;
 }
 
-static void count_lines(Buf *b, const char *s, size_t n)
-{
-    for (const char *p = s, *end = s + n;
-         (p = memchr(p, '\n', (size_t)(end - p))) != NULL; p++)
-        b->lines++;
-}
-
 void buf_putn(Buf *b, const char *s, size_t n)
 {
-    count_lines(b, s, n);
     if (b->sink && b->len + n > BUF_FLUSH_AT) {
         buf_flush(b);
         if (n > BUF_FLUSH_AT) {
+            b->lines += count_lines(s, n);
             pass_on(b, s, n);       /* too long to be worth a copy */
             return;
         }
@@ -65,6 +86,19 @@ void buf_putn(Buf *b, const char *s, size_t n)
 void buf_put(Buf *b, const char *s)
 {
     buf_putn(b, s, strlen(s));
+}
+
+void buf_put_long(Buf *b, long v)
+{
+    char digits[24];
+    size_t at = sizeof digits;
+    unsigned long u = v < 0 ? 0UL - (unsigned long)v : (unsigned long)v;
+    do
+        digits[--at] = (char)('0' + u % 10);
+    while ((u /= 10) != 0);
+    if (v < 0)
+        digits[--at] = '-';
+    buf_putn(b, digits + at, sizeof digits - at);
 }
 
 void buf_printf(Buf *b, const char *fmt, ...)
@@ -84,7 +118,6 @@ void buf_printf(Buf *b, const char *fmt, ...)
         vsnprintf(b->data + b->len, (size_t)n + 1, fmt, ap);
         va_end(ap);
     }
-    count_lines(b, b->data + b->len, (size_t)n);
     b->len += (size_t)n;
     if (b->sink && b->len > BUF_FLUSH_AT)
         buf_flush(b);
@@ -94,5 +127,5 @@ void buf_free(Buf *b)
 {
     free(b->data);
     b->data = NULL;
-    b->len = b->cap = b->lines = 0;
+    b->len = b->cap = b->lines = b->counted = 0;
 }

@@ -13,7 +13,9 @@ typedef struct Buf {
     char *data;         /* NUL-terminated once anything is written; with a
                            sink, only the text not yet passed on */
     size_t len, cap;
-    size_t lines;       /* newlines written so far (passed on or held) */
+    size_t lines;       /* newlines in the text before data + counted
+                           (passed on or held); see buf_lines */
+    size_t counted;
     BufSink sink;       /* NULL: the Buf keeps all its text */
     void *target;       /* the sink's first argument */
     int failed;         /* the sink failed: further text is dropped */
@@ -24,11 +26,18 @@ typedef struct Buf {
 
 void buf_put(Buf *b, const char *s);
 void buf_putn(Buf *b, const char *s, size_t n);
+/* v in decimal, as "%ld" writes it (but without printf's cost). */
+void buf_put_long(Buf *b, long v);
 void buf_printf(Buf *b, const char *fmt, ...)
 #if defined(__GNUC__)
     __attribute__((format(printf, 2, 3)))
 #endif
     ;
+/* The newlines written so far, passed on or held (counted only when
+ * asked for or passed on, so writing text does not scan it). */
+size_t buf_lines(Buf *b);
+/* Drop the last n bytes of the held text. */
+void buf_unput(Buf *b, size_t n);
 /* Pass all held text to the sink (if any); returns -1 if the sink has
  * failed, now or before, else 0. */
 int buf_flush(Buf *b);

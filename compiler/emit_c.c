@@ -78,16 +78,36 @@ static void format_number(char *s, size_t n, double v, int as_float)
         strncat(s, "f", n - strlen(s) - 1);
 }
 
+/* The literal of constant v, from the emitter's slots when it was
+ * written before. */
+static const char *number_text(Emitter *e, double v)
+{
+    uint64_t bits;
+    memcpy(&bits, &v, sizeof bits);
+    /* the top bits of the product depend on every bit of the double */
+    NumberText *slot = &e->numbers[(bits * 0x9e3779b97f4a7c15ULL) >>
+                                   (64 - NUMBER_SLOT_BITS)];
+    if (!slot->text[0] || slot->bits != bits) {
+        slot->bits = bits;
+        format_number(slot->text, sizeof slot->text, v, e->opt->real_float);
+    }
+    return slot->text;
+}
+
 /* Copy model text into a C comment: one line, whitespace folded, model
  * comments dropped, and nothing that could end the comment, open another
  * or form a trigraph. */
+#define SHOWN_MAX 160    /* characters of model text shown */
+
 static void put_model_text(Buf *b, const Source *src, Span span)
 {
     const char *t = src->text + span.off;
     size_t n = span.len, shown = 0;
+    char text[2 * SHOWN_MAX];  /* each shown character, a space before it */
+    size_t len = 0;
     int space = 0;
     char last = ' ';
-    for (size_t i = 0; i < n && shown < 160; i++) {
+    for (size_t i = 0; i < n && shown < SHOWN_MAX; i++) {
         char c = t[i];
         if (c == '#') {
             while (i + 1 < n && t[i + 1] != '\n')
@@ -104,13 +124,14 @@ static void put_model_text(Buf *b, const Source *src, Span span)
          * or "??" (a trigraph start) */
         if ((space && shown) || (last == '*' && c == '/') ||
             (last == '/' && c == '*') || (last == '?' && c == '?'))
-            buf_put(b, " ");
+            text[len++] = ' ';
         space = 0;
-        buf_putn(b, &c, 1);
+        text[len++] = c;
         last = c;
         shown++;
     }
-    if (shown >= 160)
+    buf_putn(b, text, len);
+    if (shown >= SHOWN_MAX)
         buf_put(b, " ...");
 }
 
@@ -162,10 +183,6 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     if (home != HOME_LOCAL) {
         buf_printf(e->out, DV_PREFIX "%s->", emit_home_name(home));
         EMIT_USE(e, home);
-    } else if (e->dry) {
-        if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
-            e->framed[array] = 1;
-        e->ref_part[array] = e->part;
     } else if (e->parted && e->framed[array]) {
         buf_put(e->out, e->part ? DV_PREFIX "f->" : DV_PREFIX "frame.");
         e->uses_frame = 1;
@@ -176,8 +193,11 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     /* a row-local array has only the current row: its row subscript goes */
     int first = a->row_local;
     if (e->storage.slot[array] < 0 && (a->row_local || ir_array_fixed(a))) {
-        for (int k = first; k < n; k++)
-            buf_printf(e->out, "[%s]", var_name(e, v[k]));
+        for (int k = first; k < n; k++) {
+            buf_put(e->out, "[");
+            buf_put(e->out, var_name(e, v[k]));
+            buf_put(e->out, "]");
+        }
         return;
     }
     /* a flat array (sized input, or kept in work): row-major position in
@@ -200,8 +220,9 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
 {
     const Ir *ir = e->ir;
     const IrNode *n = ir_at(ir, id);
-    if (e->seen[id] == e->stamp && e->temp[id] > 0) {
-        buf_printf(e->out, DV_PREFIX "t%d", e->temp[id]);
+    if (e->node[id].seen == e->stamp && e->node[id].temp > 0) {
+        buf_put(e->out, DV_PREFIX "t");
+        buf_put_long(e->out, e->node[id].temp);
         return;
     }
     const IrOpInfo *info = &ir_ops[n->op];
@@ -213,9 +234,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     switch (info->kind) {
     case OPK_LEAF:
         if (n->op == IR_CONST) {
-            char s[40];
-            format_number(s, sizeof s, n->num, e->opt->real_float);
-            buf_put(e->out, s);
+            buf_put(e->out, number_text(e, n->num));
         } else if (n->op == IR_READ) {
             emit_access(e, n->array, n->tuple);
         } else if (n->op == IR_SIZE) {
@@ -241,7 +260,9 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             break;
         }
         emit_expr(e, n->arg[0], p, n->op);
-        buf_printf(e->out, " %s ", info->c_spelling);
+        buf_put(e->out, " ");
+        buf_put(e->out, info->c_spelling);
+        buf_put(e->out, " ");
         emit_expr(e, n->arg[1], p + 1, n->op);
         break;
     case OPK_SELECT:
@@ -277,13 +298,13 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
  * each node of its expression. */
 static void count_uses(Emitter *e, NodeId id)
 {
-    if (e->seen[id] == e->stamp) {
-        e->uses[id]++;
+    if (e->node[id].seen == e->stamp) {
+        e->node[id].uses++;
         return;
     }
-    e->seen[id] = e->stamp;
-    e->uses[id] = 1;
-    e->temp[id] = 0;
+    e->node[id].seen = e->stamp;
+    e->node[id].uses = 1;
+    e->node[id].temp = 0;
     const IrNode *n = ir_at(e->ir, id);
     for (int i = 0; i < n->nargs; i++)
         count_uses(e, n->arg[i]);
@@ -295,32 +316,32 @@ static void count_uses(Emitter *e, NodeId id)
  * how many were written; visits are stamped in e->visit. */
 static int hoist(Emitter *e, NodeId id, int depth)
 {
-    if (e->visit[id] == e->visit_stamp)
+    if (e->node[id].visit == e->visit_stamp)
         return 0;
-    e->visit[id] = e->visit_stamp;
+    e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     int written = 0;
     for (int i = 0; i < n->nargs; i++)
         written += hoist(e, n->arg[i], depth);
-    if (e->uses[id] < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
+    if (e->node[id].uses < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
     buf_printf(e->out, "%s " DV_PREFIX "t%d = ", emit_real_type(e->opt),
                e->ntemps + 1);
     emit_expr(e, id, 0, -1);
     buf_put(e->out, ";\n");
-    e->temp[id] = ++e->ntemps;
+    e->node[id].temp = ++e->ntemps;
     return written + 1;
 }
 
 /* Whether the statement has a subexpression worth a temporary. */
 static int has_shared(Emitter *e, NodeId id)
 {
-    if (e->visit[id] == e->visit_stamp)
+    if (e->node[id].visit == e->visit_stamp)
         return 0;
-    e->visit[id] = e->visit_stamp;
+    e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
-    if (e->uses[id] >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
+    if (e->node[id].uses >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
         return 1;
     for (int i = 0; i < n->nargs; i++)
         if (has_shared(e, n->arg[i]))
@@ -348,8 +369,10 @@ static void emit_body(Emitter *e, const IrStmt *s, int depth, int scalar_init)
     const IrNode *x = ir_at(ir, s->expr);
     switch (s->kind) {
     case SK_SET:
-        if (scalar_init)
-            buf_printf(e->out, "%s ", emit_c_type(e, t));
+        if (scalar_init) {
+            buf_put(e->out, emit_c_type(e, t));
+            buf_put(e->out, " ");
+        }
         emit_access(e, s->target, s->tuple);
         buf_put(e->out, " = ");
         if (t->role == ROLE_ARGPOS)
@@ -553,9 +576,7 @@ static void put_model_lines(Emitter *e, const Buf *code, Span origin)
     source_line_col(e->ir->src, origin.off, &line, &col);
     if (e->back == e->out && e->back_at == e->out->len) {
         /* nothing since the last group's return to C: take it back */
-        e->out->len -= strlen(BACK_TO_C);
-        e->out->data[e->out->len] = '\0';
-        e->out->lines--;
+        buf_unput(e->out, strlen(BACK_TO_C));
     }
     for (size_t at = 0; at < code->len;) {
         const char *nl = memchr(code->data + at, '\n', code->len - at);
@@ -576,6 +597,10 @@ static void put_model_lines(Emitter *e, const Buf *code, Span origin)
 void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
 {
     const char *end = text + len;
+    if (!e->opt->line_directives) {
+        buf_putn(to, text, len);    /* no markers in it */
+        return;
+    }
     while (text < end) {
         const char *mark = memchr(text, '\001', (size_t)(end - text));
         if (!mark) {
@@ -584,11 +609,50 @@ void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
         }
         buf_putn(to, text, (size_t)(mark - text));
         /* the directive names the number of the line after it */
-        buf_printf(to, "#line %zu ", to->lines + 2);
+        buf_printf(to, "#line %zu ", buf_lines(to) + 2);
         put_string(to, e->opt->source_name);
         buf_put(to, "\n");
         text = mark + strlen(BACK_TO_C);
     }
+}
+
+/* The dry run of a function in parts (emit_plan_frame) notes each local
+ * array a part refers to; an array two parts refer to goes in the frame. */
+static void note_ref(Emitter *e, int32_t array)
+{
+    const IrArray *a = &e->ir->arrays.items[array];
+    if (a->role == ROLE_INPUT || ir_home(e->ir, a) != HOME_LOCAL)
+        return;
+    if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
+        e->framed[array] = 1;
+    e->ref_part[array] = e->part;
+}
+
+static void note_expr_refs(Emitter *e, NodeId id)
+{
+    if (e->node[id].visit == e->visit_stamp)
+        return;
+    e->node[id].visit = e->visit_stamp;
+    const IrNode *n = ir_at(e->ir, id);
+    if (n->op == IR_READ)
+        note_ref(e, n->array);
+    for (int i = 0; i < n->nargs; i++)
+        note_expr_refs(e, n->arg[i]);
+}
+
+/* The arrays emit_body would write s with: its target, what its
+ * expression reads (inline or in temporaries), and a winner's position. */
+static void note_stmt_refs(Emitter *e, const IrStmt *s)
+{
+    note_ref(e, s->target);
+    if (s->kind == SK_SET &&
+        e->ir->arrays.items[s->target].role == ROLE_ARGPOS)
+        return;     /* written as 0, reads nothing */
+    e->visit_stamp++;
+    note_expr_refs(e, s->expr);
+    if ((s->kind == SK_MAX || s->kind == SK_MIN) && s->argpos >= 0 &&
+        e->argpos_read[e->fn][s->argpos])
+        note_ref(e, s->argpos);
 }
 
 /* Emit statements s[0..n) of one model line and one domain in a single
@@ -603,6 +667,11 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     const IrArray *t0 = &ir->arrays.items[s0->target];
     if (t0->role == ROLE_ARGPOS && !e->argpos_read[e->fn][s0->target])
         return;     /* only derivatives read a winner's position */
+    if (e->dry) {
+        for (int g = 0; g < count; g++)
+            note_stmt_refs(e, s[g]);
+        return;
+    }
 
     if (s0->origin.off != e->last_origin) {
         int line, col;
@@ -615,8 +684,12 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
             buf_printf(e->out, "/* %s:%d: %s */\n", e->opt->model_file,
                        line, s0->note);
         } else {
-            buf_printf(e->out, "/* %s%s:%d: ", origin_label,
-                       e->opt->model_file, line);
+            buf_put(e->out, "/* ");
+            buf_put(e->out, origin_label);
+            buf_put(e->out, e->opt->model_file);
+            buf_put(e->out, ":");
+            buf_put_long(e->out, line);
+            buf_put(e->out, ": ");
             put_model_text(e->out, ir->src, s0->origin);
             buf_put(e->out, " */\n");
         }
@@ -624,7 +697,7 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     /* with #line directives the group's code goes through a scratch
      * buffer, so that each of its lines can be pointed at the model */
     Buf *out = e->out, code = {0};
-    if (e->opt->line_directives && !e->dry)
+    if (e->opt->line_directives)
         e->out = &code;
     int scalar_init[GROUP_MAX];
     for (int g = 0; g < count; g++)
@@ -1166,14 +1239,10 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
 
     e.declared = calloc((size_t)ir->arrays.len + 1, 1);
     char *reached = calloc((size_t)ir->nodes.len + 1, 1);
-    e.seen = calloc((size_t)ir->nodes.len + 1, sizeof *e.seen);
-    e.uses = calloc((size_t)ir->nodes.len + 1, sizeof *e.uses);
-    e.temp = calloc((size_t)ir->nodes.len + 1, sizeof *e.temp);
-    e.visit = calloc((size_t)ir->nodes.len + 1, sizeof *e.visit);
+    e.node = calloc((size_t)ir->nodes.len + 1, sizeof *e.node);
     e.ref_part = calloc((size_t)ir->arrays.len + 1, sizeof *e.ref_part);
     e.framed = calloc((size_t)ir->arrays.len + 1, 1);
-    if (!e.declared || !reached || !e.seen || !e.uses || !e.temp ||
-        !e.visit || !e.ref_part || !e.framed)
+    if (!e.declared || !reached || !e.node || !e.ref_part || !e.framed)
         exit(3);
     /* what each function reads: the runtime helpers of the emitted ones
      * are copied, and winners found where they are read */
@@ -1233,10 +1302,7 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
         free(e.argpos_read[fn]);
     free(e.declared);
     free(reached);
-    free(e.seen);
-    free(e.uses);
-    free(e.temp);
-    free(e.visit);
+    free(e.node);
     free(e.ref_part);
     free(e.framed);
     buf_free(&e.part_body);

@@ -17,6 +17,24 @@ typedef enum Function {
 /* The most struct pointers a function takes (p, in, and three more). */
 #define EMIT_MAX_ARGS 5
 
+/* A constant's C literal as last written (finding the shortest form
+ * takes several printf and strtod calls, and models repeat constants). */
+typedef struct NumberText {
+    uint64_t bits;      /* the double's bit pattern */
+    char text[40];      /* its literal; empty: the slot is unused */
+} NumberText;
+#define NUMBER_SLOT_BITS 8
+#define NUMBER_SLOTS (1 << NUMBER_SLOT_BITS)
+
+/* What the emitter notes of one node, together so that a visit touches
+ * one place in memory. */
+typedef struct NodeMarks {
+    int seen;           /* the statement count when last seen */
+    int uses;           /* parent edges within the statement */
+    int temp;           /* its temporary's number, or 0 */
+    int visit;          /* visit_stamp when last visited */
+} NodeMarks;
+
 typedef struct Emitter {
     const Ir *ir;
     const EmitOptions *opt;
@@ -39,11 +57,8 @@ typedef struct Emitter {
     uint32_t last_origin;
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
-    int *seen;          /* per node: the statement count when last seen */
-    int *uses;          /* per node: parent edges within the statement */
-    int *temp;          /* per node: its temporary's number, or 0 */
+    NodeMarks *node;    /* per node */
     int stamp;          /* statements emitted so far */
-    int *visit;         /* per node: visit_stamp when last visited */
     int visit_stamp;
     int ntemps;         /* temporaries named so far in the function */
     /* row by row: inside a row block, the row var of the statement being
@@ -63,6 +78,7 @@ typedef struct Emitter {
     Buf part_body;      /* the current part's statements */
     Buf *back;          /* with #line: where the last return to the C file */
     size_t back_at;     /* was written, and the length after it */
+    NumberText numbers[NUMBER_SLOTS];  /* recent constants, by bit pattern */
 } Emitter;
 
 /* emit_c.c */

@@ -77,22 +77,45 @@ static int node_equal(const IrNode *a, const IrNode *b)
            memcmp(&a->num, &b->num, sizeof a->num) == 0;
 }
 
-/* (Re)build the node table at most half full; it may have been dropped
- * (node_hash NULL) once the passes that make nodes were done. */
+/* A node table entry: id + 1 in the low half, the hash in the high half
+ * (whose low bits also pick the first slot). */
+static uint64_t node_entry(uint32_t hash, NodeId id)
+{
+    return (uint64_t)hash << 32 | (uint32_t)(id + 1);
+}
+
+static uint32_t node_tag(const IrNode *n)
+{
+    return (uint32_t)(node_key(n) >> 32);
+}
+
+static void put_entry(uint64_t *t, uint32_t mask, uint64_t entry)
+{
+    uint32_t slot = (uint32_t)(entry >> 32) & mask;
+    while (t[slot])
+        slot = (slot + 1) & mask;
+    t[slot] = entry;
+}
+
+/* (Re)build the node table at most three quarters full (probes are
+ * cheap: the hashes in the entries spare reading nodes).  A growing table
+ * moves its entries in slot order, so the new one is written almost in
+ * order; one that was dropped (node_hash NULL, once the passes that make
+ * nodes were done) is made again from the nodes. */
 static void rehash_nodes(Ir *ir)
 {
     int cap = ir->node_hash_cap ? 2 * ir->node_hash_cap : 1024;
-    while (cap < 2 * (ir->nodes.len + 1))
+    while (3 * (size_t)cap < 4 * (size_t)(ir->nodes.len + 1))
         cap *= 2;
-    int32_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);
-    for (int i = 0; i < cap; i++)
-        t[i] = -1;
-    for (int id = 0; id < ir->nodes.len; id++) {
-        uint64_t h = node_key(&ir->nodes.items[id]);
-        int slot = (int)(h & (uint64_t)(cap - 1));
-        while (t[slot] >= 0)
-            slot = (slot + 1) & (cap - 1);
-        t[slot] = id;
+    uint64_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);  /* 0s */
+    uint32_t mask = (uint32_t)cap - 1;
+    if (ir->node_hash) {
+        for (int i = 0; i < ir->node_hash_cap; i++)
+            if (ir->node_hash[i])
+                put_entry(t, mask, ir->node_hash[i]);
+    } else {
+        for (int id = 0; id < ir->nodes.len; id++)
+            put_entry(t, mask, node_entry(node_tag(&ir->nodes.items[id]), id));
     }
     arena_release(ir->arena, ir->node_hash,
                   (size_t)ir->node_hash_cap * sizeof *t);
@@ -127,21 +150,22 @@ static void grow_nodes(Ir *ir, int in_place)
 
 static NodeId intern(Ir *ir, const IrNode *n)
 {
-    if (2 * (ir->nodes.len + 1) > ir->node_hash_cap)
+    if (4 * (size_t)(ir->nodes.len + 1) > 3 * (size_t)ir->node_hash_cap)
         rehash_nodes(ir);
-    int cap = ir->node_hash_cap;
-    int slot = (int)(node_key(n) & (uint64_t)(cap - 1));
-    while (ir->node_hash[slot] >= 0) {
-        NodeId id = ir->node_hash[slot];
-        if (node_equal(&ir->nodes.items[id], n))
+    uint32_t mask = (uint32_t)ir->node_hash_cap - 1;
+    uint32_t h = node_tag(n), slot = h & mask;
+    for (uint64_t entry; (entry = ir->node_hash[slot]) != 0;
+         slot = (slot + 1) & mask) {
+        NodeId id = (NodeId)(uint32_t)entry - 1;
+        if ((uint32_t)(entry >> 32) == h &&
+            node_equal(&ir->nodes.items[id], n))
             return id;
-        slot = (slot + 1) & (cap - 1);
     }
     NodeId id = ir->nodes.len;
     if (ir->nodes.len == ir->nodes.cap)
         grow_nodes(ir, 0);
     ir->nodes.items[ir->nodes.len++] = *n;
-    ir->node_hash[slot] = id;
+    ir->node_hash[slot] = node_entry(h, id);
     return id;
 }
 

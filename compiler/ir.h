@@ -173,8 +173,10 @@ typedef struct Ir {
     Span output_stmt;           /* the whole output statement */
     /* hash-consing tables, open addressing, sized powers of two; the
      * node table may be dropped (NULL, cap 0) and is then rebuilt when a
-     * node is next made */
-    int32_t *node_hash;
+     * node is next made.  A node entry holds id + 1 (0: empty) in its low
+     * half and the node's hash in its high half, so a probe reads a
+     * node only when the hashes agree */
+    uint64_t *node_hash;
     int node_hash_cap;
     int32_t *tuple_hash;
     int tuple_hash_cap;

@@ -43,10 +43,12 @@ static const char *const c_library[] = {
 };
 static const char *const reductions[] = {"sum", "logsumexp", NULL};
 
+/* (Every defined name is checked: the first letters spare most strcmp
+ * calls.) */
 static int listed(const char *const *list, const char *name)
 {
     for (; *list; list++)
-        if (strcmp(*list, name) == 0)
+        if ((*list)[0] == name[0] && strcmp(*list, name) == 0)
             return 1;
     return 0;
 }
@@ -99,6 +101,7 @@ const char *names_reserved(const char *name, const char *model)
         return "is a name from the C library that the emitted code relies on";
     for (int op = 0; op < IR_OP_COUNT; op++)
         if (ir_ops[op].kind == OPK_CALL &&
+            ir_ops[op].c_spelling[0] == name[0] &&
             strcmp(ir_ops[op].c_spelling, name) == 0)
             return "is a C library function the emitted code calls";
     if (model && exported(name, model))
