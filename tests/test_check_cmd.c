@@ -128,7 +128,9 @@ START_TEST(correct_models_pass)
 END_TEST
 
 /* The tangents of the same models and of every sample agree with their
- * gradients: status 0 and the agreement line last. */
+ * gradients, and the samples' Hessian-vector products with differences of
+ * their gradients: status 0 and the agreement lines last.  The samples
+ * are checked as they stand, at the random point of seed 1. */
 static const char *const samples[] = {
     "samples/arm/arm.dvs", "samples/cooling/cooling.dvs",
     "samples/greeks/greeks.dvs", "samples/kiln/kiln.dvs",
@@ -138,16 +140,47 @@ static const char *const samples[] = {
 
 START_TEST(tangents_agree_with_gradients)
 {
-    char *text = _i < NGOOD ? tu_format("%s", good_models[_i])
-                            : tu_read(samples[_i - NGOOD]);
+    int sample = _i >= NGOOD;
+    char *text = sample ? tu_read(samples[_i - NGOOD])
+                        : tu_format("%s", good_models[_i]);
     ck_assert_ptr_nonnull(text);
     char *out = NULL, *err = NULL;
-    ck_assert_int_eq(run_check(text, NULL, "--emit value,gradient,tangent",
+    ck_assert_int_eq(run_check(text, NULL,
+                               sample ? "--emit value,gradient,tangent,hessvec"
+                                      : "--emit value,gradient,tangent",
                                &out, &err), 0);
+    ck_assert_msg(strstr(out, "\ncheck: the tangent agrees with the gradient "
+                              "(relative difference "), "%s", out);
     char *last = last_line(out);
-    ck_assert_msg(strstr(last, "check: the tangent agrees with the gradient "
-                               "(relative difference ") == last,
+    if (sample)
+        ck_assert_str_eq(last, "check: the Hessian times the direction agrees");
+    else
+        ck_assert_msg(strstr(last, "check: the tangent agrees") == last, "%s",
+                      out);
+    free(last);
+    free(out);
+    free(err);
+    free(text);
+}
+END_TEST
+
+/* The sample whose output is a vector: its adjoint (for a random seed),
+ * its tangent and its Jacobian's rows and columns agree. */
+START_TEST(struct_output_sample_agrees)
+{
+    char *text = tu_read("samples/buoy/buoy.dvs");
+    ck_assert_ptr_nonnull(text);
+    char *out = NULL, *err = NULL;
+    ck_assert_int_eq(run_check(text, NULL, "", &out, &err), 0);
+    ck_assert_str_eq(err, "");
+    ck_assert_msg(strstr(out, "\ncheck: 2 of 2 derivatives agree within "
+                              "tolerance 1e-06\n"), "%s", out);
+    ck_assert_msg(strstr(out, "\ncheck: the tangent agrees with the gradient"),
                   "%s", out);
+    ck_assert_msg(strstr(out, "\nJacobian, 4 x 2: 8 of 8 entries of its rows "
+                              "(reverse sweeps) agree with\n"), "%s", out);
+    char *last = last_line(out);
+    ck_assert_str_eq(last, "check: the Jacobian's rows and columns agree");
     free(last);
     free(out);
     free(err);
@@ -936,6 +969,7 @@ int main(void)
     Suite *s = suite_create("check command");
     TCase *tc = tu_case(s, "check", 60);
     tcase_add_loop_test(tc, correct_models_pass, 0, NGOOD);
+    tcase_add_test(tc, struct_output_sample_agrees);
     tcase_add_loop_test(tc, tangents_agree_with_gradients, 0,
                         NGOOD + (int)(sizeof samples / sizeof samples[0]));
     TU_ADD_TESTS(tc,
