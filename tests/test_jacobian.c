@@ -1,7 +1,9 @@
 /* test_jacobian.c - models whose outputs fill a struct: the emitted value,
  * adjoint, tangent and jacobian functions, compiled with gcc and clang and
- * run, against Jacobians differentiated by hand; the choice of sweeps, the
- * struct's layout, invalid sizes, parts, float, --emit and `dervish check`. */
+ * run, against Jacobians differentiated by hand (two of Moré, Garbow &
+ * Hillstrom's problems in residual form among them); the choice of sweeps,
+ * the struct's layout, invalid sizes, parts, float, --emit and `dervish
+ * check`. */
 #include "testutil.h"
 
 #include <math.h>
@@ -967,6 +969,100 @@ START_TEST(check_struct_outputs)
 }
 END_TEST
 
+/* --------------------------- published problems in residual form */
+
+/* Moré, Garbow & Hillstrom (1981) define their test functions as sums of
+ * squares of residuals f_i(x): here two of them with the residuals as the
+ * outputs, at the paper's standard start x0.  The sum of the squared
+ * outputs must be the published f(x0) (19192 for Wood and 215 for Powell's
+ * singular function, recalled from the paper, and each also follows from
+ * the residuals below by hand), and the Jacobian the hand-differentiated
+ * one.
+ *
+ * Problem 14 (Wood), x0 = (-3, -1, -3, -1): f1 = 10 (x2 - x1^2),
+ * f2 = 1 - x1, f3 = sqrt(90) (x4 - x3^2), f4 = 1 - x3,
+ * f5 = sqrt(10) (x2 + x4 - 2), f6 = (x2 - x4) / sqrt(10); rows of J:
+ * (-20 x1, 10, 0, 0) = (60, 10, 0, 0), (-1, 0, 0, 0),
+ * (0, 0, -2 sqrt(90) x3, sqrt(90)) = (0, 0, 6 sqrt(90), sqrt(90)),
+ * (0, 0, -1, 0), (0, sqrt(10), 0, sqrt(10)),
+ * (0, 1/sqrt(10), 0, -1/sqrt(10)).
+ *
+ * Problem 13 (Powell singular), x0 = (3, -1, 0, 1): f1 = x1 + 10 x2,
+ * f2 = sqrt(5) (x3 - x4), f3 = (x2 - 2 x3)^2, f4 = sqrt(10) (x1 - x4)^2;
+ * rows of J: (1, 10, 0, 0), (0, 0, sqrt(5), -sqrt(5)),
+ * (0, 2 (x2 - 2 x3), -4 (x2 - 2 x3), 0) = (0, -2, 4, 0),
+ * (2 sqrt(10) (x1 - x4), 0, 0, -2 sqrt(10) (x1 - x4))
+ * = (4 sqrt(10), 0, 0, -4 sqrt(10)).  The square roots are written to 17
+ * digits from python3-mpmath at 30 digits. */
+typedef struct Residuals {
+    const char *name, *model, *x0;
+    int nout;
+    double f0;              /* the published sum of squares at x0 */
+    double jac[6][4];
+} Residuals;
+
+static const Residuals mgh[2] = {
+    {"wood",
+     "param x1, x2, x3, x4\n"
+     "f1 = 10 * (x2 - x1^2)\nf2 = 1 - x1\nf3 = sqrt(90) * (x4 - x3^2)\n"
+     "f4 = 1 - x3\nf5 = sqrt(10) * (x2 + x4 - 2)\nf6 = (x2 - x4) / sqrt(10)\n"
+     "output f1, f2, f3, f4, f5, f6\n",
+     "-3, -1, -3, -1", 6, 19192,
+     {{60, 10, 0, 0}, {-1, 0, 0, 0}, {0, 0, 56.920997883030828, 9.4868329805051380},
+      {0, 0, -1, 0}, {0, 3.1622776601683793, 0, 3.1622776601683793},
+      {0, 0.31622776601683793, 0, -0.31622776601683793}}},
+    {"powell",
+     "param x1, x2, x3, x4\n"
+     "f1 = x1 + 10 * x2\nf2 = sqrt(5) * (x3 - x4)\nf3 = (x2 - 2 * x3)^2\n"
+     "f4 = sqrt(10) * (x1 - x4)^2\n"
+     "output f1, f2, f3, f4\n",
+     "3, -1, 0, 1", 4, 215,
+     {{1, 10, 0, 0}, {0, 0, 2.2360679774997897, -2.2360679774997897},
+      {0, -2, 4, 0}, {12.649110640673517, 0, 0, -12.649110640673517}}},
+};
+
+static int mgh_case;
+
+/* The driver prints the sum of the squared outputs, then J row by row. */
+static void check_mgh(const char *cc, const double *v)
+{
+    const Residuals *r = &mgh[mgh_case];
+    expect_near(cc, "sum of squares", 0, v[0], r->f0, 1e-12 * r->f0);
+    for (int i = 0; i < r->nout; i++)
+        for (int k = 0; k < 4; k++)
+            expect_near(cc, "jacobian", 4 * i + k, v[1 + 4 * i + k],
+                        r->jac[i][k], 1e-14 * fabs(r->jac[i][k]));
+}
+
+START_TEST(mgh_residual_jacobians)
+{
+    mgh_case = _i;
+    const Residuals *r = &mgh[_i];
+    char *dir = tu_tmpdir();
+    free(build(dir, r->name, r->model, ""));
+    char *driver = tu_format(
+        "#include \"%s.h\"\n#include <stdio.h>\n"
+        "int main(void)\n{\n"
+        "    %s_param_flat x = {{%s}};\n"
+        "    %s_output_flat f;\n"
+        "    double jac[%d][4], ss = 0;\n"
+        "    %s_jacobian(&x.p, &f.o, jac);\n"
+        "    for (int i = 0; i < %d; i++)\n"
+        "        ss += f.v[i] * f.v[i];\n"
+        "    printf(\"%%.17g\\n\", ss);\n"
+        "    for (int i = 0; i < %d; i++)\n"
+        "        for (int k = 0; k < 4; k++)\n"
+        "            printf(\"%%.17g\\n\", jac[i][k]);\n"
+        "    return 0;\n}\n",
+        r->name, r->name, r->x0, r->name, r->nout, r->name, r->nout, r->nout);
+    tu_write_in(dir, "driver.c", driver);
+    run_driver(dir, r->name, 1 + 4 * r->nout, check_mgh);
+    free(driver);
+    tu_rmdir(dir);
+    free(dir);
+}
+END_TEST
+
 int main(void)
 {
     Suite *s = suite_create("jacobian");
@@ -975,5 +1071,7 @@ int main(void)
                  outputs_copied_read_and_reordered, output_without_params,
                  sized_model_outputs, parts_and_float,
                  emit_kinds_against_outputs, check_struct_outputs);
+    TCase *published = tu_case(s, "published", 60);
+    tcase_add_loop_test(published, mgh_residual_jacobians, 0, 2);
     return tu_main(s);
 }
