@@ -234,8 +234,8 @@ void parse_syntax_error(ParseState *ps, int code, Token tok)
     } else if (prev == TOK_NEWLINE || prev == TOK_SEMI || prev == 0) {
         diag_error(ps->diag, tok.span,
                    "expected a statement (a definition 'name = ...', or "
-                   "model, const, input, param or output), found %s",
-                   found);
+                   "model, const, size, input, param, output, def or use), "
+                   "found %s", found);
     } else if (ends_operand(prev) && starts_operand(code)) {
         diag_error(ps->diag, tok.span,
                    "expected an operator or the end of the statement "

@@ -5,7 +5,7 @@
 # build-fuzz/ and its report printed.  The fuzzer's own log goes to
 # build-fuzz/fuzz.log; a summary line is printed at the end.  An input
 # may take up to 60 s: a statement just under the def expansion limit
-# (10^6 operations) takes some 10 s with every derivative product under
+# (10^5 operations) takes some 10 s with every derivative product under
 # the sanitizers, which is slow but not a hang.
 set -u
 fuzzer=$1

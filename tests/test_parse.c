@@ -418,8 +418,8 @@ START_TEST(missing_operator_and_stray_token_messages)
                  "         ^\n");
     check_errors("+ y\n", 1,
                  "t.dvs:1:1: error: expected a statement (a definition "
-                 "'name = ...', or model, const, input, param or output), "
-                 "found '+'\n"
+                 "'name = ...', or model, const, size, input, param, "
+                 "output, def or use), found '+'\n"
                  "    + y\n"
                  "    ^\n");
 }
