@@ -152,9 +152,26 @@ static int open_temp(int slot, StreamedOutput *f)
     return 0;
 }
 
-/* Write into an existing special file (a device, a pipe) in place. */
+/* Whether path is the regular file our standard output is (`-o
+ * /dev/stdout > log`, or `>> log`): that file is written through the open
+ * descriptor, where the shell put its offset, so appending appends. */
+static int is_stdout_file(const char *path)
+{
+    struct stat st, out;
+    return stat(path, &st) == 0 && S_ISREG(st.st_mode) &&
+           fstat(STDOUT_FILENO, &out) == 0 && out.st_dev == st.st_dev &&
+           out.st_ino == st.st_ino;
+}
+
+/* Write into an existing special file (a device, a pipe, or the file of
+ * our standard output) in place. */
 static int write_special(const StreamedOutput *f)
 {
+    if (is_stdout_file(f->target)) {
+        fflush(stdout);
+        return write_fd(STDOUT_FILENO, f->target, f->text.data,
+                        f->text.len) ? -1 : 0;
+    }
     int fd = open(f->target, O_WRONLY | O_TRUNC);
     if (fd < 0) {
         fprintf(stderr, "dervish: cannot write %s: %s\n", f->target,
@@ -238,7 +255,8 @@ int fileio_open_outputs(StreamedOutput *files, int n)
         if (stat(f->target, &st) == 0 && S_ISDIR(st.st_mode)) {
             fprintf(stderr, "dervish: cannot write %s: it is a directory\n",
                     f->path);
-        } else if (stat(f->target, &st) == 0 && !S_ISREG(st.st_mode)) {
+        } else if (stat(f->target, &st) == 0 &&
+                   (!S_ISREG(st.st_mode) || is_stdout_file(f->target))) {
             continue;           /* special: written in place at the commit */
         } else if (open_temp(i, f) == 0) {
             continue;

@@ -658,6 +658,38 @@ START_TEST(stdout_redirected_to_a_file)
 }
 END_TEST
 
+/* The same with stdout appended to a file (>>): what the file held stays,
+ * and the source follows it, as any program writing to stdout appends;
+ * likewise the make rule of --deps. */
+START_TEST(stdout_appended_to_a_file)
+{
+    char *dir = project();
+    char *link_path = tu_format("%s/out", dir);
+    ck_assert_int_eq(symlink("/proc/self/fd/1", link_path), 0);
+    tu_write_in(dir, "log", "an earlier line\n");
+    char *cmd = tu_format("cd '%s' && " CAP "'%s' build -o out --header m.h "
+                          "m.dvs >> log && " CAP "'%s' build -o m.c --deps "
+                          "out m.dvs >> log", dir, tu_abs_dervish(),
+                          tu_abs_dervish());
+    char *err = NULL;
+    ck_assert_int_eq(tu_run_unhung(cmd, NULL, &err), 0);
+    ck_assert_str_eq(err, "");
+    char *c = reference("out", "m.h", 0);
+    char *want = tu_format("an earlier line\n%sm.c m.h: m.dvs\n", c);
+    char *got = tu_read_in(dir, "log");
+    ck_assert_msg(strncmp(got, want, strlen(want)) == 0,
+                  "the log was not appended to:\n%.300s", got);
+    tu_rmdir(dir);
+    free(dir);
+    free(link_path);
+    free(cmd);
+    free(err);
+    free(c);
+    free(want);
+    free(got);
+}
+END_TEST
+
 /* A model of n chained statements, whose C source is well over the 1 MiB
  * a Buf holds before passing its text on (malloc'd). */
 static char *long_model(int n)
@@ -814,6 +846,7 @@ int main(void)
                  rename_refused, same_file_as_both_outputs,
                  success_replaces_both, stdout_as_the_source,
                  symlink_output_stays_a_link, stdout_redirected_to_a_file,
+                 stdout_appended_to_a_file,
                  long_source_streams_whole,
                  failure_while_streaming_keeps_outputs,
                  deps_failures_keep_outputs, deps_path_refused);
