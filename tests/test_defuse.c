@@ -37,43 +37,6 @@ static void assert_near(double got, double want, double tol, const char *what)
                   "%s: got %.17g, want %.17g", what, got, want);
 }
 
-/* Compile TEXT, read as the file PATH, with the -I directories DIRS;
- * returns the diagnostics printed (malloc'd), *rc the result, and leaves
- * the compilation in *c (release it with dv_free). */
-static char *compile_in(DvCompilation *c, const char *path, const char *text,
-                        const char *const *dirs, int ndirs, int *rc)
-{
-    TuCapture cap;
-    DvOptions opt;
-    memset(&opt, 0, sizeof opt);
-    opt.diag_out = tu_capture_open(&cap);
-    opt.include_dirs = dirs;
-    opt.ninclude = ndirs;
-    *rc = dv_compile(c, path, text, strlen(text), &opt);
-    char *diag = tu_capture_close(&cap);
-    c->diag.out = NULL;
-    return diag;
-}
-
-/* The diagnostics of model TEXT (as t.dvs), which must fail to compile. */
-static char *errors_of(const char *text)
-{
-    DvCompilation c;
-    int rc;
-    char *diag = compile_in(&c, "t.dvs", text, NULL, 0, &rc);
-    ck_assert_msg(rc != 0, "expected errors from:\n%s", text);
-    dv_free(&c);
-    return diag;
-}
-
-static void assert_errors(const char *text, const char *want)
-{
-    char *got = errors_of(text);
-    ck_assert_msg(strcmp(got, want) == 0, "model:\n%s\ngot:\n%s\nwant:\n%s",
-                  text, got, want);
-    free(got);
-}
-
 /* Write TEXT to DIR/NAME, making the directories NAME names on the way. */
 static void put(const char *dir, const char *name, const char *text)
 {
@@ -90,7 +53,8 @@ static void put(const char *dir, const char *name, const char *text)
 
 /* Compile the model file DIR/NAME through the library with -I DIRS
  * (relative to DIR: the test changes into it); returns the diagnostics
- * (malloc'd) and in *rc the result.  The compilation stays in *c. */
+ * printed (malloc'd) and in *rc the result.  The compilation stays in *c
+ * (release it with dv_free). */
 static char *compile_file_in(DvCompilation *c, const char *dir,
                              const char *name, const char *const *dirs,
                              int ndirs, int *rc)
@@ -100,7 +64,15 @@ static char *compile_file_in(DvCompilation *c, const char *dir,
     ck_assert_ptr_nonnull(text);
     char *here = getcwd(NULL, 0);
     ck_assert_int_eq(chdir(dir), 0);
-    char *diag = compile_in(c, name, text, dirs, ndirs, rc);
+    TuCapture cap;
+    DvOptions opt;
+    memset(&opt, 0, sizeof opt);
+    opt.diag_out = tu_capture_open(&cap);
+    opt.include_dirs = dirs;
+    opt.ninclude = ndirs;
+    *rc = dv_compile(c, name, text, strlen(text), &opt);
+    char *diag = tu_capture_close(&cap);
+    c->diag.out = NULL;     /* the capture is closed: say nothing more */
     ck_assert_int_eq(chdir(here), 0);
     free(here);
     free(text);
@@ -108,22 +80,82 @@ static char *compile_file_in(DvCompilation *c, const char *dir,
     return diag;
 }
 
-/* The value of model DIR/NAME at a = 1 (its only param), which must
- * compile without a diagnostic, with -I DIRS. */
-static double value_at_one(const char *dir, const char *name,
-                           const char *const *dirs, int ndirs)
+/* The N paths, joined by spaces (malloc'd). */
+static char *joined(const char *const *paths, int n)
 {
+    char *s = tu_format("%s", "");
+    for (int i = 0; i < n; i++) {
+        char *longer = tu_format("%s%s%s", s, i ? " " : "", paths[i]);
+        free(s);
+        s = longer;
+    }
+    return s;
+}
+
+/* A file a case writes before compiling. */
+typedef struct ModelFile {
+    const char *path;           /* relative to the case's directory */
+    const char *text;
+} ModelFile;
+
+/* A model compiled through the library from files written in a fresh
+ * directory, and all that must come of it.  A failing check names the
+ * case. */
+typedef struct CompileCase {
+    const char *name;
+    ModelFile files[4];         /* the model compiled first; the rest after */
+    const char *include[2];     /* -I directories, the unused ones NULL */
+    int status;                 /* dv_compile's result */
+    const char *diag;           /* every diagnostic printed, exactly */
+    const char *read;           /* c.paths, joined; NULL: not checked */
+    double value;               /* of the model at a = 1, when status is 0 */
+} CompileCase;
+
+#define COUNT(array) (sizeof (array) / sizeof (array)[0])
+
+/* Write the files of case K into DIR, which may hold more already,
+ * compile its model there and check every result K names. */
+static void expect_case_in(const char *dir, const CompileCase *k)
+{
+    for (size_t f = 0; f < COUNT(k->files) && k->files[f].path; f++)
+        put(dir, k->files[f].path, k->files[f].text);
+    int ndirs = 0;
+    while (ndirs < (int)COUNT(k->include) && k->include[ndirs])
+        ndirs++;
     DvCompilation c;
     int rc;
-    char *diag = compile_file_in(&c, dir, name, dirs, ndirs, &rc);
-    ck_assert_msg(rc == 0 && diag[0] == '\0', "%s:\n%s", name, diag);
-    Evaluation *ev = eval_new(c.ir);
-    *eval_slot(ev, "a") = 1;
-    double v = eval_value(ev);
-    eval_free(ev);
+    char *diag = compile_file_in(&c, dir, k->files[0].path, k->include, ndirs,
+                                 &rc);
+    ck_assert_msg(rc == k->status, "%s: status %d, want %d:\n%s", k->name,
+                  rc, k->status, diag);
+    ck_assert_msg(strcmp(diag, k->diag) == 0,
+                  "%s: diagnostics\n%s\nwhere\n%s\nwas wanted", k->name, diag,
+                  k->diag);
+    if (k->read) {
+        char *read = joined(c.paths, c.npaths);
+        ck_assert_msg(strcmp(read, k->read) == 0, "%s: read '%s', want '%s'",
+                      k->name, read, k->read);
+        free(read);
+    }
+    if (k->status == 0) {
+        Evaluation *ev = eval_new(c.ir);
+        *eval_slot(ev, "a") = 1;
+        double v = eval_value(ev);
+        ck_assert_msg(v == k->value, "%s: value %.17g at a = 1, want %.17g",
+                      k->name, v, k->value);
+        eval_free(ev);
+    }
     dv_free(&c);
     free(diag);
-    return v;
+}
+
+/* Check case K in a directory of its own. */
+static void expect_case(const CompileCase *k)
+{
+    char *dir = tu_tmpdir();
+    expect_case_in(dir, k);
+    tu_rmdir(dir);
+    free(dir);
 }
 
 /* ------------------------------------------------- values and gradients */
@@ -307,230 +339,203 @@ END_TEST
 
 /* --------------------------------------------------------- diagnostics */
 
-START_TEST(wrong_argument_count_points_at_call_and_def)
-{
-    assert_errors("param a\n"
-                  "def mix(x, y) = x + y\n"
-                  "z = mix(a)\n"
-                  "output z\n",
-                  "t.dvs:3:5: error: 'mix' takes 2 arguments but 1 is given\n"
-                  "    z = mix(a)\n"
-                  "        ^~~~~~\n"
-                  "t.dvs:2:5: note: 'mix' is defined here\n"
-                  "    def mix(x, y) = x + y\n"
-                  "        ^~~\n");
-}
-END_TEST
+/* Defs the resolver refuses, each a model of its own. */
+static const CompileCase def_error_cases[] = {
+    {.name = "wrong_argument_count_points_at_call_and_def",
+     .files = {{"t.dvs", "param a\n"
+                         "def mix(x, y) = x + y\n"
+                         "z = mix(a)\n"
+                         "output z\n"}},
+     .status = 1,
+     .diag = "t.dvs:3:5: error: 'mix' takes 2 arguments but 1 is given\n"
+             "    z = mix(a)\n"
+             "        ^~~~~~\n"
+             "t.dvs:2:5: note: 'mix' is defined here\n"
+             "    def mix(x, y) = x + y\n"
+             "        ^~~\n"},
+    {.name = "direct_recursion",
+     .files = {{"t.dvs", "param a\n"
+                         "def f(x) = 1 + f(x)\n"
+                         "output a\n"}},
+     .status = 1,
+     .diag = "t.dvs:2:16: error: 'f' calls itself (f -> f): a def is "
+             "expanded where it is called, so it cannot be recursive\n"
+             "    def f(x) = 1 + f(x)\n"
+             "                   ^\n"},
+    {.name = "indirect_recursion",
+     .files = {{"t.dvs", "param a\n"
+                         "def f(x) = g(x)\n"
+                         "def g(x) = h(x) * 2\n"
+                         "def h(x) = f(x) + 1\n"
+                         "output a\n"}},
+     .status = 1,
+     .diag = "t.dvs:2:12: error: 'f' calls itself (f -> g -> h -> f): a "
+             "def is expanded where it is called, so it cannot be "
+             "recursive\n"
+             "    def f(x) = g(x)\n"
+             "               ^\n"
+             "t.dvs:4:12: note: 'h' calls 'f' here\n"
+             "    def h(x) = f(x) + 1\n"
+             "               ^\n"},
+    {.name = "unknown_name_in_a_body",
+     .files = {{"t.dvs", "param a\n"
+                         "def f(x) = x * k\n"
+                         "output a\n"}},
+     .status = 1,
+     .diag = "t.dvs:2:16: error: unknown name 'k': define it before "
+             "this line\n"
+             "    def f(x) = x * k\n"
+             "                   ^\n"},
+    {.name = "param_of_the_model_in_a_body",
+     .files = {{"t.dvs", "param a\n"
+                         "def f(x) = x * a\n"
+                         "y = f(2)\n"
+                         "output y\n"}},
+     .status = 1,
+     .diag = "t.dvs:2:16: error: 'a' is a param of the model; a def's "
+             "body may use only its parameters, constants and functions: "
+             "pass 'a' as an argument\n"
+             "    def f(x) = x * a\n"
+             "                   ^\n"
+             "t.dvs:1:7: note: 'a' is defined here\n"
+             "    param a\n"
+             "          ^\n"},
+    {.name = "def_named_as_a_builtin_or_a_c_keyword",
+     .files = {{"t.dvs", "param a\n"
+                         "def tanh(x) = x\n"
+                         "def for(x) = x\n"
+                         "output a\n"}},
+     .status = 1,
+     .diag = "t.dvs:2:5: error: 'tanh' is the name of a builtin "
+             "function; choose another name\n"
+             "    def tanh(x) = x\n"
+             "        ^~~~\n"
+             "t.dvs:3:5: error: 'for' is a C keyword; choose another "
+             "name\n"
+             "    def for(x) = x\n"
+             "        ^~~\n"},
+    {.name = "def_name_defined_again",
+     .files = {{"t.dvs", "param a\n"
+                         "def f(x) = x\n"
+                         "f = a\n"
+                         "output a\n"}},
+     .status = 1,
+     .diag = "t.dvs:3:1: error: 'f' is already defined; every name is "
+             "defined once\n"
+             "    f = a\n"
+             "    ^\n"
+             "t.dvs:2:5: note: 'f' was defined here\n"
+             "    def f(x) = x\n"
+             "        ^\n"},
+};
 
-START_TEST(recursion_direct_and_indirect)
+START_TEST(def_errors)
 {
-    assert_errors("param a\n"
-                  "def f(x) = 1 + f(x)\n"
-                  "output a\n",
-                  "t.dvs:2:16: error: 'f' calls itself (f -> f): a def is "
-                  "expanded where it is called, so it cannot be recursive\n"
-                  "    def f(x) = 1 + f(x)\n"
-                  "                   ^\n");
-    assert_errors("param a\n"
-                  "def f(x) = g(x)\n"
-                  "def g(x) = h(x) * 2\n"
-                  "def h(x) = f(x) + 1\n"
-                  "output a\n",
-                  "t.dvs:2:12: error: 'f' calls itself (f -> g -> h -> f): a "
-                  "def is expanded where it is called, so it cannot be "
-                  "recursive\n"
-                  "    def f(x) = g(x)\n"
-                  "               ^\n"
-                  "t.dvs:4:12: note: 'h' calls 'f' here\n"
-                  "    def h(x) = f(x) + 1\n"
-                  "               ^\n");
-}
-END_TEST
-
-START_TEST(names_a_body_may_not_use)
-{
-    assert_errors("param a\n"
-                  "def f(x) = x * k\n"
-                  "output a\n",
-                  "t.dvs:2:16: error: unknown name 'k': define it before "
-                  "this line\n"
-                  "    def f(x) = x * k\n"
-                  "                   ^\n");
-    assert_errors("param a\n"
-                  "def f(x) = x * a\n"
-                  "y = f(2)\n"
-                  "output y\n",
-                  "t.dvs:2:16: error: 'a' is a param of the model; a def's "
-                  "body may use only its parameters, constants and functions: "
-                  "pass 'a' as an argument\n"
-                  "    def f(x) = x * a\n"
-                  "                   ^\n"
-                  "t.dvs:1:7: note: 'a' is defined here\n"
-                  "    param a\n"
-                  "          ^\n");
-}
-END_TEST
-
-START_TEST(def_names_follow_the_name_rules)
-{
-    assert_errors("param a\n"
-                  "def tanh(x) = x\n"
-                  "def for(x) = x\n"
-                  "output a\n",
-                  "t.dvs:2:5: error: 'tanh' is the name of a builtin "
-                  "function; choose another name\n"
-                  "    def tanh(x) = x\n"
-                  "        ^~~~\n"
-                  "t.dvs:3:5: error: 'for' is a C keyword; choose another "
-                  "name\n"
-                  "    def for(x) = x\n"
-                  "        ^~~\n");
-    assert_errors("param a\n"
-                  "def f(x) = x\n"
-                  "f = a\n"
-                  "output a\n",
-                  "t.dvs:3:1: error: 'f' is already defined; every name is "
-                  "defined once\n"
-                  "    f = a\n"
-                  "    ^\n"
-                  "t.dvs:2:5: note: 'f' was defined here\n"
-                  "    def f(x) = x\n"
-                  "        ^\n");
+    expect_case(&def_error_cases[_i]);
 }
 END_TEST
 
 /* --------------------------------------------------------- used files */
 
-START_TEST(relative_resolution_and_the_files_read)
-{
-    char *dir = tu_tmpdir();
-    put(dir, "models/m.dvs", "use \"lib/k.dvs\"\nparam a\ny = a * K\n"
-                             "output y\n");
-    put(dir, "models/lib/k.dvs", "use \"base.dvs\"\nconst K = 2 * B\n");
-    put(dir, "models/lib/base.dvs", "const B = 3\n");
-    /* a file of the same name beside the model is not the one meant */
-    put(dir, "models/base.dvs", "const B = 100\n");
-    DvCompilation c;
-    int rc;
-    char *diag = compile_file_in(&c, dir, "models/m.dvs", NULL, 0, &rc);
-    ck_assert_msg(rc == 0, "%s", diag);
-    ck_assert_int_eq(c.npaths, 3);
-    ck_assert_str_eq(c.paths[0], "models/m.dvs");
-    ck_assert_str_eq(c.paths[1], "models/lib/k.dvs");
-    ck_assert_str_eq(c.paths[2], "models/lib/base.dvs");
-    dv_free(&c);
-    free(diag);
-    ck_assert(value_at_one(dir, "models/m.dvs", NULL, 0) == 6);
-    tu_rmdir(dir);
-    free(dir);
-}
-END_TEST
-
-START_TEST(search_order_and_missing_files)
-{
-    char *dir = tu_tmpdir();
-    put(dir, "m.dvs", "use \"k.dvs\"\nparam a\ny = a * K\noutput y\n");
-    put(dir, "first/k.dvs", "const K = 1\n");
-    put(dir, "second/k.dvs", "const K = 2\n");
-    const char *both[] = {"first", "second/"}, *reversed[] = {"second", "first"};
-    ck_assert(value_at_one(dir, "m.dvs", both, 2) == 1);
-    ck_assert(value_at_one(dir, "m.dvs", reversed, 2) == 2);
+/* How used files are found and read, each case in a directory of its
+ * own.  The files read are the model's path as given, then each used
+ * file's as found, once each, in the order first read (dervish.h). */
+static const CompileCase use_cases[] = {
+    /* a use is resolved beside the file that says it; a file of the same
+     * name beside the model is not the one meant */
+    {.name = "relative_resolution_and_the_files_read",
+     .files = {{"models/m.dvs", "use \"lib/k.dvs\"\nparam a\ny = a * K\n"
+                                "output y\n"},
+               {"models/lib/k.dvs", "use \"base.dvs\"\nconst K = 2 * B\n"},
+               {"models/lib/base.dvs", "const B = 3\n"},
+               {"models/base.dvs", "const B = 100\n"}},
+     .diag = "",
+     .read = "models/m.dvs models/lib/k.dvs models/lib/base.dvs",
+     .value = 6},
+    /* the -I directories are searched in the order given */
+    {.name = "search_order_first_then_second",
+     .files = {{"m.dvs", "use \"k.dvs\"\nparam a\ny = a * K\noutput y\n"},
+               {"first/k.dvs", "const K = 1\n"},
+               {"second/k.dvs", "const K = 2\n"}},
+     .include = {"first", "second/"},
+     .diag = "",
+     .read = "m.dvs first/k.dvs",
+     .value = 1},
+    {.name = "search_order_second_then_first",
+     .files = {{"m.dvs", "use \"k.dvs\"\nparam a\ny = a * K\noutput y\n"},
+               {"first/k.dvs", "const K = 1\n"},
+               {"second/k.dvs", "const K = 2\n"}},
+     .include = {"second", "first"},
+     .diag = "",
+     .read = "m.dvs second/k.dvs",
+     .value = 2},
     /* beside the model comes before any -I directory */
-    put(dir, "k.dvs", "const K = 3\n");
-    ck_assert(value_at_one(dir, "m.dvs", both, 2) == 3);
+    {.name = "search_order_beside_the_model_first",
+     .files = {{"m.dvs", "use \"k.dvs\"\nparam a\ny = a * K\noutput y\n"},
+               {"first/k.dvs", "const K = 1\n"},
+               {"second/k.dvs", "const K = 2\n"},
+               {"k.dvs", "const K = 3\n"}},
+     .include = {"first", "second/"},
+     .diag = "",
+     .read = "m.dvs k.dvs",
+     .value = 3},
+    {.name = "missing_file_names_every_place_tried",
+     .files = {{"n.dvs", "use \"none.dvs\"\nparam a\ny = a * NONE\n"
+                         "output y\n"},
+               {"first/k.dvs", "const K = 1\n"},
+               {"second/k.dvs", "const K = 2\n"}},
+     .include = {"first", "second/"},
+     .status = 1,
+     .diag = "n.dvs:1:5: error: cannot find 'none.dvs' (tried "
+             "none.dvs, first/none.dvs, second/none.dvs)\n"
+             "    use \"none.dvs\"\n"
+             "        ^~~~~~~~~~\n",
+     .read = "n.dvs"},
+    /* two files that both use a third, and the model that uses it again
+     * by another spelling of its path: it is read once, so its names are
+     * defined once */
+    {.name = "a_file_used_twice_is_read_once",
+     .files = {{"m.dvs", "use \"a.dvs\"\nuse \"b.dvs\"\nuse \"./common.dvs\"\n"
+                         "param a\ny = a * (A + B + C)\noutput y\n"},
+               {"a.dvs", "use \"common.dvs\"\nconst A = C\n"},
+               {"b.dvs", "use \"common.dvs\"\nconst B = 2 * C\n"},
+               {"common.dvs", "const C = 5\n"}},
+     .diag = "",
+     .read = "m.dvs a.dvs common.dvs b.dvs",
+     .value = 20},
+    {.name = "cycle_of_three_files",
+     .files = {{"a.dvs", "use \"lib/b.dvs\"\nparam p\ny = p\noutput y\n"},
+               {"lib/b.dvs", "use \"c.dvs\"\n"},
+               {"lib/c.dvs", "# closes the cycle\nuse \"../a.dvs\"\n"}},
+     .status = 1,
+     .diag = "lib/c.dvs:2:5: error: the files use each other in "
+             "a cycle: a.dvs uses lib/b.dvs uses lib/c.dvs uses "
+             "a.dvs\n"
+             "    use \"../a.dvs\"\n"
+             "        ^~~~~~~~~~\n"},
+    /* messages about a used file name it and its own line numbers, and a
+     * statement a used file may not hold also points at the use */
+    {.name = "messages_name_the_used_file",
+     .files = {{"m.dvs", "param a\nuse \"lib.dvs\"\ny = f(a)\noutput y\n"},
+               {"lib.dvs", "# helpers\ndef f(x) = x * LOST\ninput t\n"}},
+     .status = 1,
+     .diag = "lib.dvs:2:16: error: unknown name 'LOST': define "
+             "it before this line\n"
+             "    def f(x) = x * LOST\n"
+             "                   ^~~~\n"
+             "lib.dvs:3:1: error: a used file may hold only "
+             "const, def and use statements, not 'input'\n"
+             "    input t\n"
+             "    ^~~~~~~\n"
+             "m.dvs:2:5: note: 'lib.dvs' is used here\n"
+             "    use \"lib.dvs\"\n"
+             "        ^~~~~~~~~\n",
+     .read = "m.dvs lib.dvs"},
+};
 
-    put(dir, "n.dvs", "use \"none.dvs\"\nparam a\ny = a * NONE\noutput y\n");
-    DvCompilation c;
-    int rc;
-    char *diag = compile_file_in(&c, dir, "n.dvs", both, 2, &rc);
-    ck_assert_int_eq(rc, 1);
-    ck_assert_str_eq(diag, "n.dvs:1:5: error: cannot find 'none.dvs' (tried "
-                           "none.dvs, first/none.dvs, second/none.dvs)\n"
-                           "    use \"none.dvs\"\n"
-                           "        ^~~~~~~~~~\n");
-    ck_assert_int_eq(c.npaths, 1);
-    dv_free(&c);
-    free(diag);
-    tu_rmdir(dir);
-    free(dir);
-}
-END_TEST
-
-/* Two files that both use a third, and the model that uses it again by
- * another spelling of its path: it is read once, so its names are
- * defined once. */
-START_TEST(a_file_used_twice_is_read_once)
+START_TEST(used_files)
 {
-    char *dir = tu_tmpdir();
-    put(dir, "m.dvs", "use \"a.dvs\"\nuse \"b.dvs\"\nuse \"./common.dvs\"\n"
-                      "param a\ny = a * (A + B + C)\noutput y\n");
-    put(dir, "a.dvs", "use \"common.dvs\"\nconst A = C\n");
-    put(dir, "b.dvs", "use \"common.dvs\"\nconst B = 2 * C\n");
-    put(dir, "common.dvs", "const C = 5\n");
-    DvCompilation c;
-    int rc;
-    char *diag = compile_file_in(&c, dir, "m.dvs", NULL, 0, &rc);
-    ck_assert_msg(rc == 0 && diag[0] == '\0', "%s", diag);
-    ck_assert_int_eq(c.npaths, 4);
-    ck_assert_str_eq(c.paths[1], "a.dvs");
-    ck_assert_str_eq(c.paths[2], "common.dvs");
-    ck_assert_str_eq(c.paths[3], "b.dvs");
-    dv_free(&c);
-    free(diag);
-    ck_assert(value_at_one(dir, "m.dvs", NULL, 0) == 20);
-    tu_rmdir(dir);
-    free(dir);
-}
-END_TEST
-
-START_TEST(cycle_of_three_files)
-{
-    char *dir = tu_tmpdir();
-    put(dir, "a.dvs", "use \"lib/b.dvs\"\nparam p\ny = p\noutput y\n");
-    put(dir, "lib/b.dvs", "use \"c.dvs\"\n");
-    put(dir, "lib/c.dvs", "# closes the cycle\nuse \"../a.dvs\"\n");
-    DvCompilation c;
-    int rc;
-    char *diag = compile_file_in(&c, dir, "a.dvs", NULL, 0, &rc);
-    ck_assert_int_eq(rc, 1);
-    ck_assert_str_eq(diag, "lib/c.dvs:2:5: error: the files use each other in "
-                           "a cycle: a.dvs uses lib/b.dvs uses lib/c.dvs uses "
-                           "a.dvs\n"
-                           "    use \"../a.dvs\"\n"
-                           "        ^~~~~~~~~~\n");
-    dv_free(&c);
-    free(diag);
-    tu_rmdir(dir);
-    free(dir);
-}
-END_TEST
-
-/* Messages about a used file name it and its own line numbers, and a
- * statement a used file may not hold also points at the use. */
-START_TEST(messages_name_the_used_file)
-{
-    char *dir = tu_tmpdir();
-    put(dir, "m.dvs", "param a\nuse \"lib.dvs\"\ny = f(a)\noutput y\n");
-    put(dir, "lib.dvs", "# helpers\ndef f(x) = x * LOST\ninput t\n");
-    DvCompilation c;
-    int rc;
-    char *diag = compile_file_in(&c, dir, "m.dvs", NULL, 0, &rc);
-    ck_assert_int_eq(rc, 1);
-    ck_assert_str_eq(diag, "lib.dvs:2:16: error: unknown name 'LOST': define "
-                           "it before this line\n"
-                           "    def f(x) = x * LOST\n"
-                           "                   ^~~~\n"
-                           "lib.dvs:3:1: error: a used file may hold only "
-                           "const, def and use statements, not 'input'\n"
-                           "    input t\n"
-                           "    ^~~~~~~\n"
-                           "m.dvs:2:5: note: 'lib.dvs' is used here\n"
-                           "    use \"lib.dvs\"\n"
-                           "        ^~~~~~~~~\n");
-    dv_free(&c);
-    free(diag);
-    tu_rmdir(dir);
-    free(dir);
+    expect_case(&use_cases[_i]);
 }
 END_TEST
 
@@ -554,30 +559,36 @@ START_TEST(unreadable_used_file)
 }
 END_TEST
 
-/* A chain of 102 files, each using the next: the 101st use is refused. */
+/* A chain of 102 files, each using the next: the 101st use is refused,
+ * so the model and f1 to f100 are read. */
 START_TEST(nesting_limit)
 {
     char *dir = tu_tmpdir();
-    put(dir, "m.dvs", "use \"f1.dvs\"\nparam a\ny = a\noutput y\n");
+    char *chain[103];           /* chain[k] is fk.dvs; chain[0] the model */
+    chain[0] = tu_format("%s", "m.dvs");
+    for (int k = 1; k <= 102; k++)
+        chain[k] = tu_format("f%d.dvs", k);
     for (int k = 1; k <= 101; k++) {
-        char *name = tu_format("f%d.dvs", k);
-        char *text = tu_format("use \"f%d.dvs\"\n", k + 1);
-        put(dir, name, text);
+        char *text = tu_format("use \"%s\"\n", chain[k + 1]);
+        put(dir, chain[k], text);
         free(text);
-        free(name);
     }
-    put(dir, "f102.dvs", "const DEEP = 1\n");
-    DvCompilation c;
-    int rc;
-    char *diag = compile_file_in(&c, dir, "m.dvs", NULL, 0, &rc);
-    ck_assert_int_eq(rc, 1);
-    ck_assert_str_eq(diag, "f100.dvs:1:5: error: used files nest more than "
-                           "100 deep\n"
-                           "    use \"f101.dvs\"\n"
-                           "        ^~~~~~~~~~\n");
-    ck_assert_int_eq(c.npaths, 101);
-    dv_free(&c);
-    free(diag);
+    put(dir, chain[102], "const DEEP = 1\n");
+    char *read = joined((const char *const *)chain, 101);
+    const CompileCase model = {
+        .name = "nesting_limit",
+        .files = {{"m.dvs", "use \"f1.dvs\"\nparam a\ny = a\noutput y\n"}},
+        .status = 1,
+        .diag = "f100.dvs:1:5: error: used files nest more than "
+                "100 deep\n"
+                "    use \"f101.dvs\"\n"
+                "        ^~~~~~~~~~\n",
+        .read = read,
+    };
+    expect_case_in(dir, &model);
+    for (int k = 0; k <= 102; k++)
+        free(chain[k]);
+    free(read);
     tu_rmdir(dir);
     free(dir);
 }
@@ -639,15 +650,10 @@ int main(void)
     TU_ADD_TESTS(defs, logistic_def_gradient_is_the_closed_form, nested_defs,
                  defs_in_reductions_and_whole_arrays, def_giving_a_condition,
                  defs_in_constants_and_parameters_are_local,
-                 expansion_is_substitution,
-                 wrong_argument_count_points_at_call_and_def,
-                 recursion_direct_and_indirect, names_a_body_may_not_use,
-                 def_names_follow_the_name_rules);
+                 expansion_is_substitution);
+    tcase_add_loop_test(defs, def_errors, 0, (int)COUNT(def_error_cases));
     TCase *uses = tu_case(s, "uses", 60);
-    TU_ADD_TESTS(uses, relative_resolution_and_the_files_read,
-                 search_order_and_missing_files,
-                 a_file_used_twice_is_read_once, cycle_of_three_files,
-                 messages_name_the_used_file, unreadable_used_file,
-                 nesting_limit, include_option);
+    tcase_add_loop_test(uses, used_files, 0, (int)COUNT(use_cases));
+    TU_ADD_TESTS(uses, unreadable_used_file, nesting_limit, include_option);
     return tu_main(s);
 }
