@@ -164,6 +164,31 @@ START_TEST(tangents_agree_with_gradients)
 }
 END_TEST
 
+/* The sample that reads a shared file with 'use' is checked where it
+ * stands, so the file is found: its tangent and Hessian-vector product. */
+START_TEST(sample_with_used_file_agrees)
+{
+    char *model = realpath("samples/arrhenius/arrhenius.dvs", NULL);
+    ck_assert_ptr_nonnull(model);
+    char *dir = tu_tmpdir(), *out = NULL, *err = NULL;
+    int rc = tu_run_dervish(dir, &out, &err, "check --emit value,gradient,"
+                            "tangent,hessvec '%s'", model);
+    ck_assert_msg(rc == 0, "status %d\n%s%s", rc, out, err);
+    ck_assert_msg(strstr(out, "\ncheck: 2 of 2 derivatives agree within "
+                              "tolerance 1e-06\n"), "%s", out);
+    ck_assert_msg(strstr(out, "\ncheck: the tangent agrees with the gradient"),
+                  "%s", out);
+    char *last = last_line(out);
+    ck_assert_str_eq(last, "check: the Hessian times the direction agrees");
+    free(last);
+    free(out);
+    free(err);
+    tu_rmdir(dir);
+    free(dir);
+    free(model);
+}
+END_TEST
+
 /* The sample whose output is a vector: its adjoint (for a random seed),
  * its tangent and its Jacobian's rows and columns agree. */
 START_TEST(struct_output_sample_agrees)
@@ -970,6 +995,7 @@ int main(void)
     TCase *tc = tu_case(s, "check", 60);
     tcase_add_loop_test(tc, correct_models_pass, 0, NGOOD);
     tcase_add_test(tc, struct_output_sample_agrees);
+    tcase_add_test(tc, sample_with_used_file_agrees);
     tcase_add_loop_test(tc, tangents_agree_with_gradients, 0,
                         NGOOD + (int)(sizeof samples / sizeof samples[0]));
     TU_ADD_TESTS(tc,
