@@ -67,19 +67,22 @@ int names_is_identifier(const char *name)
 static int exported(const char *name, const char *model)
 {
     static const char *const suffixes[] = {
-        "_value", "_gradient", "_param", "_input", "_output", "_param_flat",
-        "_work_count", NULL
+        "_value", "_gradient", "_tangent", "_hessvec", "_hessian",
+        "_adjoint", "_jacobian", "_param", "_input", "_output",
+        "_param_flat", "_output_flat", "_work_count", NULL
     };
+    static const char *const counts[] = {"_PARAM_COUNT", "_OUTPUT_COUNT",
+                                         NULL};
     size_t n = strlen(model);
     if (strncmp(name, model, n) == 0 && listed(suffixes, name + n))
         return 1;
-    /* MODEL_PARAM_COUNT in upper case */
-    if (strlen(name) != n + strlen("_PARAM_COUNT"))
+    /* MODEL_PARAM_COUNT and MODEL_OUTPUT_COUNT, the model in upper case */
+    if (strlen(name) < n)
         return 0;
     for (size_t i = 0; i < n; i++)
         if (name[i] != toupper((unsigned char)model[i]))
             return 0;
-    return strcmp(name + n, "_PARAM_COUNT") == 0;
+    return listed(counts, name + n);
 }
 
 const char *names_reserved(const char *name, const char *model)

@@ -576,6 +576,26 @@ START_TEST(reserved_and_repeated_names)
                "emitted code exports; choose another name\n"
                "    kiln_value = a\n"
                "    ^~~~~~~~~~\n");
+    /* every function and type the model may export, whatever --emit */
+    static const char *const exported[] = {
+        "kiln_gradient", "kiln_tangent", "kiln_hessvec", "kiln_hessian",
+        "kiln_adjoint", "kiln_jacobian", "kiln_param", "kiln_input",
+        "kiln_output", "kiln_param_flat", "kiln_output_flat",
+        "kiln_work_count", "KILN_PARAM_COUNT", "KILN_OUTPUT_COUNT"};
+    for (size_t k = 0; k < sizeof exported / sizeof *exported; k++) {
+        char *model = tu_format("model kiln\nparam a\n%s = a\noutput a\n",
+                                exported[k]);
+        Resolved *r = resolve(model);
+        ck_assert_msg(r->errors == 1 && strstr(r->diag, "the name of a symbol "
+                                               "the emitted code exports"),
+                      "%s: %s", exported[k], r->diag);
+        resolved_free(r);
+        free(model);
+    }
+    /* names near them are the model's to use */
+    check_diag("model kiln\nparam a\nkiln_valued = a\nKILN_COUNT = a\n"
+               "kiln_OUTPUT_COUNT = a\noutput kiln_valued, KILN_COUNT, "
+               "kiln_OUTPUT_COUNT\n", 0, 0, "");
 }
 END_TEST
 
