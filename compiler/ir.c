@@ -97,30 +97,82 @@ static void put_entry(uint64_t *t, uint32_t mask, uint64_t entry)
     t[slot] = entry;
 }
 
-/* (Re)build the node table at most three quarters full (probes are
- * cheap: the hashes in the entries spare reading nodes).  A growing table
- * moves its entries in slot order, so the new one is written almost in
- * order; one that was dropped (node_hash NULL, once the passes that make
- * nodes were done) is made again from the nodes. */
-static void rehash_nodes(Ir *ir)
+/* The table that holds n, or would: a node with arguments is kept by its
+ * newest argument, a read by its array, in tables of IR_NODE_GROUP ids
+ * each; other leaves share one table.  Nodes made together mostly have
+ * recent arguments and so use the same few small tables, which stay in
+ * cache, where one table of all nodes would cost a cache miss for nearly
+ * every lookup once it is larger than the cache. */
+static IrNodeTable *table_of(Ir *ir, const IrNode *n)
 {
-    int cap = ir->node_hash_cap ? 2 * ir->node_hash_cap : 1024;
-    while (3 * (size_t)cap < 4 * (size_t)(ir->nodes.len + 1))
-        cap *= 2;
-    uint64_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);  /* 0s */
-    uint32_t mask = (uint32_t)cap - 1;
-    if (ir->node_hash) {
-        for (int i = 0; i < ir->node_hash_cap; i++)
-            if (ir->node_hash[i])
-                put_entry(t, mask, ir->node_hash[i]);
+    IrNodeTables *group;
+    int32_t at;
+    if (n->nargs > 0) {
+        group = &ir->by_arg;
+        at = n->arg[0];
+        for (int i = 1; i < n->nargs; i++)
+            at = n->arg[i] > at ? n->arg[i] : at;
+    } else if (n->op == IR_READ) {
+        group = &ir->by_array;
+        at = n->array;
     } else {
-        for (int id = 0; id < ir->nodes.len; id++)
-            put_entry(t, mask, node_entry(node_tag(&ir->nodes.items[id]), id));
+        return &ir->leaves;
     }
-    arena_release(ir->arena, ir->node_hash,
-                  (size_t)ir->node_hash_cap * sizeof *t);
-    ir->node_hash = t;
-    ir->node_hash_cap = cap;
+    int k = at / IR_NODE_GROUP;
+    while (group->len <= k) {
+        IrNodeTable empty = {NULL, 0, 0};
+        VEC_PUSH(ir->arena, *group, empty);
+    }
+    return &group->items[k];
+}
+
+/* Double a table that would be over three quarters full with one more
+ * entry (tables start at a size the arena gives its own heap chunk, so a
+ * replaced one is freed at once). */
+static void grow_table(Ir *ir, IrNodeTable *t)
+{
+    if (4 * (size_t)(t->len + 1) <= 3 * (size_t)t->cap)
+        return;
+    int cap = t->cap ? 2 * t->cap : (int)(ARENA_LARGE / sizeof *t->slot);
+    uint64_t *slot = arena_alloc(ir->arena, (size_t)cap * sizeof *slot);
+    for (int i = 0; i < t->cap; i++)
+        if (t->slot[i])
+            put_entry(slot, (uint32_t)cap - 1, t->slot[i]);
+    arena_release(ir->arena, t->slot, (size_t)t->cap * sizeof *slot);
+    t->slot = slot;
+    t->cap = cap;
+}
+
+static void free_tables(Ir *ir, IrNodeTables *group)
+{
+    for (int i = 0; i < group->len; i++)
+        arena_release(ir->arena, group->items[i].slot,
+                      (size_t)group->items[i].cap * sizeof(uint64_t));
+    arena_release(ir->arena, group->items,
+                  (size_t)group->cap * sizeof *group->items);
+    group->items = NULL;
+    group->len = group->cap = 0;
+}
+
+void ir_drop_node_tables(Ir *ir)
+{
+    free_tables(ir, &ir->by_arg);
+    free_tables(ir, &ir->by_array);
+    arena_release(ir->arena, ir->leaves.slot,
+                  (size_t)ir->leaves.cap * sizeof *ir->leaves.slot);
+    ir->leaves.slot = NULL;
+    ir->leaves.len = ir->leaves.cap = 0;
+    ir->nodes_tabled = 0;
+}
+
+/* Enter node id, known to be in no table yet, in its table. */
+static void table_put(Ir *ir, NodeId id)
+{
+    const IrNode *n = &ir->nodes.items[id];
+    IrNodeTable *t = table_of(ir, n);
+    grow_table(ir, t);
+    put_entry(t->slot, (uint32_t)t->cap - 1, node_entry(node_tag(n), id));
+    t->len++;
 }
 
 /* The node array is read through pointers while nodes are added (a rule
@@ -150,11 +202,14 @@ static void grow_nodes(Ir *ir, int in_place)
 
 static NodeId intern(Ir *ir, const IrNode *n)
 {
-    if (4 * (size_t)(ir->nodes.len + 1) > 3 * (size_t)ir->node_hash_cap)
-        rehash_nodes(ir);
-    uint32_t mask = (uint32_t)ir->node_hash_cap - 1;
+    /* nodes made while the tables were dropped are entered first */
+    while (ir->nodes_tabled < ir->nodes.len)
+        table_put(ir, ir->nodes_tabled++);
+    IrNodeTable *t = table_of(ir, n);
+    grow_table(ir, t);
+    uint32_t mask = (uint32_t)t->cap - 1;
     uint32_t h = node_tag(n), slot = h & mask;
-    for (uint64_t entry; (entry = ir->node_hash[slot]) != 0;
+    for (uint64_t entry; (entry = t->slot[slot]) != 0;
          slot = (slot + 1) & mask) {
         NodeId id = (NodeId)(uint32_t)entry - 1;
         if ((uint32_t)(entry >> 32) == h &&
@@ -165,7 +220,9 @@ static NodeId intern(Ir *ir, const IrNode *n)
     if (ir->nodes.len == ir->nodes.cap)
         grow_nodes(ir, 0);
     ir->nodes.items[ir->nodes.len++] = *n;
-    ir->node_hash[slot] = node_entry(h, id);
+    t->slot[slot] = node_entry(h, id);
+    t->len++;
+    ir->nodes_tabled++;
     return id;
 }
 

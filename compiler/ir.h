@@ -140,6 +140,14 @@ typedef struct IrStmt {
 
 typedef VEC(IrStmt) IrStmtList;
 
+/* One hash-consing table (see Ir). */
+typedef struct IrNodeTable {
+    uint64_t *slot;
+    int cap, len;
+} IrNodeTable;
+typedef VEC(IrNodeTable) IrNodeTables;
+#define IR_NODE_GROUP 16384
+
 typedef struct Ir {
     Arena *arena;
     const Source *src;
@@ -171,13 +179,18 @@ typedef struct Ir {
     const char *row_plan;       /* why row by row was or was not chosen */
     Span output_span;           /* the output's name in its statement */
     Span output_stmt;           /* the whole output statement */
-    /* hash-consing tables, open addressing, sized powers of two; the
-     * node table may be dropped (NULL, cap 0) and is then rebuilt when a
-     * node is next made.  A node entry holds id + 1 (0: empty) in its low
-     * half and the node's hash in its high half, so a probe reads a
-     * node only when the hashes agree */
-    uint64_t *node_hash;
-    int node_hash_cap;
+    /* hash-consing: open-addressing tables, sized powers of two, of
+     * entries that hold id + 1 (0: empty) in their low half and the
+     * node's hash in their high half, so a probe reads a node only when
+     * the hashes agree.  A node with arguments is in by_arg[newest
+     * argument / IR_NODE_GROUP], a read in by_array[array /
+     * IR_NODE_GROUP], any other leaf in leaves.  The tables hold the first
+     * nodes_tabled nodes; they may be dropped (ir_drop_node_tables), and
+     * the nodes are entered again when a node is next made */
+    IrNodeTables by_arg;
+    IrNodeTables by_array;
+    IrNodeTable leaves;
+    int nodes_tabled;
     int32_t *tuple_hash;
     int tuple_hash_cap;
 } Ir;
@@ -191,6 +204,10 @@ NodeId ir_read(Ir *ir, int32_t array, int32_t tuple);
 NodeId ir_index(Ir *ir, int32_t var);
 NodeId ir_size(Ir *ir, int32_t size);
 NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c);
+
+/* Give back the hash-consing tables (once the passes that make nodes are
+ * done); a node made later enters every node again. */
+void ir_drop_node_tables(Ir *ir);
 
 /* The row-major position of the current point among the REDUCED vars (a
  * tuple), as a max or min statement stores its winner's in its argpos
