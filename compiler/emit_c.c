@@ -162,8 +162,10 @@ static int precedence(const Ir *ir, NodeId id)
 {
     const IrNode *n = ir_at(ir, id);
     switch (n->op) {
-    case IR_CONST: return n->num < 0 || (n->num == 0 && signbit(n->num))
-                              ? PREC_UNARY : PREC_ATOM;
+    case IR_CONST: {
+        double v = ir_const_num(n);
+        return v < 0 || (v == 0 && signbit(v)) ? PREC_UNARY : PREC_ATOM;
+    }
     case IR_NEG: case IR_NOT: return PREC_UNARY;
     case IR_MUL: case IR_DIV: return PREC_MUL;
     case IR_ADD: case IR_SUB: return PREC_ADD;
@@ -234,15 +236,16 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     switch (info->kind) {
     case OPK_LEAF:
         if (n->op == IR_CONST) {
-            buf_put(e->out, number_text(e, n->num));
+            buf_put(e->out, number_text(e, ir_const_num(n)));
         } else if (n->op == IR_READ) {
-            emit_access(e, n->array, n->tuple);
+            emit_access(e, ir_read_array(n), ir_read_tuple(n));
         } else if (n->op == IR_SIZE) {
             buf_printf(e->out, "(%s)" DV_PREFIX "in->%s",
-                       emit_real_type(e->opt), ir->sizes.items[n->var].name);
+                       emit_real_type(e->opt),
+                       ir->sizes.items[ir_leaf_var(n)].name);
             EMIT_USE(e, HOME_IN);
         } else {
-            buf_put(e->out, var_name(e, n->var));
+            buf_put(e->out, var_name(e, ir_leaf_var(n)));
         }
         break;
     case OPK_PREFIX:
@@ -253,7 +256,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             /* -(-x), never --x, which C reads as a decrement */
             const IrNode *a = ir_at(ir, n->arg[0]);
             int sign_first = a->op == IR_NEG ||
-                             (a->op == IR_CONST && signbit(a->num));
+                             (a->op == IR_CONST && signbit(ir_const_num(a)));
             buf_put(e->out, info->c_spelling);
             emit_expr(e, n->arg[0], sign_first ? PREC_ATOM + 1 : PREC_UNARY,
                       n->op);
@@ -495,7 +498,7 @@ static int access_score(const Ir *ir, int32_t tuple, int32_t var)
 static int stride_score(const Ir *ir, NodeId id, int32_t var)
 {
     const IrNode *x = ir_at(ir, id);
-    int score = x->op == IR_READ ? access_score(ir, x->tuple, var) : 0;
+    int score = x->op == IR_READ ? access_score(ir, ir_read_tuple(x), var) : 0;
     for (int i = 0; i < x->nargs; i++)
         score += stride_score(ir, x->arg[i], var);
     return score;
@@ -635,7 +638,7 @@ static void note_expr_refs(Emitter *e, NodeId id)
     e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     if (n->op == IR_READ)
-        note_ref(e, n->array);
+        note_ref(e, ir_read_array(n));
     for (int i = 0; i < n->nargs; i++)
         note_expr_refs(e, n->arg[i]);
 }
@@ -765,7 +768,7 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
 static int reads_array(const Ir *ir, NodeId id, int32_t array)
 {
     const IrNode *n = ir_at(ir, id);
-    if (n->op == IR_READ && n->array == array)
+    if (n->op == IR_READ && ir_read_array(n) == array)
         return 1;
     for (int i = 0; i < n->nargs; i++)
         if (reads_array(ir, n->arg[i], array))
@@ -887,7 +890,7 @@ static void mark_reads(const Ir *ir, NodeId id, char *read)
 {
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ)
-        read[n->array] = 1;
+        read[ir_read_array(n)] = 1;
     for (int i = 0; i < n->nargs; i++)
         mark_reads(ir, n->arg[i], read);
 }
@@ -1024,7 +1027,7 @@ typedef struct OnePass {
 static int reads_marked(const Ir *ir, NodeId id, const char *marked)
 {
     const IrNode *n = ir_at(ir, id);
-    if (n->op == IR_READ && marked[n->array])
+    if (n->op == IR_READ && marked[ir_read_array(n)])
         return 1;
     for (int i = 0; i < n->nargs; i++)
         if (reads_marked(ir, n->arg[i], marked))
@@ -1261,8 +1264,8 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
         for (int i = 0; i < ir->nodes.len; i++) {
             const IrNode *n = &ir->nodes.items[i];
             if (mine[i] && n->op == IR_READ &&
-                ir->arrays.items[n->array].role == ROLE_ARGPOS)
-                e.argpos_read[fn][n->array] = 1;
+                ir->arrays.items[ir_read_array(n)].role == ROLE_ARGPOS)
+                e.argpos_read[fn][ir_read_array(n)] = 1;
             if (opt->emit & (1 << fn))
                 reached[i] |= mine[i];
         }

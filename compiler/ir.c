@@ -55,15 +55,10 @@ static uint64_t finish(uint64_t h)
 
 static uint64_t node_key(const IrNode *n)
 {
-    uint64_t bits;
-    memcpy(&bits, &n->num, sizeof bits);
     uint64_t h = mix(n->op, n->nargs);
     for (int i = 0; i < 3; i++)
         h = mix(h, (uint32_t)n->arg[i]);
-    h = mix(h, (uint32_t)n->array);
-    h = mix(h, (uint32_t)n->tuple);
-    h = mix(h, (uint32_t)n->var);
-    return finish(mix(h, bits));
+    return finish(h);
 }
 
 static int node_equal(const IrNode *a, const IrNode *b)
@@ -72,9 +67,7 @@ static int node_equal(const IrNode *a, const IrNode *b)
      * NaN constant is equal to itself. */
     return a->op == b->op && a->nargs == b->nargs &&
            a->arg[0] == b->arg[0] && a->arg[1] == b->arg[1] &&
-           a->arg[2] == b->arg[2] && a->array == b->array &&
-           a->tuple == b->tuple && a->var == b->var &&
-           memcmp(&a->num, &b->num, sizeof a->num) == 0;
+           a->arg[2] == b->arg[2];
 }
 
 /* A node table entry: id + 1 in the low half, the hash in the high half
@@ -114,7 +107,7 @@ static IrNodeTable *table_of(Ir *ir, const IrNode *n)
             at = n->arg[i] > at ? n->arg[i] : at;
     } else if (n->op == IR_READ) {
         group = &ir->by_array;
-        at = n->array;
+        at = ir_read_array(n);
     } else {
         return &ir->leaves;
     }
@@ -232,36 +225,35 @@ static IrNode blank(IrOp op)
     memset(&n, 0, sizeof n);
     n.op = (uint8_t)op;
     n.arg[0] = n.arg[1] = n.arg[2] = NO_NODE;
-    n.array = n.tuple = n.var = -1;
     return n;
 }
 
 NodeId ir_const(Ir *ir, double num)
 {
     IrNode n = blank(IR_CONST);
-    n.num = num;
+    memcpy(n.arg, &num, sizeof num);
     return intern(ir, &n);
 }
 
 NodeId ir_read(Ir *ir, int32_t array, int32_t tuple)
 {
     IrNode n = blank(IR_READ);
-    n.array = array;
-    n.tuple = tuple;
+    n.arg[0] = array;
+    n.arg[1] = tuple;
     return intern(ir, &n);
 }
 
 NodeId ir_index(Ir *ir, int32_t var)
 {
     IrNode n = blank(IR_INDEX);
-    n.var = var;
+    n.arg[0] = var;
     return intern(ir, &n);
 }
 
 NodeId ir_size(Ir *ir, int32_t size)
 {
     IrNode n = blank(IR_SIZE);
-    n.var = size;
+    n.arg[0] = size;
     return intern(ir, &n);
 }
 
@@ -563,10 +555,10 @@ static void verify_expr(const Ir *ir, NodeId id, int32_t domain, int *seen,
     seen[id] = stamp;
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ) {
-        const IrArray *a = &ir->arrays.items[n->array];
-        if (ir_tuple_len(ir, n->tuple) != a->rank)
+        const IrArray *a = &ir->arrays.items[ir_read_array(n)];
+        if (ir_tuple_len(ir, ir_read_tuple(n)) != a->rank)
             DV_UNREACHABLE();
-        verify_tuple_in(ir, n->tuple, domain);
+        verify_tuple_in(ir, ir_read_tuple(n), domain);
     }
     for (int i = 0; i < n->nargs; i++) {
         if (n->arg[i] >= id)    /* operands are built before their users */
@@ -621,17 +613,17 @@ static void print_expr(const Ir *ir, NodeId id, FILE *out)
     const IrNode *n = ir_at(ir, id);
     switch (n->op) {
     case IR_CONST:
-        fprintf(out, "%.17g", n->num);
+        fprintf(out, "%.17g", ir_const_num(n));
         return;
     case IR_READ:
-        fputs(ir->arrays.items[n->array].name, out);
-        print_tuple(ir, n->tuple, out);
+        fputs(ir->arrays.items[ir_read_array(n)].name, out);
+        print_tuple(ir, ir_read_tuple(n), out);
         return;
     case IR_INDEX:
-        fprintf(out, "#%s", ir->vars.items[n->var].name);
+        fprintf(out, "#%s", ir->vars.items[ir_leaf_var(n)].name);
         return;
     case IR_SIZE:
-        fprintf(out, "%s", ir->sizes.items[n->var].name);
+        fprintf(out, "%s", ir->sizes.items[ir_leaf_var(n)].name);
         return;
     default:
         break;

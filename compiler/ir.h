@@ -13,6 +13,7 @@
 #include "diag.h"
 
 #include <stdint.h>
+#include <string.h>
 
 /* Dimensions of declared arrays (the language's limit) and of any IR array
  * (a reduction's accumulator may also carry enclosing reduction indices). */
@@ -66,15 +67,28 @@ typedef struct IrSize {
     Span span;
 } IrSize;
 
+/* An op and its nargs arguments; the unused ones are NO_NODE.  A leaf
+ * (no arguments) keeps its own operands in arg instead, read through the
+ * accessors below, so a node takes 16 bytes: millions of them are made
+ * and hash-consed, and half the size is half the cache misses. */
 typedef struct IrNode {
     uint8_t op;         /* IrOp */
     uint8_t nargs;
     NodeId arg[3];
-    int32_t array;      /* READ: the array read */
-    int32_t tuple;      /* READ: its subscripts, a tuple of index vars */
-    int32_t var;        /* INDEX: the index var; SIZE: the size */
-    double num;         /* CONST */
 } IrNode;
+
+/* READ: the array read, and its subscripts (a tuple of index vars). */
+static inline int32_t ir_read_array(const IrNode *n) { return n->arg[0]; }
+static inline int32_t ir_read_tuple(const IrNode *n) { return n->arg[1]; }
+/* INDEX: the index var; SIZE: the size. */
+static inline int32_t ir_leaf_var(const IrNode *n) { return n->arg[0]; }
+/* CONST: the number, whose bits fill arg[0] and arg[1]. */
+static inline double ir_const_num(const IrNode *n)
+{
+    double num;
+    memcpy(&num, n->arg, sizeof num);
+    return num;
+}
 
 typedef enum IrRole {
     ROLE_PARAM,         /* differentiated; lives in *p, gradient in *grad */

@@ -877,7 +877,7 @@ static NodeId arith(Resolver *r, IrOp op, NodeId a, NodeId b)
     const IrNode *x = ir_at(r->ir, a);
     const IrNode *y = b == NO_NODE ? NULL : ir_at(r->ir, b);
     if (x->op == IR_CONST && (!y || y->op == IR_CONST) && op != IR_POW) {
-        double v[3] = {x->num, y ? y->num : 0, 0};
+        double v[3] = {ir_const_num(x), y ? ir_const_num(y) : 0, 0};
         return ir_const(r->ir, apply_op(op, v));
     }
     return ir_node(r->ir, op, a, b, NO_NODE);
@@ -891,11 +891,11 @@ static void node_vars(const Ir *ir, NodeId id, int32_t *vars, int *n,
     int32_t found[IR_MAX_RANK + 1];
     int nf = 0;
     if (nd->op == IR_READ) {
-        int len = ir_tuple_len(ir, nd->tuple);
+        int len = ir_tuple_len(ir, ir_read_tuple(nd));
         for (int k = 0; k < len; k++)
-            found[nf++] = ir_tuple_vars(ir, nd->tuple)[k];
+            found[nf++] = ir_tuple_vars(ir, ir_read_tuple(nd))[k];
     } else if (nd->op == IR_INDEX) {
-        found[nf++] = nd->var;
+        found[nf++] = ir_leaf_var(nd);
     }
     for (int i = 0; i < nf; i++) {
         int seen = 0;
@@ -1467,7 +1467,7 @@ static int reads_marked(const Ir *ir, NodeId id, const char *varied)
 {
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ)
-        return varied[n->array];
+        return varied[ir_read_array(n)];
     for (int k = 0; k < n->nargs; k++)
         if (reads_marked(ir, n->arg[k], varied))
             return 1;
@@ -1518,7 +1518,7 @@ static void prune(Resolver *r)
         while (stack.len > 0) {
             const IrNode *n = ir_at(ir, stack.items[--stack.len]);
             if (n->op == IR_READ)
-                ir->arrays.items[n->array].used = 1;
+                ir->arrays.items[ir_read_array(n)].used = 1;
             for (int k = 0; k < n->nargs; k++)
                 VEC_PUSH(r->arena, stack, n->arg[k]);
         }
