@@ -83,11 +83,6 @@ void buf_putn(Buf *b, const char *s, size_t n)
     b->data[b->len] = '\0';
 }
 
-void buf_put(Buf *b, const char *s)
-{
-    buf_putn(b, s, strlen(s));
-}
-
 void buf_put_long(Buf *b, long v)
 {
     char digits[24];

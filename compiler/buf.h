@@ -5,6 +5,7 @@
 #define DERVISH_BUF_H
 
 #include <stddef.h>
+#include <string.h>
 
 /* Takes len bytes of text; returns 0, or -1 after reporting why. */
 typedef int (*BufSink)(void *target, const char *data, size_t len);
@@ -24,8 +25,12 @@ typedef struct Buf {
 /* Text held beyond this many bytes goes to the sink. */
 #define BUF_FLUSH_AT ((size_t)1 << 20)
 
-void buf_put(Buf *b, const char *s);
 void buf_putn(Buf *b, const char *s, size_t n);
+/* Inline, so the length of a literal is known when compiling. */
+static inline void buf_put(Buf *b, const char *s)
+{
+    buf_putn(b, s, strlen(s));
+}
 /* v in decimal, as "%ld" writes it (but without printf's cost). */
 void buf_put_long(Buf *b, long v);
 void buf_printf(Buf *b, const char *fmt, ...)

@@ -109,12 +109,20 @@ static void put_model_text(Buf *b, const Source *src, Span span)
     char last = ' ';
     for (size_t i = 0; i < n && shown < SHOWN_MAX; i++) {
         char c = t[i];
+        /* most characters are printable and pair with nothing */
+        if (!space && c > ' ' && c < 0x7f && c != '#' && c != '\\' &&
+            c != '*' && c != '/' && c != '?') {
+            text[len++] = c;
+            last = c;
+            shown++;
+            continue;
+        }
         if (c == '#') {
             while (i + 1 < n && t[i + 1] != '\n')
                 i++;
             continue;
         }
-        if (isspace((unsigned char)c) || (unsigned char)c < 0x20) {
+        if (c == ' ' || (unsigned char)c < 0x20) {   /* spaces, controls */
             space = 1;
             continue;
         }
@@ -183,7 +191,9 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     const IrArray *a = &e->ir->arrays.items[array];
     IrHome home = ir_home(e->ir, a);
     if (home != HOME_LOCAL) {
-        buf_printf(e->out, DV_PREFIX "%s->", emit_home_name(home));
+        buf_put(e->out, DV_PREFIX);
+        buf_put(e->out, emit_home_name(home));
+        buf_put(e->out, "->");
         EMIT_USE(e, home);
     } else if (e->parted && e->framed[array]) {
         buf_put(e->out, e->part ? DV_PREFIX "f->" : DV_PREFIX "frame.");
@@ -329,8 +339,10 @@ static int hoist(Emitter *e, NodeId id, int depth)
     if (e->node[id].uses < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
-    buf_printf(e->out, "%s " DV_PREFIX "t%d = ", emit_real_type(e->opt),
-               e->ntemps + 1);
+    buf_put(e->out, emit_real_type(e->opt));
+    buf_put(e->out, " " DV_PREFIX "t");
+    buf_put_long(e->out, e->ntemps + 1);
+    buf_put(e->out, " = ");
     emit_expr(e, id, 0, -1);
     buf_put(e->out, ";\n");
     e->node[id].temp = ++e->ntemps;
@@ -1256,8 +1268,12 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     memcpy(e.lists, lists, sizeof lists);
     for (int fn = 0; fn < FN_COUNT; fn++) {
         e.argpos_read[fn] = calloc((size_t)ir->arrays.len + 1, 1);
+        if (!e.argpos_read[fn])
+            exit(3);
+        if (!(opt->emit & (1 << fn)))
+            continue;   /* only a function being written reads its flags */
         char *mine = calloc((size_t)ir->nodes.len + 1, 1);
-        if (!e.argpos_read[fn] || !mine)
+        if (!mine)
             exit(3);
         for (int l = 0; l < 2 && lists[fn][l]; l++)
             ir_mark_reached(ir, lists[fn][l], mine);
@@ -1266,8 +1282,7 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
             if (mine[i] && n->op == IR_READ &&
                 ir->arrays.items[ir_read_array(n)].role == ROLE_ARGPOS)
                 e.argpos_read[fn][ir_read_array(n)] = 1;
-            if (opt->emit & (1 << fn))
-                reached[i] |= mine[i];
+            reached[i] |= mine[i];
         }
         free(mine);
     }

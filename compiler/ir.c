@@ -119,13 +119,16 @@ static IrNodeTable *table_of(Ir *ir, const IrNode *n)
     return &group->items[k];
 }
 
-/* Double a table that would be over three quarters full with one more
- * entry (tables start at a size the arena gives its own heap chunk, so a
- * replaced one is freed at once). */
+/* Whether one more entry would fill the table over three quarters. */
+static int table_full(const IrNodeTable *t)
+{
+    return 4 * (size_t)(t->len + 1) > 3 * (size_t)t->cap;
+}
+
+/* Double a table (tables start at a size the arena gives its own heap
+ * chunk, so a replaced one is freed at once). */
 static void grow_table(Ir *ir, IrNodeTable *t)
 {
-    if (4 * (size_t)(t->len + 1) <= 3 * (size_t)t->cap)
-        return;
     int cap = t->cap ? 2 * t->cap : (int)(ARENA_LARGE / sizeof *t->slot);
     uint64_t *slot = arena_alloc(ir->arena, (size_t)cap * sizeof *slot);
     for (int i = 0; i < t->cap; i++)
@@ -163,7 +166,8 @@ static void table_put(Ir *ir, NodeId id)
 {
     const IrNode *n = &ir->nodes.items[id];
     IrNodeTable *t = table_of(ir, n);
-    grow_table(ir, t);
+    if (table_full(t))
+        grow_table(ir, t);
     put_entry(t->slot, (uint32_t)t->cap - 1, node_entry(node_tag(n), id));
     t->len++;
 }
@@ -199,7 +203,8 @@ static NodeId intern(Ir *ir, const IrNode *n)
     while (ir->nodes_tabled < ir->nodes.len)
         table_put(ir, ir->nodes_tabled++);
     IrNodeTable *t = table_of(ir, n);
-    grow_table(ir, t);
+    if (table_full(t))
+        grow_table(ir, t);
     uint32_t mask = (uint32_t)t->cap - 1;
     uint32_t h = node_tag(n), slot = h & mask;
     for (uint64_t entry; (entry = t->slot[slot]) != 0;
