@@ -35,22 +35,58 @@
 
 /* ------------------------------------------------------------ symbols */
 
-static uint32_t hash_name(const char *s)
+/* A name's hash, and the slot its probes start from (before masking). */
+typedef struct NameKey {
+    uint32_t hash;
+    uint32_t home;
+} NameKey;
+
+/* MurmurHash3's 32-bit finalizer. */
+static uint32_t spread(uint32_t h)
 {
-    uint32_t h = 2166136261u;
-    for (; *s; s++)
-        h = (h ^ (unsigned char)*s) * 16777619u;
-    return h;
+    h ^= h >> 16;
+    h *= 0x85ebca6bu;
+    h ^= h >> 13;
+    h *= 0xc2b2ae35u;
+    return h ^ (h >> 16);
+}
+
+/* Names that differ only in a trailing number (s1, s2, ... as generated
+ * models have them) get neighbouring home slots, 16 numbers to a block
+ * placed by a hash of the rest, so consecutive definitions share a few
+ * cache lines of the table instead of taking a random slot each.  Other
+ * names start anywhere. */
+static NameKey name_key(const char *s)
+{
+    uint32_t h = 2166136261u, stem = h, num = 0;
+    int digits = 0;
+    for (; *s; s++) {
+        unsigned char c = (unsigned char)*s;
+        h = (h ^ c) * 16777619u;
+        digits = c >= '0' && c <= '9';
+        if (digits) {
+            num = num * 10 + (uint32_t)(c - '0');
+        } else {
+            stem = h;
+            num = 0;
+        }
+    }
+    NameKey k;
+    k.hash = h;
+    k.home = spread(h);
+    if (digits)
+        k.home = spread(stem ^ (num >> 4) * 0x9e3779b1u) << 4 | (num & 15);
+    return k;
 }
 
 Symbol *rs_table_find(const SymTable *t, const char *name)
 {
     if (!t->cap)
         return NULL;
-    uint32_t h = hash_name(name);
-    uint32_t i = h & (uint32_t)(t->cap - 1);
+    NameKey k = name_key(name);
+    uint32_t i = k.home & (uint32_t)(t->cap - 1);
     while (t->items[i].name) {
-        if (t->items[i].hash == h && strcmp(t->items[i].name, name) == 0)
+        if (t->items[i].hash == k.hash && strcmp(t->items[i].name, name) == 0)
             return &t->items[i];
         i = (i + 1) & (uint32_t)(t->cap - 1);
     }
@@ -72,12 +108,12 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
                               old.items[i].span) = old.items[i];
         arena_release(arena, old.items, (size_t)old.cap * sizeof *old.items);
     }
-    uint32_t h = hash_name(name);
-    uint32_t i = h & (uint32_t)(t->cap - 1);
+    NameKey k = name_key(name);
+    uint32_t i = k.home & (uint32_t)(t->cap - 1);
     while (t->items[i].name)
         i = (i + 1) & (uint32_t)(t->cap - 1);
     t->items[i].name = name;
-    t->items[i].hash = h;
+    t->items[i].hash = k.hash;
     t->items[i].span = span;
     t->len++;
     return &t->items[i];
