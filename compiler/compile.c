@@ -130,7 +130,7 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
         plan_jacobian(c, ir);
     /* the passes that make nodes are done: give the node tables back */
     ir_drop_node_tables(ir);
-    ir_verify(ir);
+    ir_verify_derived(ir);
     c->ir = ir;
     return 0;
 }

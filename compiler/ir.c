@@ -587,18 +587,30 @@ static void verify_list(const Ir *ir, const IrStmtList *list, int *seen,
     }
 }
 
-void ir_verify(const Ir *ir)
+static void verify_lists(const Ir *ir, const IrStmtList *const *lists,
+                         int n)
 {
     int *seen = calloc((size_t)ir->nodes.len + 1, sizeof *seen);
     int stamp = 0;
     if (!seen)
         DV_UNREACHABLE();
-    verify_list(ir, &ir->forward, seen, &stamp);
-    verify_list(ir, &ir->reverse, seen, &stamp);
-    verify_list(ir, &ir->tangent, seen, &stamp);
-    verify_list(ir, &ir->hv_forward, seen, &stamp);
-    verify_list(ir, &ir->hv_reverse, seen, &stamp);
+    for (int i = 0; i < n; i++)
+        verify_list(ir, lists[i], seen, &stamp);
     free(seen);
+}
+
+void ir_verify(const Ir *ir)
+{
+    const IrStmtList *lists[] = {&ir->forward, &ir->reverse, &ir->tangent,
+                                 &ir->hv_forward, &ir->hv_reverse};
+    verify_lists(ir, lists, 5);
+}
+
+void ir_verify_derived(const Ir *ir)
+{
+    const IrStmtList *lists[] = {&ir->reverse, &ir->tangent,
+                                 &ir->hv_forward, &ir->hv_reverse};
+    verify_lists(ir, lists, 4);
 }
 
 static void print_tuple(const Ir *ir, int32_t tuple, FILE *out)

@@ -292,6 +292,9 @@ long ir_work(const Ir *ir, const IrStmtList *list);
 
 /* Check the IR's invariants; reports a fault and aborts when one fails. */
 void ir_verify(const Ir *ir);
+/* The same for the lists the passes after resolve make, all but the
+ * forward statements (which those passes only reorder). */
+void ir_verify_derived(const Ir *ir);
 
 /* Print the IR in a readable text form (for --dump and tests). */
 void ir_print(const Ir *ir, FILE *out);
