@@ -160,7 +160,7 @@ typedef struct IrNodeTable {
     int cap, len;
 } IrNodeTable;
 typedef VEC(IrNodeTable) IrNodeTables;
-#define IR_NODE_GROUP 16384
+#define IR_NODE_GROUP 2048
 
 typedef struct Ir {
     Arena *arena;
