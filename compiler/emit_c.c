@@ -689,8 +689,8 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     }
 
     if (s0->origin.off != e->last_origin) {
-        int line, col;
-        source_line_col(ir->src, s0->origin.off, &line, &col);
+        int line = source_line_near(ir->src, s0->origin.off, e->last_line);
+        e->last_line = line;
         if (e->last_origin != UINT32_MAX)
             buf_put(e->out, "\n");
         e->last_origin = s0->origin.off;

@@ -55,6 +55,7 @@ typedef struct Emitter {
                                to the caller's struct of that home */
     int uses_frame;
     uint32_t last_origin;
+    int last_line;      /* its line, where the next look-up starts */
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
     NodeMarks *node;    /* per node */
