@@ -308,19 +308,22 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
 /* --------------------------------------------------------- statements */
 
 /* Count, for the statement being emitted, how many parent edges reach
- * each node of its expression. */
-static void count_uses(Emitter *e, NodeId id)
+ * each node of its expression.  Returns whether this made some node a
+ * shared subexpression worth a temporary (used twice, not a leaf, not a
+ * condition). */
+static int count_uses(Emitter *e, NodeId id)
 {
-    if (e->node[id].seen == e->stamp) {
-        e->node[id].uses++;
-        return;
-    }
+    if (e->node[id].seen == e->stamp)
+        return ++e->node[id].uses == 2 && ir_at(e->ir, id)->nargs > 0 &&
+               !ir_is_condition(e->ir, id);
     e->node[id].seen = e->stamp;
     e->node[id].uses = 1;
     e->node[id].temp = 0;
     const IrNode *n = ir_at(e->ir, id);
+    int shared = 0;
     for (int i = 0; i < n->nargs; i++)
-        count_uses(e, n->arg[i]);
+        shared |= count_uses(e, n->arg[i]);
+    return shared;
 }
 
 /* A subexpression used more than once in a statement is computed once,
@@ -347,21 +350,6 @@ static int hoist(Emitter *e, NodeId id, int depth)
     buf_put(e->out, ";\n");
     e->node[id].temp = ++e->ntemps;
     return written + 1;
-}
-
-/* Whether the statement has a subexpression worth a temporary. */
-static int has_shared(Emitter *e, NodeId id)
-{
-    if (e->node[id].visit == e->visit_stamp)
-        return 0;
-    e->node[id].visit = e->visit_stamp;
-    const IrNode *n = ir_at(e->ir, id);
-    if (e->node[id].uses >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
-        return 1;
-    for (int i = 0; i < n->nargs; i++)
-        if (has_shared(e, n->arg[i]))
-            return 1;
-    return 0;
 }
 
 int emit_is_external(const IrArray *a, const Ir *ir)
@@ -722,12 +710,9 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
      * subexpressions one for their temporaries; the loops then get braces
      * so the block reads as the loop body */
     e->stamp++;
-    for (int g = 0; g < count; g++)
-        count_uses(e, shown_expr(ir, s[g]));
-    e->visit_stamp++;
     int shared = 0;
     for (int g = 0; g < count; g++)
-        shared |= has_shared(e, shown_expr(ir, s[g]));
+        shared |= count_uses(e, shown_expr(ir, s[g]));
     int n = ir_tuple_len(ir, s0->domain);
     /* outside loops the temporaries simply precede the statement (their
      * names are unique in the function) */
