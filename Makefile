@@ -24,7 +24,7 @@ WARN    := -std=c99 -Wall -Wextra -Wpedantic -Wshadow -Wstrict-prototypes \
            -Wmissing-prototypes
 CFLAGS  ?= -O2 -g
 LDFLAGS ?=
-LDLIBS  := -lm
+LDLIBS  := -lm -pthread
 
 ifeq ($(SANITIZE),1)
 B := build-san
@@ -141,7 +141,7 @@ fuzz: build-fuzz/fuzz_compile
 
 build-fuzz/fuzz_compile: $(LIB_SRCS) $(wildcard compiler/*.h) fuzz/fuzz_compile.c \
                          build-fuzz/lexer.c build-fuzz/parser.c build-fuzz/runtime_text.c
-	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer -o $@ $(FUZZ_SRCS) -lm
+	$(FUZZ_CC) $(FUZZ_FLAGS) -fsanitize=fuzzer -o $@ $(FUZZ_SRCS) -lm -pthread
 
 build-fuzz/parser.c build-fuzz/parser.h: grammar/parser.y
 	@mkdir -p build-fuzz

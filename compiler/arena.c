@@ -210,12 +210,16 @@ char *arena_strndup(Arena *a, const char *s, size_t n)
 
 char *arena_printf(Arena *a, const char *fmt, ...)
 {
+    /* most texts are short: format once into the stack, copy that */
+    char small[256];
     va_list ap;
     va_start(ap, fmt);
-    int n = vsnprintf(NULL, 0, fmt, ap);
+    int n = vsnprintf(small, sizeof small, fmt, ap);
     va_end(ap);
     if (n < 0)
         n = 0;
+    if ((size_t)n < sizeof small)
+        return arena_strndup(a, small, (size_t)n);
     char *p = string_room(a, (size_t)n + 1);
     va_start(ap, fmt);
     vsnprintf(p, (size_t)n + 1, fmt, ap);

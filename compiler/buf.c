@@ -67,7 +67,7 @@ int buf_flush(Buf *b)
     return b->failed ? -1 : 0;
 }
 
-void buf_putn(Buf *b, const char *s, size_t n)
+void buf_putn_grow(Buf *b, const char *s, size_t n)
 {
     if (b->sink && b->len + n > BUF_FLUSH_AT) {
         buf_flush(b);
@@ -81,11 +81,6 @@ void buf_putn(Buf *b, const char *s, size_t n)
     memcpy(b->data + b->len, s, n);
     b->len += n;
     b->data[b->len] = '\0';
-}
-
-void buf_put(Buf *b, const char *s)
-{
-    buf_putn(b, s, strlen(s));
 }
 
 void buf_put_long(Buf *b, long v)

@@ -5,6 +5,7 @@
 #define DERVISH_BUF_H
 
 #include <stddef.h>
+#include <string.h>
 
 /* Takes len bytes of text; returns 0, or -1 after reporting why. */
 typedef int (*BufSink)(void *target, const char *data, size_t len);
@@ -24,8 +25,25 @@ typedef struct Buf {
 /* Text held beyond this many bytes goes to the sink. */
 #define BUF_FLUSH_AT ((size_t)1 << 20)
 
-void buf_put(Buf *b, const char *s);
-void buf_putn(Buf *b, const char *s, size_t n);
+/* buf_putn when the text does not fit the room held or is due for the
+ * sink. */
+void buf_putn_grow(Buf *b, const char *s, size_t n);
+/* Inline: most pieces of text are a few bytes, written millions of times
+ * for a big model, and the length of a literal is known when compiling. */
+static inline void buf_putn(Buf *b, const char *s, size_t n)
+{
+    if (b->len + n + 1 > b->cap || (b->sink && b->len + n > BUF_FLUSH_AT)) {
+        buf_putn_grow(b, s, n);
+        return;
+    }
+    memcpy(b->data + b->len, s, n);
+    b->len += n;
+    b->data[b->len] = '\0';
+}
+static inline void buf_put(Buf *b, const char *s)
+{
+    buf_putn(b, s, strlen(s));
+}
 /* v in decimal, as "%ld" writes it (but without printf's cost). */
 void buf_put_long(Buf *b, long v);
 void buf_printf(Buf *b, const char *fmt, ...)

@@ -128,12 +128,9 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
                      c->emit & DV_EMIT_HESSVEC);
     if (c->emit & DV_EMIT_JACOBIAN)
         plan_jacobian(c, ir);
-    /* the passes that make nodes are done: give the node table back */
-    arena_release(&c->arena, ir->node_hash,
-                  (size_t)ir->node_hash_cap * sizeof *ir->node_hash);
-    ir->node_hash = NULL;
-    ir->node_hash_cap = 0;
-    ir_verify(ir);
+    /* the passes that make nodes are done: give the node tables back */
+    ir_drop_node_tables(ir);
+    ir_verify_derived(ir);
     c->ir = ir;
     return 0;
 }

@@ -150,6 +150,19 @@ void source_line_col(const Source *src, uint32_t off, int *line, int *col)
     *col = (int)(off - start) + 1;
 }
 
+int source_line_near(const Source *src, uint32_t off, int hint)
+{
+    if (off > src->len)
+        off = (uint32_t)src->len;
+    for (int l = hint - 1; src->line_start && l <= hint + 1; l++)
+        if (l >= 1 && l <= src->nlines && src->line_start[l - 1] <= off &&
+            (l == src->nlines || off < src->line_start[l]))
+            return l;
+    int line, col;
+    source_line_col(src, off, &line, &col);
+    return line;
+}
+
 /* Widest part of a source line shown; longer lines are cut around the
  * cause, with "..." where text is left out. */
 #define SHOW_WIDTH 120

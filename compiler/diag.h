@@ -94,6 +94,10 @@ void source_free_lines(Source *src);
 /* Line and column of byte OFF of src->text (an offset within the file,
  * not a span offset of a used file: subtract its base first). */
 void source_line_col(const Source *src, uint32_t off, int *line, int *col);
+/* The line of off, tried first at the line hint (one found before) and
+ * its neighbours, as a sweep over the statements in order or in reverse
+ * moves a line at a time; any other hint works too, only slower. */
+int source_line_near(const Source *src, uint32_t off, int hint);
 
 /* An internal fault: a bug in dervish, not in the model. */
 #define DV_UNREACHABLE() dv_internal_fault(__FILE__, __LINE__)

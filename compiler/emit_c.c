@@ -109,12 +109,20 @@ static void put_model_text(Buf *b, const Source *src, Span span)
     char last = ' ';
     for (size_t i = 0; i < n && shown < SHOWN_MAX; i++) {
         char c = t[i];
+        /* most characters are printable and pair with nothing */
+        if (!space && c > ' ' && c < 0x7f && c != '#' && c != '\\' &&
+            c != '*' && c != '/' && c != '?') {
+            text[len++] = c;
+            last = c;
+            shown++;
+            continue;
+        }
         if (c == '#') {
             while (i + 1 < n && t[i + 1] != '\n')
                 i++;
             continue;
         }
-        if (isspace((unsigned char)c) || (unsigned char)c < 0x20) {
+        if (c == ' ' || (unsigned char)c < 0x20) {   /* spaces, controls */
             space = 1;
             continue;
         }
@@ -162,8 +170,10 @@ static int precedence(const Ir *ir, NodeId id)
 {
     const IrNode *n = ir_at(ir, id);
     switch (n->op) {
-    case IR_CONST: return n->num < 0 || (n->num == 0 && signbit(n->num))
-                              ? PREC_UNARY : PREC_ATOM;
+    case IR_CONST: {
+        double v = ir_const_num(n);
+        return v < 0 || (v == 0 && signbit(v)) ? PREC_UNARY : PREC_ATOM;
+    }
     case IR_NEG: case IR_NOT: return PREC_UNARY;
     case IR_MUL: case IR_DIV: return PREC_MUL;
     case IR_ADD: case IR_SUB: return PREC_ADD;
@@ -181,7 +191,9 @@ static void emit_access(Emitter *e, int32_t array, int32_t tuple)
     const IrArray *a = &e->ir->arrays.items[array];
     IrHome home = ir_home(e->ir, a);
     if (home != HOME_LOCAL) {
-        buf_printf(e->out, DV_PREFIX "%s->", emit_home_name(home));
+        buf_put(e->out, DV_PREFIX);
+        buf_put(e->out, emit_home_name(home));
+        buf_put(e->out, "->");
         EMIT_USE(e, home);
     } else if (e->parted && e->framed[array]) {
         buf_put(e->out, e->part ? DV_PREFIX "f->" : DV_PREFIX "frame.");
@@ -234,15 +246,16 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     switch (info->kind) {
     case OPK_LEAF:
         if (n->op == IR_CONST) {
-            buf_put(e->out, number_text(e, n->num));
+            buf_put(e->out, number_text(e, ir_const_num(n)));
         } else if (n->op == IR_READ) {
-            emit_access(e, n->array, n->tuple);
+            emit_access(e, ir_read_array(n), ir_read_tuple(n));
         } else if (n->op == IR_SIZE) {
             buf_printf(e->out, "(%s)" DV_PREFIX "in->%s",
-                       emit_real_type(e->opt), ir->sizes.items[n->var].name);
+                       emit_real_type(e->opt),
+                       ir->sizes.items[ir_leaf_var(n)].name);
             EMIT_USE(e, HOME_IN);
         } else {
-            buf_put(e->out, var_name(e, n->var));
+            buf_put(e->out, var_name(e, ir_leaf_var(n)));
         }
         break;
     case OPK_PREFIX:
@@ -253,7 +266,7 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
             /* -(-x), never --x, which C reads as a decrement */
             const IrNode *a = ir_at(ir, n->arg[0]);
             int sign_first = a->op == IR_NEG ||
-                             (a->op == IR_CONST && signbit(a->num));
+                             (a->op == IR_CONST && signbit(ir_const_num(a)));
             buf_put(e->out, info->c_spelling);
             emit_expr(e, n->arg[0], sign_first ? PREC_ATOM + 1 : PREC_UNARY,
                       n->op);
@@ -295,19 +308,22 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
 /* --------------------------------------------------------- statements */
 
 /* Count, for the statement being emitted, how many parent edges reach
- * each node of its expression. */
-static void count_uses(Emitter *e, NodeId id)
+ * each node of its expression.  Returns whether this made some node a
+ * shared subexpression worth a temporary (used twice, not a leaf, not a
+ * condition). */
+static int count_uses(Emitter *e, NodeId id)
 {
-    if (e->node[id].seen == e->stamp) {
-        e->node[id].uses++;
-        return;
-    }
+    if (e->node[id].seen == e->stamp)
+        return ++e->node[id].uses == 2 && ir_at(e->ir, id)->nargs > 0 &&
+               !ir_is_condition(e->ir, id);
     e->node[id].seen = e->stamp;
     e->node[id].uses = 1;
     e->node[id].temp = 0;
     const IrNode *n = ir_at(e->ir, id);
+    int shared = 0;
     for (int i = 0; i < n->nargs; i++)
-        count_uses(e, n->arg[i]);
+        shared |= count_uses(e, n->arg[i]);
+    return shared;
 }
 
 /* A subexpression used more than once in a statement is computed once,
@@ -326,27 +342,14 @@ static int hoist(Emitter *e, NodeId id, int depth)
     if (e->node[id].uses < 2 || n->nargs == 0 || ir_is_condition(e->ir, id))
         return written;
     indent(e, depth);
-    buf_printf(e->out, "%s " DV_PREFIX "t%d = ", emit_real_type(e->opt),
-               e->ntemps + 1);
+    buf_put(e->out, emit_real_type(e->opt));
+    buf_put(e->out, " " DV_PREFIX "t");
+    buf_put_long(e->out, e->ntemps + 1);
+    buf_put(e->out, " = ");
     emit_expr(e, id, 0, -1);
     buf_put(e->out, ";\n");
     e->node[id].temp = ++e->ntemps;
     return written + 1;
-}
-
-/* Whether the statement has a subexpression worth a temporary. */
-static int has_shared(Emitter *e, NodeId id)
-{
-    if (e->node[id].visit == e->visit_stamp)
-        return 0;
-    e->node[id].visit = e->visit_stamp;
-    const IrNode *n = ir_at(e->ir, id);
-    if (e->node[id].uses >= 2 && n->nargs > 0 && !ir_is_condition(e->ir, id))
-        return 1;
-    for (int i = 0; i < n->nargs; i++)
-        if (has_shared(e, n->arg[i]))
-            return 1;
-    return 0;
 }
 
 int emit_is_external(const IrArray *a, const Ir *ir)
@@ -495,7 +498,7 @@ static int access_score(const Ir *ir, int32_t tuple, int32_t var)
 static int stride_score(const Ir *ir, NodeId id, int32_t var)
 {
     const IrNode *x = ir_at(ir, id);
-    int score = x->op == IR_READ ? access_score(ir, x->tuple, var) : 0;
+    int score = x->op == IR_READ ? access_score(ir, ir_read_tuple(x), var) : 0;
     for (int i = 0; i < x->nargs; i++)
         score += stride_score(ir, x->arg[i], var);
     return score;
@@ -635,7 +638,7 @@ static void note_expr_refs(Emitter *e, NodeId id)
     e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     if (n->op == IR_READ)
-        note_ref(e, n->array);
+        note_ref(e, ir_read_array(n));
     for (int i = 0; i < n->nargs; i++)
         note_expr_refs(e, n->arg[i]);
 }
@@ -674,8 +677,8 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     }
 
     if (s0->origin.off != e->last_origin) {
-        int line, col;
-        source_line_col(ir->src, s0->origin.off, &line, &col);
+        int line = source_line_near(ir->src, s0->origin.off, e->last_line);
+        e->last_line = line;
         if (e->last_origin != UINT32_MAX)
             buf_put(e->out, "\n");
         e->last_origin = s0->origin.off;
@@ -707,12 +710,9 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
      * subexpressions one for their temporaries; the loops then get braces
      * so the block reads as the loop body */
     e->stamp++;
-    for (int g = 0; g < count; g++)
-        count_uses(e, shown_expr(ir, s[g]));
-    e->visit_stamp++;
     int shared = 0;
     for (int g = 0; g < count; g++)
-        shared |= has_shared(e, shown_expr(ir, s[g]));
+        shared |= count_uses(e, shown_expr(ir, s[g]));
     int n = ir_tuple_len(ir, s0->domain);
     /* outside loops the temporaries simply precede the statement (their
      * names are unique in the function) */
@@ -765,7 +765,7 @@ static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
 static int reads_array(const Ir *ir, NodeId id, int32_t array)
 {
     const IrNode *n = ir_at(ir, id);
-    if (n->op == IR_READ && n->array == array)
+    if (n->op == IR_READ && ir_read_array(n) == array)
         return 1;
     for (int i = 0; i < n->nargs; i++)
         if (reads_array(ir, n->arg[i], array))
@@ -887,7 +887,7 @@ static void mark_reads(const Ir *ir, NodeId id, char *read)
 {
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ)
-        read[n->array] = 1;
+        read[ir_read_array(n)] = 1;
     for (int i = 0; i < n->nargs; i++)
         mark_reads(ir, n->arg[i], read);
 }
@@ -1024,7 +1024,7 @@ typedef struct OnePass {
 static int reads_marked(const Ir *ir, NodeId id, const char *marked)
 {
     const IrNode *n = ir_at(ir, id);
-    if (n->op == IR_READ && marked[n->array])
+    if (n->op == IR_READ && marked[ir_read_array(n)])
         return 1;
     for (int i = 0; i < n->nargs; i++)
         if (reads_marked(ir, n->arg[i], marked))
@@ -1253,18 +1253,21 @@ void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h)
     memcpy(e.lists, lists, sizeof lists);
     for (int fn = 0; fn < FN_COUNT; fn++) {
         e.argpos_read[fn] = calloc((size_t)ir->arrays.len + 1, 1);
+        if (!e.argpos_read[fn])
+            exit(3);
+        if (!(opt->emit & (1 << fn)))
+            continue;   /* only a function being written reads its flags */
         char *mine = calloc((size_t)ir->nodes.len + 1, 1);
-        if (!e.argpos_read[fn] || !mine)
+        if (!mine)
             exit(3);
         for (int l = 0; l < 2 && lists[fn][l]; l++)
             ir_mark_reached(ir, lists[fn][l], mine);
         for (int i = 0; i < ir->nodes.len; i++) {
             const IrNode *n = &ir->nodes.items[i];
             if (mine[i] && n->op == IR_READ &&
-                ir->arrays.items[n->array].role == ROLE_ARGPOS)
-                e.argpos_read[fn][n->array] = 1;
-            if (opt->emit & (1 << fn))
-                reached[i] |= mine[i];
+                ir->arrays.items[ir_read_array(n)].role == ROLE_ARGPOS)
+                e.argpos_read[fn][ir_read_array(n)] = 1;
+            reached[i] |= mine[i];
         }
         free(mine);
     }

@@ -8,16 +8,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-int emit_has_inputs(const Ir *ir)
-{
-    if (ir->sizes.len > 0)
-        return 1;
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (ir->arrays.items[i].role == ROLE_INPUT)
-            return 1;
-    return 0;
-}
-
 long emit_param_count(const Ir *ir)
 {
     long n = 0;
@@ -120,11 +110,12 @@ const char *emit_home_name(IrHome home)
     return names[home];
 }
 
-int emit_args(const Ir *ir, Function fn, IrHome homes[EMIT_MAX_ARGS])
+int emit_args(const Ir *ir, const Storage *st, Function fn,
+              IrHome homes[EMIT_MAX_ARGS])
 {
     int n = 0;
     homes[n++] = HOME_P;
-    if (emit_has_inputs(ir))
+    if (st->has_input)
         homes[n++] = HOME_IN;
     switch (fn) {
     case FN_VALUE:
@@ -175,7 +166,7 @@ void emit_arg_type(Buf *b, const Ir *ir, IrHome home)
 void emit_unused_args(Buf *b, const Emitter *e, Function fn)
 {
     IrHome homes[EMIT_MAX_ARGS];
-    int n = emit_args(e->ir, fn, homes);
+    int n = emit_args(e->ir, &e->storage, fn, homes);
     for (int i = 0; i < n; i++)
         if (!(e->used_homes & (1u << homes[i])))
             buf_printf(b, "    (void)" DV_PREFIX "%s;\n",
@@ -193,7 +184,7 @@ void emit_signature(Buf *b, const Ir *ir, const Storage *st, Function fn,
     buf_printf(b, "%s %s_%s(", ir->struct_output ? "void" : real, m,
                emit_fn_name(fn));
     IrHome homes[EMIT_MAX_ARGS];
-    int n = emit_args(ir, fn, homes);
+    int n = emit_args(ir, st, fn, homes);
     for (int i = 0; i < n; i++) {
         buf_put(b, i ? ", " : "");
         emit_arg_type(b, ir, homes[i]);
@@ -351,7 +342,7 @@ void emit_header(const Ir *ir, const EmitOptions *opt,
                "    %s_param p;\n"
                "    %s v[%s_PARAM_COUNT];\n"
                "} %s_param_flat;\n\n", m, M, real, m, m, real, M, m);
-    if (emit_has_inputs(ir))
+    if (st->has_input)
         emit_struct(h, ir, ROLE_INPUT, arena_printf(ir->arena, "%s_input", m),
                     "The inputs: data, not differentiated.", real);
     if (ir->struct_output)

@@ -55,6 +55,7 @@ typedef struct Emitter {
                                to the caller's struct of that home */
     int uses_frame;
     uint32_t last_origin;
+    int last_line;      /* its line, where the next look-up starts */
     Storage storage;    /* which arrays live in work */
     /* shared subexpressions of the statement being emitted */
     NodeMarks *node;    /* per node */
@@ -96,14 +97,16 @@ void emit_sweeps(Emitter *e);
 #define EMIT_USE(e, home) ((e)->used_homes |= 1u << (home))
 
 /* emit_header.c */
-int emit_has_inputs(const Ir *ir);
 long emit_output_count(const Ir *ir);     /* reals in the output struct */
 long emit_param_count(const Ir *ir);      /* and in the param struct */
 const char *emit_fn_name(Function fn);
 extern const Function emit_order[FN_COUNT];
 /* The caller's structs FN takes, in argument order, into homes; returns
- * how many.  The argument of home h is called DV_PREFIX + emit_home_name(h). */
-int emit_args(const Ir *ir, Function fn, IrHome homes[EMIT_MAX_ARGS]);
+ * how many.  The argument of home h is called DV_PREFIX + emit_home_name(h).
+ * Called once per part, so it reads st->has_input rather than scanning the
+ * arrays. */
+int emit_args(const Ir *ir, const Storage *st, Function fn,
+              IrHome homes[EMIT_MAX_ARGS]);
 const char *emit_home_name(IrHome home);
 void emit_arg_type(Buf *b, const Ir *ir, IrHome home);
 /* (void) for each struct argument of FN the code did not refer to. */

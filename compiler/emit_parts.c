@@ -18,7 +18,7 @@
 static void part_params(Buf *b, const Emitter *e, Function fn, int named)
 {
     IrHome homes[EMIT_MAX_ARGS];
-    int n = emit_args(e->ir, fn, homes);
+    int n = emit_args(e->ir, &e->storage, fn, homes);
     buf_put(b, "(");
     for (int i = 0; i < n; i++) {
         buf_put(b, i ? ", " : "");
@@ -170,7 +170,7 @@ void emit_part_calls(Emitter *e, Function fn, Buf *body)
                      DV_PREFIX "k++)\n        " DV_PREFIX "%s_parts[" DV_PREFIX
                      "k](", e->part, f);
     IrHome homes[EMIT_MAX_ARGS];
-    int n = emit_args(ir, fn, homes);
+    int n = emit_args(ir, &e->storage, fn, homes);
     for (int i = 0; i < n; i++) {
         buf_printf(body, DV_PREFIX "%s, ", emit_home_name(homes[i]));
         EMIT_USE(e, homes[i]);

@@ -298,16 +298,17 @@ static void eval_nodes(Evaluation *ev, const Plan *p)
         double v[3] = {0, 0, 0};
         switch (n->op) {
         case IR_CONST:
-            ev->val[id] = n->num;
+            ev->val[id] = ir_const_num(n);
             break;
         case IR_READ:
-            ev->val[id] = ev->data[n->array][offset(ev, n->array, n->tuple)];
+            ev->val[id] = ev->data[ir_read_array(n)][offset(
+                ev, ir_read_array(n), ir_read_tuple(n))];
             break;
         case IR_INDEX:
-            ev->val[id] = (double)ev->idx[n->var];
+            ev->val[id] = (double)ev->idx[ir_leaf_var(n)];
             break;
         case IR_SIZE:
-            ev->val[id] = (double)ev->sizes[n->var];
+            ev->val[id] = (double)ev->sizes[ir_leaf_var(n)];
             break;
         default:
             for (int k = 0; k < n->nargs; k++)
@@ -651,16 +652,17 @@ static void ceval_nodes(Evaluation *ev, const Plan *p)
         Cplx z[3] = {0, 0, 0};
         switch (n->op) {
         case IR_CONST:
-            ev->cval[id] = cmake(n->num, 0);
+            ev->cval[id] = cmake(ir_const_num(n), 0);
             break;
         case IR_READ:
-            ev->cval[id] = ev->cdata[n->array][offset(ev, n->array, n->tuple)];
+            ev->cval[id] = ev->cdata[ir_read_array(n)][offset(
+                ev, ir_read_array(n), ir_read_tuple(n))];
             break;
         case IR_INDEX:
-            ev->cval[id] = cmake((double)ev->idx[n->var], 0);
+            ev->cval[id] = cmake((double)ev->idx[ir_leaf_var(n)], 0);
             break;
         case IR_SIZE:
-            ev->cval[id] = cmake((double)ev->sizes[n->var], 0);
+            ev->cval[id] = cmake((double)ev->sizes[ir_leaf_var(n)], 0);
             break;
         default:
             for (int k = 0; k < n->nargs; k++)

@@ -8,6 +8,7 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <signal.h>
+#include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -23,12 +24,17 @@ char *fileio_read(const char *path, size_t *len)
                 strerror(errno));
         return NULL;
     }
-    if (fstat(fileno(f), &st) == 0 && S_ISDIR(st.st_mode)) {
+    int known = fstat(fileno(f), &st) == 0;
+    if (known && S_ISDIR(st.st_mode)) {
         fprintf(stderr, "dervish: cannot read %s: it is a directory\n", path);
         fclose(f);
         return NULL;
     }
+    /* a regular file's size is known: room for it and the end-of-file
+     * read in one block, not a doubling buffer copied as it grows */
     size_t cap = 65536, n = 0;
+    if (known && S_ISREG(st.st_mode) && (uintmax_t)st.st_size < SIZE_MAX / 2)
+        cap = (size_t)st.st_size + 2;
     char *buf = malloc(cap);
     for (;;) {
         if (!buf) {
@@ -94,28 +100,23 @@ static void track_temp(int slot, char *temp)
         live_temps[slot] = temp;
 }
 
-static int write_fd(int fd, const char *path, const char *data, size_t len)
-{
-    size_t done = 0;
-    while (done < len) {
-        ssize_t w = write(fd, data + done, len - done);
-        if (w < 0 && errno == EINTR)
-            continue;
-        if (w <= 0) {
-            fprintf(stderr, "dervish: cannot write %s: %s\n", path,
-                    strerror(w < 0 ? errno : ENOSPC));
-            return -1;
-        }
-        done += (size_t)w;
-    }
-    return 0;
-}
-
-/* The Buf sink of a temporary. */
+/* The Buf sink of a temporary: its text goes to a writer thread, started
+ * with the first piece. */
 static int write_temp(void *target, const char *data, size_t len)
 {
-    const StreamedOutput *f = target;
-    return write_fd(f->fd, f->target, data, len);
+    StreamedOutput *f = target;
+    if (!f->writer)
+        f->writer = writer_start(f->fd, f->target);
+    return writer_put(f->writer, data, len);
+}
+
+/* Wait for a temporary's writer, if it has one; returns -1 if a write
+ * failed (reported by the writer), else 0. */
+static int finish_writer(StreamedOutput *f)
+{
+    int rc = f->writer ? writer_finish(f->writer) : 0;
+    f->writer = NULL;
+    return rc;
 }
 
 /* Create a temporary beside f->target, open in f->fd, tracked in SLOT for
@@ -178,7 +179,7 @@ static int write_special(const StreamedOutput *f)
                 strerror(errno));
         return -1;
     }
-    int failed = write_fd(fd, f->target, f->text.data, f->text.len);
+    int failed = writer_write_fd(fd, f->target, f->text.data, f->text.len);
     if (close(fd) != 0 && !failed) {
         fprintf(stderr, "dervish: cannot write %s: %s\n", f->target,
                 strerror(errno));
@@ -210,6 +211,11 @@ static int close_temp(StreamedOutput *f)
 {
     if (f->fd < 0)
         return 0;
+    if (finish_writer(f) != 0) {
+        close(f->fd);
+        f->fd = -1;
+        return -1;
+    }
     int rc = close(f->fd);
     f->fd = -1;
     if (rc != 0)
@@ -224,6 +230,7 @@ static void discard(StreamedOutput *files, int n)
 {
     for (int i = 0; i < n; i++) {
         StreamedOutput *f = &files[i];
+        finish_writer(f);
         if (f->fd >= 0)
             close(f->fd);
         f->fd = -1;
@@ -247,6 +254,7 @@ int fileio_open_outputs(StreamedOutput *files, int n)
         files[i].target = NULL;
         files[i].temp = NULL;
         files[i].fd = -1;
+        files[i].writer = NULL;
     }
     for (int i = 0; i < n; i++) {
         StreamedOutput *f = &files[i];

@@ -6,6 +6,7 @@
 #define DERVISH_FILEIO_H
 
 #include "buf.h"
+#include "writer.h"
 
 #include <stddef.h>
 
@@ -27,6 +28,7 @@ typedef struct StreamedOutput {
     char *target;       /* where the bytes go: through a symbolic link */
     char *temp;         /* the temporary, or NULL for a special file */
     int fd;             /* the temporary, open */
+    Writer *writer;     /* writes the temporary's text, once it has some */
 } StreamedOutput;
 
 /* Check the targets and create the temporaries, in order.  Returns 0, or

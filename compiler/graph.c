@@ -242,15 +242,15 @@ static int expr_node(Graph *g, NodeId id)
         return g->memo[id];
     int dot;
     if (n->op == IR_READ) {
-        dot = g->producer[n->array];
+        dot = g->producer[ir_read_array(n)];
     } else if (n->nargs == 0) {
         dot = new_node(g);
         if (n->op == IR_CONST)
-            put_number(g->out, n->num);
+            put_number(g->out, ir_const_num(n));
         else if (n->op == IR_INDEX)
-            buf_printf(g->out, "index %s", ir->vars.items[n->var].name);
+            buf_printf(g->out, "index %s", ir->vars.items[ir_leaf_var(n)].name);
         else
-            buf_printf(g->out, "size %s", ir->sizes.items[n->var].name);
+            buf_printf(g->out, "size %s", ir->sizes.items[ir_leaf_var(n)].name);
         buf_put(g->out, "\", " STYLE_LEAF "];\n");
     } else {
         int arg[3];

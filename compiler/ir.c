@@ -55,15 +55,10 @@ static uint64_t finish(uint64_t h)
 
 static uint64_t node_key(const IrNode *n)
 {
-    uint64_t bits;
-    memcpy(&bits, &n->num, sizeof bits);
     uint64_t h = mix(n->op, n->nargs);
     for (int i = 0; i < 3; i++)
         h = mix(h, (uint32_t)n->arg[i]);
-    h = mix(h, (uint32_t)n->array);
-    h = mix(h, (uint32_t)n->tuple);
-    h = mix(h, (uint32_t)n->var);
-    return finish(mix(h, bits));
+    return finish(h);
 }
 
 static int node_equal(const IrNode *a, const IrNode *b)
@@ -72,9 +67,7 @@ static int node_equal(const IrNode *a, const IrNode *b)
      * NaN constant is equal to itself. */
     return a->op == b->op && a->nargs == b->nargs &&
            a->arg[0] == b->arg[0] && a->arg[1] == b->arg[1] &&
-           a->arg[2] == b->arg[2] && a->array == b->array &&
-           a->tuple == b->tuple && a->var == b->var &&
-           memcmp(&a->num, &b->num, sizeof a->num) == 0;
+           a->arg[2] == b->arg[2];
 }
 
 /* A node table entry: id + 1 in the low half, the hash in the high half
@@ -97,30 +90,86 @@ static void put_entry(uint64_t *t, uint32_t mask, uint64_t entry)
     t[slot] = entry;
 }
 
-/* (Re)build the node table at most three quarters full (probes are
- * cheap: the hashes in the entries spare reading nodes).  A growing table
- * moves its entries in slot order, so the new one is written almost in
- * order; one that was dropped (node_hash NULL, once the passes that make
- * nodes were done) is made again from the nodes. */
-static void rehash_nodes(Ir *ir)
+/* The table that holds n, or would: a node with arguments is kept by its
+ * newest argument, a read by its array, in tables of IR_NODE_GROUP ids
+ * each; other leaves share one table.  Nodes made together mostly have
+ * recent arguments and so use the same few small tables, which stay in
+ * cache, where one table of all nodes would cost a cache miss for nearly
+ * every lookup once it is larger than the cache. */
+static IrNodeTable *table_of(Ir *ir, const IrNode *n)
 {
-    int cap = ir->node_hash_cap ? 2 * ir->node_hash_cap : 1024;
-    while (3 * (size_t)cap < 4 * (size_t)(ir->nodes.len + 1))
-        cap *= 2;
-    uint64_t *t = arena_alloc(ir->arena, (size_t)cap * sizeof *t);  /* 0s */
-    uint32_t mask = (uint32_t)cap - 1;
-    if (ir->node_hash) {
-        for (int i = 0; i < ir->node_hash_cap; i++)
-            if (ir->node_hash[i])
-                put_entry(t, mask, ir->node_hash[i]);
+    IrNodeTables *group;
+    int32_t at;
+    if (n->nargs > 0) {
+        group = &ir->by_arg;
+        at = n->arg[0];
+        for (int i = 1; i < n->nargs; i++)
+            at = n->arg[i] > at ? n->arg[i] : at;
+    } else if (n->op == IR_READ) {
+        group = &ir->by_array;
+        at = ir_read_array(n);
     } else {
-        for (int id = 0; id < ir->nodes.len; id++)
-            put_entry(t, mask, node_entry(node_tag(&ir->nodes.items[id]), id));
+        return &ir->leaves;
     }
-    arena_release(ir->arena, ir->node_hash,
-                  (size_t)ir->node_hash_cap * sizeof *t);
-    ir->node_hash = t;
-    ir->node_hash_cap = cap;
+    int k = at / IR_NODE_GROUP;
+    while (group->len <= k) {
+        IrNodeTable empty = {NULL, 0, 0};
+        VEC_PUSH(ir->arena, *group, empty);
+    }
+    return &group->items[k];
+}
+
+/* Whether one more entry would fill the table over three quarters. */
+static int table_full(const IrNodeTable *t)
+{
+    return 4 * (size_t)(t->len + 1) > 3 * (size_t)t->cap;
+}
+
+/* Double a table (tables start at a size the arena gives its own heap
+ * chunk, so a replaced one is freed at once). */
+static void grow_table(Ir *ir, IrNodeTable *t)
+{
+    int cap = t->cap ? 2 * t->cap : (int)(ARENA_LARGE / sizeof *t->slot);
+    uint64_t *slot = arena_alloc(ir->arena, (size_t)cap * sizeof *slot);
+    for (int i = 0; i < t->cap; i++)
+        if (t->slot[i])
+            put_entry(slot, (uint32_t)cap - 1, t->slot[i]);
+    arena_release(ir->arena, t->slot, (size_t)t->cap * sizeof *slot);
+    t->slot = slot;
+    t->cap = cap;
+}
+
+static void free_tables(Ir *ir, IrNodeTables *group)
+{
+    for (int i = 0; i < group->len; i++)
+        arena_release(ir->arena, group->items[i].slot,
+                      (size_t)group->items[i].cap * sizeof(uint64_t));
+    arena_release(ir->arena, group->items,
+                  (size_t)group->cap * sizeof *group->items);
+    group->items = NULL;
+    group->len = group->cap = 0;
+}
+
+void ir_drop_node_tables(Ir *ir)
+{
+    free_tables(ir, &ir->by_arg);
+    free_tables(ir, &ir->by_array);
+    arena_release(ir->arena, ir->leaves.slot,
+                  (size_t)ir->leaves.cap * sizeof *ir->leaves.slot);
+    ir->leaves.slot = NULL;
+    ir->leaves.len = ir->leaves.cap = 0;
+    ir->nodes_tabled = 0;
+}
+
+/* Enter node id, known to be in no table yet, in its table. */
+static void table_put(Ir *ir, NodeId id)
+{
+    const IrNode *n = &ir->nodes.items[id];
+    IrNodeTable *t = table_of(ir, n);
+    if (table_full(t))
+        grow_table(ir, t);
+    put_entry(t->slot, (uint32_t)t->cap - 1, node_entry(node_tag(n), id));
+    t->len++;
 }
 
 /* The node array is read through pointers while nodes are added (a rule
@@ -150,11 +199,15 @@ static void grow_nodes(Ir *ir, int in_place)
 
 static NodeId intern(Ir *ir, const IrNode *n)
 {
-    if (4 * (size_t)(ir->nodes.len + 1) > 3 * (size_t)ir->node_hash_cap)
-        rehash_nodes(ir);
-    uint32_t mask = (uint32_t)ir->node_hash_cap - 1;
+    /* nodes made while the tables were dropped are entered first */
+    while (ir->nodes_tabled < ir->nodes.len)
+        table_put(ir, ir->nodes_tabled++);
+    IrNodeTable *t = table_of(ir, n);
+    if (table_full(t))
+        grow_table(ir, t);
+    uint32_t mask = (uint32_t)t->cap - 1;
     uint32_t h = node_tag(n), slot = h & mask;
-    for (uint64_t entry; (entry = ir->node_hash[slot]) != 0;
+    for (uint64_t entry; (entry = t->slot[slot]) != 0;
          slot = (slot + 1) & mask) {
         NodeId id = (NodeId)(uint32_t)entry - 1;
         if ((uint32_t)(entry >> 32) == h &&
@@ -165,7 +218,9 @@ static NodeId intern(Ir *ir, const IrNode *n)
     if (ir->nodes.len == ir->nodes.cap)
         grow_nodes(ir, 0);
     ir->nodes.items[ir->nodes.len++] = *n;
-    ir->node_hash[slot] = node_entry(h, id);
+    t->slot[slot] = node_entry(h, id);
+    t->len++;
+    ir->nodes_tabled++;
     return id;
 }
 
@@ -175,36 +230,35 @@ static IrNode blank(IrOp op)
     memset(&n, 0, sizeof n);
     n.op = (uint8_t)op;
     n.arg[0] = n.arg[1] = n.arg[2] = NO_NODE;
-    n.array = n.tuple = n.var = -1;
     return n;
 }
 
 NodeId ir_const(Ir *ir, double num)
 {
     IrNode n = blank(IR_CONST);
-    n.num = num;
+    memcpy(n.arg, &num, sizeof num);
     return intern(ir, &n);
 }
 
 NodeId ir_read(Ir *ir, int32_t array, int32_t tuple)
 {
     IrNode n = blank(IR_READ);
-    n.array = array;
-    n.tuple = tuple;
+    n.arg[0] = array;
+    n.arg[1] = tuple;
     return intern(ir, &n);
 }
 
 NodeId ir_index(Ir *ir, int32_t var)
 {
     IrNode n = blank(IR_INDEX);
-    n.var = var;
+    n.arg[0] = var;
     return intern(ir, &n);
 }
 
 NodeId ir_size(Ir *ir, int32_t size)
 {
     IrNode n = blank(IR_SIZE);
-    n.var = size;
+    n.arg[0] = size;
     return intern(ir, &n);
 }
 
@@ -506,10 +560,10 @@ static void verify_expr(const Ir *ir, NodeId id, int32_t domain, int *seen,
     seen[id] = stamp;
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ) {
-        const IrArray *a = &ir->arrays.items[n->array];
-        if (ir_tuple_len(ir, n->tuple) != a->rank)
+        const IrArray *a = &ir->arrays.items[ir_read_array(n)];
+        if (ir_tuple_len(ir, ir_read_tuple(n)) != a->rank)
             DV_UNREACHABLE();
-        verify_tuple_in(ir, n->tuple, domain);
+        verify_tuple_in(ir, ir_read_tuple(n), domain);
     }
     for (int i = 0; i < n->nargs; i++) {
         if (n->arg[i] >= id)    /* operands are built before their users */
@@ -533,18 +587,30 @@ static void verify_list(const Ir *ir, const IrStmtList *list, int *seen,
     }
 }
 
-void ir_verify(const Ir *ir)
+static void verify_lists(const Ir *ir, const IrStmtList *const *lists,
+                         int n)
 {
     int *seen = calloc((size_t)ir->nodes.len + 1, sizeof *seen);
     int stamp = 0;
     if (!seen)
         DV_UNREACHABLE();
-    verify_list(ir, &ir->forward, seen, &stamp);
-    verify_list(ir, &ir->reverse, seen, &stamp);
-    verify_list(ir, &ir->tangent, seen, &stamp);
-    verify_list(ir, &ir->hv_forward, seen, &stamp);
-    verify_list(ir, &ir->hv_reverse, seen, &stamp);
+    for (int i = 0; i < n; i++)
+        verify_list(ir, lists[i], seen, &stamp);
     free(seen);
+}
+
+void ir_verify(const Ir *ir)
+{
+    const IrStmtList *lists[] = {&ir->forward, &ir->reverse, &ir->tangent,
+                                 &ir->hv_forward, &ir->hv_reverse};
+    verify_lists(ir, lists, 5);
+}
+
+void ir_verify_derived(const Ir *ir)
+{
+    const IrStmtList *lists[] = {&ir->reverse, &ir->tangent,
+                                 &ir->hv_forward, &ir->hv_reverse};
+    verify_lists(ir, lists, 4);
 }
 
 static void print_tuple(const Ir *ir, int32_t tuple, FILE *out)
@@ -564,17 +630,17 @@ static void print_expr(const Ir *ir, NodeId id, FILE *out)
     const IrNode *n = ir_at(ir, id);
     switch (n->op) {
     case IR_CONST:
-        fprintf(out, "%.17g", n->num);
+        fprintf(out, "%.17g", ir_const_num(n));
         return;
     case IR_READ:
-        fputs(ir->arrays.items[n->array].name, out);
-        print_tuple(ir, n->tuple, out);
+        fputs(ir->arrays.items[ir_read_array(n)].name, out);
+        print_tuple(ir, ir_read_tuple(n), out);
         return;
     case IR_INDEX:
-        fprintf(out, "#%s", ir->vars.items[n->var].name);
+        fprintf(out, "#%s", ir->vars.items[ir_leaf_var(n)].name);
         return;
     case IR_SIZE:
-        fprintf(out, "%s", ir->sizes.items[n->var].name);
+        fprintf(out, "%s", ir->sizes.items[ir_leaf_var(n)].name);
         return;
     default:
         break;

@@ -13,6 +13,7 @@
 #include "diag.h"
 
 #include <stdint.h>
+#include <string.h>
 
 /* Dimensions of declared arrays (the language's limit) and of any IR array
  * (a reduction's accumulator may also carry enclosing reduction indices). */
@@ -66,15 +67,28 @@ typedef struct IrSize {
     Span span;
 } IrSize;
 
+/* An op and its nargs arguments; the unused ones are NO_NODE.  A leaf
+ * (no arguments) keeps its own operands in arg instead, read through the
+ * accessors below, so a node takes 16 bytes: millions of them are made
+ * and hash-consed, and half the size is half the cache misses. */
 typedef struct IrNode {
     uint8_t op;         /* IrOp */
     uint8_t nargs;
     NodeId arg[3];
-    int32_t array;      /* READ: the array read */
-    int32_t tuple;      /* READ: its subscripts, a tuple of index vars */
-    int32_t var;        /* INDEX: the index var; SIZE: the size */
-    double num;         /* CONST */
 } IrNode;
+
+/* READ: the array read, and its subscripts (a tuple of index vars). */
+static inline int32_t ir_read_array(const IrNode *n) { return n->arg[0]; }
+static inline int32_t ir_read_tuple(const IrNode *n) { return n->arg[1]; }
+/* INDEX: the index var; SIZE: the size. */
+static inline int32_t ir_leaf_var(const IrNode *n) { return n->arg[0]; }
+/* CONST: the number, whose bits fill arg[0] and arg[1]. */
+static inline double ir_const_num(const IrNode *n)
+{
+    double num;
+    memcpy(&num, n->arg, sizeof num);
+    return num;
+}
 
 typedef enum IrRole {
     ROLE_PARAM,         /* differentiated; lives in *p, gradient in *grad */
@@ -140,6 +154,14 @@ typedef struct IrStmt {
 
 typedef VEC(IrStmt) IrStmtList;
 
+/* One hash-consing table (see Ir). */
+typedef struct IrNodeTable {
+    uint64_t *slot;
+    int cap, len;
+} IrNodeTable;
+typedef VEC(IrNodeTable) IrNodeTables;
+#define IR_NODE_GROUP 2048
+
 typedef struct Ir {
     Arena *arena;
     const Source *src;
@@ -171,13 +193,18 @@ typedef struct Ir {
     const char *row_plan;       /* why row by row was or was not chosen */
     Span output_span;           /* the output's name in its statement */
     Span output_stmt;           /* the whole output statement */
-    /* hash-consing tables, open addressing, sized powers of two; the
-     * node table may be dropped (NULL, cap 0) and is then rebuilt when a
-     * node is next made.  A node entry holds id + 1 (0: empty) in its low
-     * half and the node's hash in its high half, so a probe reads a
-     * node only when the hashes agree */
-    uint64_t *node_hash;
-    int node_hash_cap;
+    /* hash-consing: open-addressing tables, sized powers of two, of
+     * entries that hold id + 1 (0: empty) in their low half and the
+     * node's hash in their high half, so a probe reads a node only when
+     * the hashes agree.  A node with arguments is in by_arg[newest
+     * argument / IR_NODE_GROUP], a read in by_array[array /
+     * IR_NODE_GROUP], any other leaf in leaves.  The tables hold the first
+     * nodes_tabled nodes; they may be dropped (ir_drop_node_tables), and
+     * the nodes are entered again when a node is next made */
+    IrNodeTables by_arg;
+    IrNodeTables by_array;
+    IrNodeTable leaves;
+    int nodes_tabled;
     int32_t *tuple_hash;
     int tuple_hash_cap;
 } Ir;
@@ -191,6 +218,10 @@ NodeId ir_read(Ir *ir, int32_t array, int32_t tuple);
 NodeId ir_index(Ir *ir, int32_t var);
 NodeId ir_size(Ir *ir, int32_t size);
 NodeId ir_node(Ir *ir, IrOp op, NodeId a, NodeId b, NodeId c);
+
+/* Give back the hash-consing tables (once the passes that make nodes are
+ * done); a node made later enters every node again. */
+void ir_drop_node_tables(Ir *ir);
 
 /* The row-major position of the current point among the REDUCED vars (a
  * tuple), as a max or min statement stores its winner's in its argpos
@@ -261,6 +292,9 @@ long ir_work(const Ir *ir, const IrStmtList *list);
 
 /* Check the IR's invariants; reports a fault and aborts when one fails. */
 void ir_verify(const Ir *ir);
+/* The same for the lists the passes after resolve make, all but the
+ * forward statements (which those passes only reorder). */
+void ir_verify_derived(const Ir *ir);
 
 /* Print the IR in a readable text form (for --dump and tests). */
 void ir_print(const Ir *ir, FILE *out);

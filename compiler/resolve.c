@@ -35,22 +35,58 @@
 
 /* ------------------------------------------------------------ symbols */
 
-static uint32_t hash_name(const char *s)
+/* A name's hash, and the slot its probes start from (before masking). */
+typedef struct NameKey {
+    uint32_t hash;
+    uint32_t home;
+} NameKey;
+
+/* MurmurHash3's 32-bit finalizer. */
+static uint32_t spread(uint32_t h)
 {
-    uint32_t h = 2166136261u;
-    for (; *s; s++)
-        h = (h ^ (unsigned char)*s) * 16777619u;
-    return h;
+    h ^= h >> 16;
+    h *= 0x85ebca6bu;
+    h ^= h >> 13;
+    h *= 0xc2b2ae35u;
+    return h ^ (h >> 16);
+}
+
+/* Names that differ only in a trailing number (s1, s2, ... as generated
+ * models have them) get neighbouring home slots, 16 numbers to a block
+ * placed by a hash of the rest, so consecutive definitions share a few
+ * cache lines of the table instead of taking a random slot each.  Other
+ * names start anywhere. */
+static NameKey name_key(const char *s)
+{
+    uint32_t h = 2166136261u, stem = h, num = 0;
+    int digits = 0;
+    for (; *s; s++) {
+        unsigned char c = (unsigned char)*s;
+        h = (h ^ c) * 16777619u;
+        digits = c >= '0' && c <= '9';
+        if (digits) {
+            num = num * 10 + (uint32_t)(c - '0');
+        } else {
+            stem = h;
+            num = 0;
+        }
+    }
+    NameKey k;
+    k.hash = h;
+    k.home = spread(h);
+    if (digits)
+        k.home = spread(stem ^ (num >> 4) * 0x9e3779b1u) << 4 | (num & 15);
+    return k;
 }
 
 Symbol *rs_table_find(const SymTable *t, const char *name)
 {
     if (!t->cap)
         return NULL;
-    uint32_t h = hash_name(name);
-    uint32_t i = h & (uint32_t)(t->cap - 1);
+    NameKey k = name_key(name);
+    uint32_t i = k.home & (uint32_t)(t->cap - 1);
     while (t->items[i].name) {
-        if (t->items[i].hash == h && strcmp(t->items[i].name, name) == 0)
+        if (t->items[i].hash == k.hash && strcmp(t->items[i].name, name) == 0)
             return &t->items[i];
         i = (i + 1) & (uint32_t)(t->cap - 1);
     }
@@ -72,12 +108,12 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
                               old.items[i].span) = old.items[i];
         arena_release(arena, old.items, (size_t)old.cap * sizeof *old.items);
     }
-    uint32_t h = hash_name(name);
-    uint32_t i = h & (uint32_t)(t->cap - 1);
+    NameKey k = name_key(name);
+    uint32_t i = k.home & (uint32_t)(t->cap - 1);
     while (t->items[i].name)
         i = (i + 1) & (uint32_t)(t->cap - 1);
     t->items[i].name = name;
-    t->items[i].hash = h;
+    t->items[i].hash = k.hash;
     t->items[i].span = span;
     t->len++;
     return &t->items[i];
@@ -877,7 +913,7 @@ static NodeId arith(Resolver *r, IrOp op, NodeId a, NodeId b)
     const IrNode *x = ir_at(r->ir, a);
     const IrNode *y = b == NO_NODE ? NULL : ir_at(r->ir, b);
     if (x->op == IR_CONST && (!y || y->op == IR_CONST) && op != IR_POW) {
-        double v[3] = {x->num, y ? y->num : 0, 0};
+        double v[3] = {ir_const_num(x), y ? ir_const_num(y) : 0, 0};
         return ir_const(r->ir, apply_op(op, v));
     }
     return ir_node(r->ir, op, a, b, NO_NODE);
@@ -891,11 +927,11 @@ static void node_vars(const Ir *ir, NodeId id, int32_t *vars, int *n,
     int32_t found[IR_MAX_RANK + 1];
     int nf = 0;
     if (nd->op == IR_READ) {
-        int len = ir_tuple_len(ir, nd->tuple);
+        int len = ir_tuple_len(ir, ir_read_tuple(nd));
         for (int k = 0; k < len; k++)
-            found[nf++] = ir_tuple_vars(ir, nd->tuple)[k];
+            found[nf++] = ir_tuple_vars(ir, ir_read_tuple(nd))[k];
     } else if (nd->op == IR_INDEX) {
-        found[nf++] = nd->var;
+        found[nf++] = ir_leaf_var(nd);
     }
     for (int i = 0; i < nf; i++) {
         int seen = 0;
@@ -1467,7 +1503,7 @@ static int reads_marked(const Ir *ir, NodeId id, const char *varied)
 {
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ)
-        return varied[n->array];
+        return varied[ir_read_array(n)];
     for (int k = 0; k < n->nargs; k++)
         if (reads_marked(ir, n->arg[k], varied))
             return 1;
@@ -1518,7 +1554,7 @@ static void prune(Resolver *r)
         while (stack.len > 0) {
             const IrNode *n = ir_at(ir, stack.items[--stack.len]);
             if (n->op == IR_READ)
-                ir->arrays.items[n->array].used = 1;
+                ir->arrays.items[ir_read_array(n)].used = 1;
             for (int k = 0; k < n->nargs; k++)
                 VEC_PUSH(r->arena, stack, n->arg[k]);
         }

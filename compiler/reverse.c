@@ -26,7 +26,7 @@ static int reads_varied(const Ir *ir, NodeId n)
 {
     const IrNode *nd = ir_at(ir, n);
     if (nd->op == IR_READ)
-        return ir->arrays.items[nd->array].varied;
+        return ir->arrays.items[ir_read_array(nd)].varied;
     for (int i = 0; i < nd->nargs; i++)
         if (reads_varied(ir, nd->arg[i]))
             return 1;
@@ -37,7 +37,7 @@ static void mark_useful(Ir *ir, NodeId n)
 {
     const IrNode *nd = ir_at(ir, n);
     if (nd->op == IR_READ)
-        ir->arrays.items[nd->array].useful = 1;
+        ir->arrays.items[ir_read_array(nd)].useful = 1;
     for (int i = 0; i < nd->nargs; i++)
         mark_useful(ir, nd->arg[i]);
 }
@@ -161,8 +161,8 @@ static void reverse_stmt(Reverse *rv, const IrStmt *s)
         if (winner != NO_NODE)
             w = ir_node(ir, IR_SELECT, winner, w, ir_const(ir, 0));
         const IrNode *rd = ir_at(ir, leaf);
-        int32_t adj_a = adjoint_of(rv, rd->array);
-        accumulate(rv, adj_a, rd->tuple, s->domain, w, s->origin);
+        int32_t adj_a = adjoint_of(rv, ir_read_array(rd));
+        accumulate(rv, adj_a, ir_read_tuple(rd), s->domain, w, s->origin);
     }
 }
 
@@ -180,7 +180,7 @@ static void drop_unread(Ir *ir)
         ir_mark_reached(ir, &ir->reverse, reached);
         for (int i = 0; i < ir->nodes.len; i++)
             if (reached[i] && ir->nodes.items[i].op == IR_READ)
-                read[ir->nodes.items[i].array] = 1;
+                read[ir_read_array(&ir->nodes.items[i])] = 1;
         int out = 0;
         for (int i = 0; i < ir->reverse.len; i++) {
             const IrStmt *s = &ir->reverse.items[i];

@@ -15,7 +15,7 @@ static NodeId num(Ir *ir, double v)
 static int is_const(const Ir *ir, NodeId n, double v)
 {
     return n != NO_NODE && ir_at(ir, n)->op == IR_CONST &&
-           ir_at(ir, n)->num == v;
+           ir_const_num(ir_at(ir, n)) == v;
 }
 
 static NodeId op1(Ir *ir, IrOp op, NodeId a)
@@ -46,7 +46,7 @@ static void active_reads(Ir *ir, NodeId n, NodeList *seen, NodeList *reads)
     VEC_PUSH(ir->arena, *seen, n);
     const IrNode *nd = ir_at(ir, n);
     if (nd->op == IR_READ) {
-        const IrArray *a = &ir->arrays.items[nd->array];
+        const IrArray *a = &ir->arrays.items[ir_read_array(nd)];
         if (a->varied && a->useful)
             VEC_PUSH(ir->arena, *reads, n);
         return;
@@ -78,7 +78,7 @@ NodeId rules_add(Ir *ir, NodeId a, NodeId b)
         return a;
     const IrNode *x = ir_at(ir, a), *y = ir_at(ir, b);
     if (x->op == IR_CONST && y->op == IR_CONST)
-        return num(ir, x->num + y->num);
+        return num(ir, ir_const_num(x) + ir_const_num(y));
     if (y->op == IR_NEG)
         return op2(ir, IR_SUB, a, y->arg[0]);
     return op2(ir, IR_ADD, a, b);
@@ -90,7 +90,7 @@ NodeId rules_mul(Ir *ir, NodeId a, NodeId b)
         return NO_NODE;
     const IrNode *ca = ir_at(ir, a), *cb = ir_at(ir, b);
     if (ca->op == IR_CONST && cb->op == IR_CONST)
-        return num(ir, ca->num * cb->num);
+        return num(ir, ir_const_num(ca) * ir_const_num(cb));
     if (is_const(ir, a, 1))
         return b;
     if (is_const(ir, b, 1))
@@ -160,13 +160,14 @@ NodeId rules_partial(Ir *ir, NodeId n, int arg, NodeId value)
         if (e->op == IR_CONST) {
             /* the power rule; for integer exponents no log(a) appears, so
              * negative a works */
-            if (e->num == 0)
+            if (ir_const_num(e) == 0)
                 return NO_NODE;
-            if (e->num == 1)
+            if (ir_const_num(e) == 1)
                 return one;
-            if (e->num == 2)
+            if (ir_const_num(e) == 2)
                 return rules_mul(ir, num(ir, 2), x);
-            return rules_mul(ir, y, op2(ir, IR_POW, x, num(ir, e->num - 1)));
+            return rules_mul(ir, y, op2(ir, IR_POW, x,
+                                        num(ir, ir_const_num(e) - 1)));
         }
         return rules_mul(ir, y, op2(ir, IR_POW, x, sub(ir, y, one)));
     }

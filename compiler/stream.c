@@ -58,18 +58,18 @@ static int check_reads(Plan *p, NodeId id, int32_t row, char *seen)
     seen[id] = 1;
     const IrNode *n = ir_at(p->ir, id);
     if (n->op == IR_READ) {
-        const IrArray *a = &p->ir->arrays.items[n->array];
+        const IrArray *a = &p->ir->arrays.items[ir_read_array(n)];
         int first_only;
         int dims = size_dims(p, a, &first_only);
-        if (p->reduced[n->array] || p->after[n->array])
+        if (p->reduced[ir_read_array(n)] || p->after[ir_read_array(n)])
             return refuse(p, "a row needs a value computed from all the "
                              "rows");
         if (dims > 1 || (dims == 1 && !first_only))
             return refuse(p, "an array has the size in a dimension other "
                              "than its first");
-        if (dims == 1 && ir_tuple_vars(p->ir, n->tuple)[0] != row)
+        if (dims == 1 && ir_tuple_vars(p->ir, ir_read_tuple(n))[0] != row)
             return refuse(p, "a row reads another row");
-        if (dims == 1 && a->role != ROLE_INPUT && !p->per_row[n->array])
+        if (dims == 1 && a->role != ROLE_INPUT && !p->per_row[ir_read_array(n)])
             return refuse(p, "a row reads an array not computed row by row");
     }
     for (int i = 0; i < n->nargs; i++)
@@ -83,7 +83,7 @@ static int reads_after(const Plan *p, NodeId id)
 {
     const IrNode *n = ir_at(p->ir, id);
     if (n->op == IR_READ)
-        return p->reduced[n->array] || p->after[n->array];
+        return p->reduced[ir_read_array(n)] || p->after[ir_read_array(n)];
     for (int i = 0; i < n->nargs; i++)
         if (reads_after(p, n->arg[i]))
             return 1;

@@ -45,7 +45,8 @@ static NodeId directional(Tangent *tg, const IrStmt *s)
         NodeId leaf = tg->reads.items[i];
         NodeId d = rules_derivative(ir, &tg->memo, s->expr, leaf, self);
         const IrNode *rd = ir_at(ir, leaf);
-        NodeId tan = ir_read(ir, tangent_of(ir, rd->array), rd->tuple);
+        NodeId tan = ir_read(ir, tangent_of(ir, ir_read_array(rd)),
+                             ir_read_tuple(rd));
         sum = rules_add(ir, sum, rules_mul(ir, d, tan));
     }
     return sum;
@@ -100,7 +101,7 @@ static void mark_needed(const Ir *ir, NodeId id, char *need, int *stamp,
     stamp[id] = now;
     const IrNode *n = ir_at(ir, id);
     if (n->op == IR_READ)
-        need[n->array] = 1;
+        need[ir_read_array(n)] = 1;
     for (int i = 0; i < n->nargs; i++)
         mark_needed(ir, n->arg[i], need, stamp, now);
 }
