@@ -170,8 +170,8 @@ static int write_special(const StreamedOutput *f)
 {
     if (is_stdout_file(f->target)) {
         fflush(stdout);
-        return write_fd(STDOUT_FILENO, f->target, f->text.data,
-                        f->text.len) ? -1 : 0;
+        return writer_write_fd(STDOUT_FILENO, f->target, f->text.data,
+                               f->text.len);
     }
     int fd = open(f->target, O_WRONLY | O_TRUNC);
     if (fd < 0) {
