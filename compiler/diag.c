@@ -14,6 +14,8 @@ void diag_init(Diag *d, const Source *src, FILE *out)
     d->errors = 0;
     d->warnings = 0;
     d->max_errors = 20;
+    d->max_warnings = 100;
+    d->shown = 1;
     d->files = NULL;
 }
 
@@ -225,7 +227,8 @@ static void report(Diag *d, const char *kind, Span at, const char *fmt,
 void diag_error(Diag *d, Span at, const char *fmt, ...)
 {
     d->errors++;
-    if (d->errors > d->max_errors) {
+    d->shown = d->errors <= d->max_errors;
+    if (!d->shown) {
         if (d->errors == d->max_errors + 1 && d->out)
             fprintf(d->out, "%s: too many errors (limit is %d); stopping\n",
                     d->src->path, d->max_errors);
@@ -240,6 +243,14 @@ void diag_error(Diag *d, Span at, const char *fmt, ...)
 void diag_warning(Diag *d, Span at, const char *fmt, ...)
 {
     d->warnings++;
+    /* a model of a million unused values would bury the rest */
+    d->shown = d->warnings <= d->max_warnings && d->errors <= d->max_errors;
+    if (!d->shown) {
+        if (d->warnings == d->max_warnings + 1 && d->out)
+            fprintf(d->out, "%s: more than %d warnings; the rest are counted "
+                    "but not shown\n", d->src->path, d->max_warnings);
+        return;
+    }
     va_list ap;
     va_start(ap, fmt);
     report(d, "warning", at, fmt, ap);
@@ -248,7 +259,7 @@ void diag_warning(Diag *d, Span at, const char *fmt, ...)
 
 void diag_note(Diag *d, Span at, const char *fmt, ...)
 {
-    if (d->errors > d->max_errors)
+    if (!d->shown)
         return;
     va_list ap;
     va_start(ap, fmt);

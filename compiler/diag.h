@@ -58,6 +58,9 @@ typedef struct Diag {
     int errors;
     int warnings;
     int max_errors;     /* stop reporting (and compiling) after this many */
+    int max_warnings;   /* count but do not show warnings after this many */
+    int shown;          /* the last error or warning was shown, so its
+                           notes are too */
     SourceSet *files;   /* the other files spans may point into (and
                            where used files are added); NULL: none */
 } Diag;

@@ -429,6 +429,45 @@ START_TEST(no_trailing_newline_builds)
 }
 END_TEST
 
+/* ---------------------------------------------------------- warnings */
+
+/* A model of 150 unused values: the first 100 warnings are shown, then
+ * one line says the rest are counted; --fail-on-warning counts all. */
+START_TEST(warnings_are_capped)
+{
+    Buf model = {0};
+    buf_put(&model, "param p\n");
+    for (int k = 1; k <= 150; k++)
+        buf_printf(&model, "a%d = p + %d\n", k, k);
+    buf_put(&model, "y = p * 2\noutput y\n");
+    char *dir = tu_tmpdir(), *err = NULL;
+    tu_write_in(dir, "m.dvs", model.data);
+    ck_assert_int_eq(tu_dervish_capped(20, dir, &err, "build m.dvs"), 0);
+    int shown = 0;
+    for (const char *l = strstr(err, ": warning: "); l;
+         l = strstr(l + 1, ": warning: "))
+        shown++;
+    ck_assert_int_eq(shown, 100);
+    ck_assert_msg(strstr(err, "m.dvs:101:1: warning: 'a100' is defined but no "
+                              "output depends on it") != NULL, "%s", err);
+    char *tail = tu_format("m.dvs: more than 100 warnings; the rest are "
+                           "counted but not shown\n");
+    ck_assert_str_eq(err + strlen(err) - strlen(tail), tail);
+    free(err);
+    err = NULL;
+    ck_assert_int_eq(tu_dervish_capped(20, dir, &err, "build "
+                                       "--fail-on-warning m.dvs"), 1);
+    ck_assert_msg(strstr(err, "\nm.dvs: 150 warnings, treated as errors "
+                              "(--fail-on-warning); nothing written\n"),
+                  "%s", err);
+    tu_rmdir(dir);
+    free(dir);
+    free(err);
+    free(tail);
+    buf_free(&model);
+}
+END_TEST
+
 /* ------------------------------------------------------------ the paths */
 
 START_TEST(model_given_as_an_output)
@@ -486,5 +525,6 @@ int main(void)
                  crlf_error_shows_the_line_without_cr,
                  no_trailing_newline_builds);
     TU_ADD_TESTS(tu_case(s, "paths", 30), model_given_as_an_output);
+    TU_ADD_TESTS(tu_case(s, "warnings", 30), warnings_are_capped);
     return tu_main(s);
 }
