@@ -83,16 +83,17 @@ void emit_jacobian(Emitter *e, Function fn, Buf *c)
     buf_put(c, "\n{\n");
     if (opt->jacobian_by_tangent)
         buf_printf(c, "    /* One tangent sweep per param, each giving a column: "
-                      "%ld sweeps of about\n     * %ld operations, against "
-                      "%ld reverse sweeps (one per output entry) of\n     * "
-                      "about %ld. */\n", nparam, opt->work_tangent, nout,
+                      "%ld sweep%s of about\n     * %ld operations, against "
+                      "%ld reverse sweep%s (one per output entry) of\n     * "
+                      "about %ld. */\n", nparam, nparam == 1 ? "" : "s",
+                   opt->work_tangent, nout, nout == 1 ? "" : "s",
                    opt->work_adjoint);
     else
         buf_printf(c, "    /* One reverse sweep per output entry, each giving a "
                       "row: %ld sweep%s of\n     * about %ld operations, against "
-                      "%ld tangent sweeps (one per param) of\n     * about "
+                      "%ld tangent sweep%s (one per param) of\n     * about "
                       "%ld. */\n", nout, nout == 1 ? "" : "s", opt->work_adjoint,
-                   nparam, opt->work_tangent);
+                   nparam, nparam == 1 ? "" : "s", opt->work_tangent);
     if (e->storage.uses_work)
         check_sizes(c, e);
     /* the unit vectors run along one flat struct; the other gives the
