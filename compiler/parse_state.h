@@ -53,8 +53,8 @@ typedef struct ParseVisitor {
 } ParseVisitor;
 
 /* Parse the whole source like parse_model, but hand each statement to
- * v->visit as soon as it is complete and free its tree right after, so
- * the memory used does not grow with the model.  Syntax errors are
+ * v->visit as soon as it is complete and free its tree right after (or
+ * leave it to v->trees), so the memory used does not grow with the model.  Syntax errors are
  * counted (and reported) in diag; the failed names go to v, in arena. */
 void parse_each(Arena *arena, Diag *diag, const Source *src, ParseVisitor *v);
 
