@@ -123,6 +123,20 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
     return &t->items[i];
 }
 
+/* A model of many lines defines about a name per line: the symbol table
+ * starts at that size instead of growing (and rehashing) step by step. */
+static void presize_symbols(Resolver *r, int nlines)
+{
+    SymTable *t = &r->symbols;
+    int cap = 256;
+    while (cap < 2 * nlines && cap < (1 << 26))
+        cap *= 2;
+    size_t bytes = (size_t)cap * sizeof *t->items;
+    t->items = arena_alloc(r->arena, bytes);
+    memset(t->items, 0, bytes);     /* see table_insert */
+    t->cap = cap;
+}
+
 /* A copy of a name the resolver keeps: a statement's syntax tree may be
  * freed once it is resolved. */
 const char *rs_copy_name(Resolver *r, const char *name)
@@ -1838,6 +1852,7 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     r.ir = ir_new(arena, src);
     Span none = {0, 0};
     VEC_PUSH(arena, r.reading, rs_file_id(src->path, none));
+    presize_symbols(&r, src->nlines);
     if (m) {
         for (int i = 0; i < m->nstmts; i++)
             outline(&r, m->stmts[i]);
