@@ -488,6 +488,98 @@ AstExpr *parse_select(ParseState *ps, AstExpr *c, AstExpr *a, AstExpr *b)
     return set_depth(ps, e);
 }
 
+/* After the statements ending at a boundary are visited: free their trees,
+ * or leave them to the visitor and take its arena for the next ones. */
+static void next_trees(ParseState *ps, ParseVisitor *v)
+{
+    if (v->trees)
+        ps->arena = v->trees(v->ctx);
+    else
+        arena_clear(ps->arena);
+}
+
+/* Limits of the quick scan below; longer or deeper statements go to the
+ * parser, whose own limits are far above these. */
+#define QUICK_TOKENS 256
+#define QUICK_NESTING 32
+
+/* Binary operators of the grammar other than '?' and ':'. */
+static int quick_binary(int code)
+{
+    return wants_operand(code) && code != TOK_NOT && code != TOK_QUESTION &&
+           code != TOK_COLON && code != TOK_ASSIGN;
+}
+
+/* For a visitor that only reads names: scan a statement of the form
+ * 'NAME = EXPR' whose EXPR uses numbers, names, subscripts, calls,
+ * parentheses and operators other than '?:' (no reductions).  Every such
+ * statement the parser accepts without a message, so when the scan
+ * succeeds the visitor gets the statement without a tree.  Otherwise (any
+ * other form, a lexical error, a syntax error) the lexer is put back and
+ * the parser reads the statement as usual, reporting what it finds. */
+static int quick_define(ParseState *ps, ParseVisitor *v, Diag *quiet)
+{
+    Lexer saved = ps->lexer;
+    ps->lexer.diag = quiet;
+    quiet->errors = 0;
+    char nest[QUICK_NESTING];   /* '(' group, 'f' call, '[' subscript */
+    int depth = 0, operand = 1, ok = 0;
+    Token name = lex_next(&ps->lexer), prev = name, t = name;
+    if (name.code == TOK_NAME && lex_next(&ps->lexer).code == TOK_ASSIGN)
+        for (int n = 0; n < QUICK_TOKENS; n++) {
+            prev = t;
+            t = lex_next(&ps->lexer);
+            if (quiet->errors || ps->lexer.open.len > QUICK_NESTING)
+                break;
+            int c = t.code;
+            if (operand) {
+                if (c == TOK_NAME || c == TOK_NUMBER)
+                    operand = 0;
+                else if (c == TOK_LPAREN)
+                    nest[depth++] = '(';
+                else if (c == TOK_RPAREN && depth > 0 &&
+                         nest[depth - 1] == 'f' && prev.code == TOK_LPAREN)
+                    depth--, operand = 0;       /* f() */
+                else if (c != TOK_MINUS && c != TOK_NOT)
+                    break;
+            } else if (quick_binary(c)) {
+                operand = 1;
+            } else if ((c == TOK_LPAREN || c == TOK_LBRACKET) &&
+                       prev.code == TOK_NAME) {
+                nest[depth++] = c == TOK_LPAREN ? 'f' : '[';
+                operand = 1;
+            } else if (c == TOK_COMMA && depth > 0 && nest[depth - 1] != '(') {
+                operand = 1;
+            } else if (c == TOK_RPAREN && depth > 0 && nest[depth - 1] != '[') {
+                depth--;
+            } else if (c == TOK_RBRACKET && depth > 0 &&
+                       nest[depth - 1] == '[') {
+                depth--;
+            } else {
+                ok = (c == TOK_NEWLINE || c == TOK_SEMI) && depth == 0;
+                break;
+            }
+            if (depth == QUICK_NESTING)
+                break;
+        }
+    ps->lexer.diag = saved.diag;
+    if (!ok) {
+        ps->lexer = saved;
+        return 0;
+    }
+    AstStmt *s = arena_alloc(ps->arena, sizeof *s);
+    s->kind = STMT_DEFINE;
+    s->name = parse_name(ps, name);
+    s->name_span = name.span;
+    s->span = span_join(name.span, prev.span);
+    v->visit(v->ctx, s);
+    next_trees(ps, v);
+    ps->first = name;
+    ps->prev2 = prev;
+    ps->prev = t;
+    return 1;
+}
+
 /* Feed the whole source to the parser.  With a visitor, the statements
  * are handed over at each statement boundary (where the parser holds no
  * tree) and their trees freed; else they collect in ps->stmts. */
@@ -502,9 +594,15 @@ static void run(ParseState *ps, ParseVisitor *v)
         fputs("dervish: out of memory\n", stderr);
         exit(3);
     }
+    Diag quiet;
+    diag_init(&quiet, diag->src, NULL);
+    quiet.files = diag->files;
     for (;;) {
+        int fresh = ps->prev.code == TOK_NEWLINE || ps->prev.code == TOK_SEMI;
+        if (fresh && v && v->names_only && quick_define(ps, v, &quiet))
+            continue;
         Token t = lex_next(&ps->lexer);
-        if (ps->prev.code == TOK_NEWLINE || ps->prev.code == TOK_SEMI) {
+        if (fresh) {
             ps->first = t;
             ps->stmt_names.len = 0;
             ps->stmt_failed = 0;
@@ -533,7 +631,7 @@ static void run(ParseState *ps, ParseVisitor *v)
             for (int i = 0; i < ps->stmts.len; i++)
                 v->visit(v->ctx, ps->stmts.items[i]);
             ps->stmts.len = 0;
-            arena_clear(ps->arena);
+            next_trees(ps, v);
         }
         if (done)
             break;
@@ -565,7 +663,7 @@ void parse_each(Arena *arena, Diag *diag, const Source *src, ParseVisitor *v)
     memset(&ps, 0, sizeof ps);
     Arena trees;
     arena_init(&trees);
-    ps.arena = &trees;
+    ps.arena = v->trees ? v->trees(v->ctx) : &trees;
     ps.keep = arena;
     ps.diag = diag;
     ps.lexer.src = src;

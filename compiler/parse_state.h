@@ -41,11 +41,20 @@ typedef struct ParseVisitor {
     void *ctx;
     const char **failed;    /* out: what parse_model's failed_names holds */
     int nfailed;
+    /* visit reads no more of a definition 'NAME = EXPR' than its kind,
+     * name and spans: a plain one is checked by a quick scan of its tokens
+     * and handed over without a tree */
+    int names_only;
+    /* NULL: each statement's tree is freed once visited.  Else called
+     * after the statements ending at each boundary are visited: the trees
+     * so far are the visitor's, and the next ones are built in the arena
+     * it returns (given ctx) */
+    Arena *(*trees)(void *ctx);
 } ParseVisitor;
 
 /* Parse the whole source like parse_model, but hand each statement to
- * v->visit as soon as it is complete and free its tree right after, so
- * the memory used does not grow with the model.  Syntax errors are
+ * v->visit as soon as it is complete and free its tree right after (or
+ * leave it to v->trees), so the memory used does not grow with the model.  Syntax errors are
  * counted (and reported) in diag; the failed names go to v, in arena. */
 void parse_each(Arena *arena, Diag *diag, const Source *src, ParseVisitor *v);
 

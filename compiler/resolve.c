@@ -23,7 +23,7 @@
 #include "resolve_internal.h"
 #include "apply.h"
 #include "names.h"
-#include "parse_state.h"
+#include "parse_ahead.h"
 
 #include <limits.h>
 #include <math.h>
@@ -100,7 +100,11 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
     if (2 * (t->len + 1) > t->cap) {
         SymTable old = *t;
         t->cap = old.cap ? 2 * old.cap : 256;
-        t->items = arena_alloc(arena, (size_t)t->cap * sizeof *t->items);
+        size_t bytes = (size_t)t->cap * sizeof *t->items;
+        t->items = arena_alloc(arena, bytes);
+        /* written before it is probed: a page first read maps the zero
+         * page and faults again, flushing every core's TLB, when written */
+        memset(t->items, 0, bytes);
         t->len = 0;
         for (int i = 0; i < old.cap; i++)
             if (old.items[i].name)
@@ -117,6 +121,20 @@ static Symbol *table_insert(Arena *arena, SymTable *t, const char *name,
     t->items[i].span = span;
     t->len++;
     return &t->items[i];
+}
+
+/* A model of many lines defines about a name per line: the symbol table
+ * starts at that size instead of growing (and rehashing) step by step. */
+static void presize_symbols(Resolver *r, int nlines)
+{
+    SymTable *t = &r->symbols;
+    int cap = 256;
+    while (cap < 2 * nlines && cap < (1 << 26))
+        cap *= 2;
+    size_t bytes = (size_t)cap * sizeof *t->items;
+    t->items = arena_alloc(r->arena, bytes);
+    memset(t->items, 0, bytes);     /* see table_insert */
+    t->cap = cap;
 }
 
 /* A copy of a name the resolver keeps: a statement's syntax tree may be
@@ -1664,13 +1682,14 @@ static void outline(Resolver *r, const AstStmt *s)
 }
 
 /* Names that statements which failed to parse were defining: their uses
- * stay quiet. */
+ * stay quiet.  (The list may be the reading thread's: names are copied.) */
 static void note_unparsed(Resolver *r, const char *const *failed, int n)
 {
     for (int i = 0; i < n; i++)
         if (!rs_table_find(&r->unparsed, failed[i])) {
             Span none = {0, 0};
-            table_insert(r->arena, &r->unparsed, failed[i], none);
+            table_insert(r->arena, &r->unparsed, rs_copy_name(r, failed[i]),
+                         none);
         }
 }
 
@@ -1697,22 +1716,35 @@ static void visit_stmt(void *r, const AstStmt *s)
 }
 
 /* Both passes over SRC: the first with VISIT, reporting syntax errors;
- * the second, silent about the syntax, resolving each statement. */
+ * the second, silent about the syntax, resolving each statement.  The
+ * model's own file is read the second time by a thread of its own, from
+ * the start, so its trees are ready when the first pass is done (a used
+ * file is not: its reading would share the list of files, which grows as
+ * files are used). */
 void rs_read_twice(Resolver *r, const Source *src,
                    void (*visit)(void *, const AstStmt *),
                    const char *name, const char *stem)
 {
-    ParseVisitor first = {visit, r, NULL, 0};
-    parse_each(r->arena, r->diag, src, &first);
+    ParseAhead *ahead = src == r->diag->src ? parse_ahead_start(r->diag, src)
+                                            : NULL;
+    ParseVisitor first = {visit, r, NULL, 0, 1, NULL};
+    if (ahead)
+        parse_ahead_first(ahead, visit, r, &first.failed, &first.nfailed);
+    else
+        parse_each(r->arena, r->diag, src, &first);
     if (visit == rs_visit_names)
         note_unparsed(r, first.failed, first.nfailed);
     else
         start(r, first.failed, first.nfailed, name, stem);
+    if (ahead) {
+        parse_ahead_finish(ahead, visit_stmt, r);
+        return;
+    }
     Diag quiet;
     diag_init(&quiet, r->diag->src, NULL);
     quiet.files = r->diag->files;
     quiet.max_errors = r->diag->max_errors;
-    ParseVisitor second = {visit_stmt, r, NULL, 0};
+    ParseVisitor second = {visit_stmt, r, NULL, 0, 0, NULL};
     parse_each(r->arena, &quiet, src, &second);
 }
 
@@ -1820,6 +1852,7 @@ Ir *resolve_model(Arena *arena, Diag *diag, const Source *src,
     r.ir = ir_new(arena, src);
     Span none = {0, 0};
     VEC_PUSH(arena, r.reading, rs_file_id(src->path, none));
+    presize_symbols(&r, src->nlines);
     if (m) {
         for (int i = 0; i < m->nstmts; i++)
             outline(&r, m->stmts[i]);

@@ -68,18 +68,22 @@ static void lex_error(Lexer *lx, Span at, const char *fmt, ...)
     lx->error_in_stmt = 1;
 }
 
+/* (Lengths are stored: every name of the model comes through here.) */
+#define WORD(w, code) {w, sizeof w - 1, code}
 static int keyword(const unsigned char *s, size_t n)
 {
-    static const struct { const char *word; int code; } words[] = {
-        {"model", TOK_MODEL}, {"const", TOK_CONST}, {"input", TOK_INPUT},
-        {"param", TOK_PARAM}, {"output", TOK_OUTPUT}, {"size", TOK_SIZE},
-        {"def", TOK_DEF}, {"use", TOK_USE},
+    static const struct { const char *word; size_t len; int code; } words[] = {
+        WORD("model", TOK_MODEL), WORD("const", TOK_CONST),
+        WORD("input", TOK_INPUT), WORD("param", TOK_PARAM),
+        WORD("output", TOK_OUTPUT), WORD("size", TOK_SIZE),
+        WORD("def", TOK_DEF), WORD("use", TOK_USE),
     };
     for (size_t i = 0; i < sizeof words / sizeof words[0]; i++)
-        if (strlen(words[i].word) == n && memcmp(words[i].word, s, n) == 0)
+        if (words[i].len == n && memcmp(words[i].word, s, n) == 0)
             return words[i].code;
     return TOK_NAME;
 }
+#undef WORD
 
 static Token op_token(const Lexer *lx, const unsigned char *start, int code)
 {
