@@ -50,9 +50,6 @@ static void choose_functions(DvCompilation *c, const Ir *ir, int asked)
     c->emit = asked ? asked : scalar ? DV_EMIT_DEFAULT : DV_EMIT_STRUCT_DEFAULT;
     int wrong = c->emit & (scalar ? DV_EMIT_STRUCT_ONLY : DV_EMIT_SCALAR_ONLY);
     if (wrong) {
-        static const char *const kinds[] = {"value", "gradient", "tangent",
-                                            "hessvec", "hessian", "adjoint",
-                                            "jacobian"};
         int k = 0;
         while (!(wrong & (1 << k)))
             k++;
@@ -60,12 +57,13 @@ static void choose_functions(DvCompilation *c, const Ir *ir, int asked)
             diag_error(&c->diag, ir->output_span,
                        "--emit %s is for models whose outputs are not one "
                        "scalar; '%s' is one: emit gradient (or tangent)",
-                       kinds[k], ir->arrays.items[ir->output].name);
+                       emit_kind_name(k), ir->arrays.items[ir->output].name);
         else
             diag_error(&c->diag, ir->output_stmt,
                        "--emit %s needs one scalar output, and this model's "
                        "outputs fill a struct: emit adjoint (the gradient of "
-                       "any weighting of the outputs) or jacobian", kinds[k]);
+                       "any weighting of the outputs) or jacobian",
+                       emit_kind_name(k));
     }
     if (c->emit & DV_EMIT_HESSIAN)
         c->emit |= DV_EMIT_HESSVEC;
@@ -76,14 +74,7 @@ static void choose_functions(DvCompilation *c, const Ir *ir, int asked)
  * param; the sweep it calls is emitted too. */
 static void plan_jacobian(DvCompilation *c, const Ir *ir)
 {
-    long nout = 0, nparam = 0;
-    for (int i = 0; i < ir->arrays.len; i++) {
-        const IrArray *a = &ir->arrays.items[i];
-        if (a->role == ROLE_PARAM)
-            nparam += ir_array_size(a);
-        if (a->is_output)
-            nout += ir_array_size(a);
-    }
+    long nout = ir_output_count(ir), nparam = ir_param_count(ir);
     c->work_adjoint = ir_work(ir, &ir->forward) + ir_work(ir, &ir->reverse);
     c->work_tangent = ir_work(ir, &ir->tangent);
     c->jacobian_by_tangent = (double)nparam * (double)c->work_tangent <

@@ -1021,17 +1021,6 @@ typedef struct OnePass {
     int fwd_from, fwd_to, rev_from, rev_to;
 } OnePass;
 
-static int reads_marked(const Ir *ir, NodeId id, const char *marked)
-{
-    const IrNode *n = ir_at(ir, id);
-    if (n->op == IR_READ && marked[ir_read_array(n)])
-        return 1;
-    for (int i = 0; i < n->nargs; i++)
-        if (reads_marked(ir, n->arg[i], marked))
-            return 1;
-    return 0;
-}
-
 /* One pass suffices when no adjoint computed before or inside the rows
  * reads anything that needs all the rows (a sum over them, or a value
  * computed after them): then each row's adjoints are known while the row
@@ -1072,7 +1061,7 @@ static int one_pass(const Emitter *e, OnePass *op)
     }
     int ok = 1;
     for (int i = 0; i < rend && ok; i++)
-        ok = !reads_marked(ir, rev->items[i].expr, late);
+        ok = !ir_reads_marked(ir, rev->items[i].expr, late);
     free(late);
     op->fwd_from = f;
     op->fwd_to = fend;

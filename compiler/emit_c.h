@@ -29,6 +29,11 @@ typedef struct EmitOptions {
                                    runtime helpers' float forms */
 } EmitOptions;
 
+/* The functions the emitter can write, as --emit names them: kind k has
+ * the DV_EMIT_* bit 1 << k (dervish.h). */
+#define EMIT_KINDS 7
+const char *emit_kind_name(int kind);
+
 /* Append the source to c and the header to h. */
 void emit_c(const Ir *ir, const EmitOptions *opt, Buf *c, Buf *h);
 

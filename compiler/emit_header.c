@@ -8,15 +8,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-long emit_param_count(const Ir *ir)
-{
-    long n = 0;
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (ir->arrays.items[i].role == ROLE_PARAM)
-            n += ir_array_size(&ir->arrays.items[i]);
-    return n;
-}
-
 /* One struct member: a fixed array, a pointer to a sized input (row-major,
  * the caller's), or a size. */
 static void emit_member(Buf *h, const Ir *ir, const IrArray *a,
@@ -59,21 +50,13 @@ static void emit_struct(Buf *h, const Ir *ir, IrRole role, const char *type,
     buf_printf(h, "} %s;\n\n", type);
 }
 
-long emit_output_count(const Ir *ir)
-{
-    long n = 0;
-    for (int i = 0; i < ir->outputs.len; i++)
-        n += ir_array_size(&ir->arrays.items[ir->outputs.items[i]]);
-    return n;
-}
-
 /* The outputs' struct, in 'output' order, and its flat view. */
 static void emit_output_struct(Buf *h, const Ir *ir, const char *real)
 {
     const char *m = ir->model;
     char *M = emit_upper(m);
     buf_printf(h, "#define %s_OUTPUT_COUNT %ld   /* %ss in %s_output */\n\n",
-               M, emit_output_count(ir), real, m);
+               M, ir_output_count(ir), real, m);
     buf_printf(h, "/* The outputs, in the model's 'output' order. */\n"
                   "typedef struct %s_output {\n", m);
     for (int i = 0; i < ir->outputs.len; i++)
@@ -90,12 +73,17 @@ static void emit_output_struct(Buf *h, const Ir *ir, const char *real)
     free(M);
 }
 
+const char *emit_kind_name(int kind)
+{
+    static const char *const names[EMIT_KINDS] = {
+        "value", "gradient", "tangent", "hessvec", "hessian", "adjoint",
+        "jacobian"};
+    return names[kind];
+}
+
 const char *emit_fn_name(Function fn)
 {
-    static const char *const names[] = {"value", "gradient", "tangent",
-                                        "hessvec", "hessian", "adjoint",
-                                        "jacobian"};
-    return names[fn];
+    return emit_kind_name((int)fn);
 }
 
 /* The order the functions are declared and defined in. */
@@ -331,7 +319,7 @@ void emit_header(const Ir *ir, const EmitOptions *opt,
                opt->model_file, opt->version, M, M,
                st->uses_work ? "#include <stddef.h>\n\n" : "");
     buf_printf(h, "#define %s_PARAM_COUNT %ld   /* %ss in %s_param */\n\n",
-               M, emit_param_count(ir), real, m);
+               M, ir_param_count(ir), real, m);
     emit_struct(h, ir, ROLE_PARAM, arena_printf(ir->arena, "%s_param", m),
                 "The params: what the gradient is taken with respect to.",
                 real);

@@ -97,8 +97,6 @@ void emit_sweeps(Emitter *e);
 #define EMIT_USE(e, home) ((e)->used_homes |= 1u << (home))
 
 /* emit_header.c */
-long emit_output_count(const Ir *ir);     /* reals in the output struct */
-long emit_param_count(const Ir *ir);      /* and in the param struct */
 const char *emit_fn_name(Function fn);
 extern const Function emit_order[FN_COUNT];
 /* The caller's structs FN takes, in argument order, into homes; returns

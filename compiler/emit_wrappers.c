@@ -75,7 +75,7 @@ void emit_jacobian(Emitter *e, Function fn, Buf *c)
     const EmitOptions *opt = e->opt;
     const char *m = ir->model, *sfx = emit_real_suffix(opt);
     char *M = emit_upper(m);
-    long nout = emit_output_count(ir), nparam = emit_param_count(ir);
+    long nout = ir_output_count(ir), nparam = ir_param_count(ir);
     const char *in = e->storage.has_input ? DV_PREFIX "in, " : "";
     const char *work = e->storage.uses_work ? ", " DV_PREFIX "work" : "";
     buf_put(c, "\n");

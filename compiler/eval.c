@@ -44,6 +44,7 @@ struct Evaluation {
     Plan *tplan;        /* per statement of the tangent list */
     Plan *hfplan, *hrplan;  /* per statement of the Hessian-vector lists */
     long nparams;
+    int32_t *seed;      /* per output: its ROLE_SEED array, or -1 */
     double **param;     /* per flat param entry: where it is stored */
     int blocked;        /* complex step: first op without a complex form that
                            saw a perturbed operand, or -1 */
@@ -164,6 +165,14 @@ Evaluation *eval_new_sized(const Ir *ir, const long *sizes)
             ev->nparams += ev->count[i];
     }
     ev->param = xcalloc((size_t)ev->nparams, sizeof *ev->param);
+    ev->seed = xcalloc((size_t)ir->outputs.len, sizeof *ev->seed);
+    for (int o = 0; o < ir->outputs.len; o++) {
+        ev->seed[o] = -1;
+        for (int i = 0; i < narrays; i++)
+            if (ir->arrays.items[i].role == ROLE_SEED &&
+                ir->arrays.items[i].primal == ir->outputs.items[o])
+                ev->seed[o] = i;
+    }
     long k = 0;
     for (int i = 0; i < narrays; i++)
         if (ir->arrays.items[i].role == ROLE_PARAM)
@@ -211,6 +220,7 @@ void eval_free(Evaluation *ev)
     free(ev->cval);
     free(ev->idx);
     free(ev->param);
+    free(ev->seed);
     free_plans(ev->fplan, ev->ir->forward.len);
     free_plans(ev->rplan, ev->ir->reverse.len);
     free_plans(ev->tplan, ev->ir->tangent.len);
@@ -353,17 +363,6 @@ static void run_list(Evaluation *ev, const IrStmtList *list, const Plan *plans)
         run_stmt(ev, &list->items[i], &plans[i]);
 }
 
-/* The seed array of output array i (ROLE_SEED), or -1 before the
- * reverse pass made it. */
-static int32_t seed_of(const Ir *ir, int32_t out)
-{
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (ir->arrays.items[i].role == ROLE_SEED &&
-            ir->arrays.items[i].primal == out)
-            return i;
-    return -1;
-}
-
 /* For outputs in a struct, the sum of each element of OF(output array)
  * times its seed; else the one output's element.  OF gives the output
  * array itself, or its tangent. */
@@ -376,7 +375,7 @@ static double seeded(const Evaluation *ev, int tangents)
         int32_t of = tangents ? ir->arrays.items[out].tangent : out;
         if (!ir->struct_output)
             return of >= 0 ? ev->data[of][0] : 0.0;
-        int32_t seed = seed_of(ir, out);
+        int32_t seed = ev->seed[i];
         if (of < 0 || seed < 0)
             continue;
         for (long e = 0; e < ev->count[out]; e++)
@@ -424,7 +423,7 @@ void eval_set_seed(Evaluation *ev, const double *seed)
     long k = 0;
     for (int i = 0; i < ir->outputs.len; i++) {
         int32_t out = ir->outputs.items[i];
-        int32_t s = seed_of(ir, out);
+        int32_t s = ev->seed[i];
         for (long e = 0; e < ev->count[out]; e++, k++)
             if (s >= 0)
                 ev->data[s][e] = seed[k];
@@ -723,7 +722,7 @@ EvalStep eval_complex_step(Evaluation *ev, long k, double h)
         crun_stmt(ev, &ir->forward.items[i], &ev->fplan[i]);
     Cplx y = 0;
     for (int i = 0; i < ir->outputs.len; i++) {
-        int32_t out = ir->outputs.items[i], seed = seed_of(ir, out);
+        int32_t out = ir->outputs.items[i], seed = ev->seed[i];
         for (long e = 0; e < ev->count[out]; e++)
             y += ir->struct_output
                      ? (seed >= 0 ? ev->data[seed][e] : 0) * ev->cdata[out][e]

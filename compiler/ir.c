@@ -494,6 +494,34 @@ static void reach(const Ir *ir, NodeId id, char *used)
         reach(ir, n->arg[i], used);
 }
 
+long ir_param_count(const Ir *ir)
+{
+    long n = 0;
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_PARAM)
+            n += ir_array_size(&ir->arrays.items[i]);
+    return n;
+}
+
+long ir_output_count(const Ir *ir)
+{
+    long n = 0;
+    for (int i = 0; i < ir->outputs.len; i++)
+        n += ir_array_size(&ir->arrays.items[ir->outputs.items[i]]);
+    return n;
+}
+
+int ir_reads_marked(const Ir *ir, NodeId id, const char *marked)
+{
+    const IrNode *n = ir_at(ir, id);
+    if (n->op == IR_READ)
+        return marked[ir_read_array(n)];
+    for (int i = 0; i < n->nargs; i++)
+        if (ir_reads_marked(ir, n->arg[i], marked))
+            return 1;
+    return 0;
+}
+
 void ir_mark_reached(const Ir *ir, const IrStmtList *list, char *used)
 {
     for (int i = 0; i < list->len; i++)

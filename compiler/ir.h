@@ -274,11 +274,20 @@ static inline const IrNode *ir_at(const Ir *ir, NodeId id)
  * its dims; 1 for a scalar). */
 long ir_array_size(const IrArray *a);
 
+/* Elements of all params, and of all outputs (both have fixed extents):
+ * the reals of the emitted param and output structs. */
+long ir_param_count(const Ir *ir);
+long ir_output_count(const Ir *ir);
+
 /* True when no extent of the array is a runtime size. */
 int ir_array_fixed(const IrArray *a);
 
 /* True when the node is a condition (a comparison or logic op). */
 int ir_is_condition(const Ir *ir, NodeId id);
+
+/* True when expression id reads an array marked in marked[] (one flag per
+ * array). */
+int ir_reads_marked(const Ir *ir, NodeId id, const char *marked);
 
 /* Set used[id] for every node the statements of LIST reach (used has one
  * flag per node). */

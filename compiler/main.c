@@ -3,6 +3,7 @@
  * Exit status: 0 success, 1 the model has errors (or check found a
  * mismatch), 2 bad command line, 3 an I/O failure. */
 #include "dervish.h"
+#include "emit_c.h"
 #include "fileio.h"
 #include "gradcheck.h"
 #include "graph.h"
@@ -116,18 +117,14 @@ static int is_count(const char *s)
  * the list names something else or nothing. */
 static int emit_bits(const char *list)
 {
-    static const char *const kinds[] = {"value", "gradient", "tangent",
-                                        "hessvec", "hessian", "adjoint",
-                                        "jacobian"};
-    enum { NKINDS = sizeof kinds / sizeof *kinds };
     int bits = 0;
     for (const char *p = list;; p++) {
         size_t n = strcspn(p, ",");
         int k = 0;
-        while (k < NKINDS &&
-               !(strlen(kinds[k]) == n && strncmp(p, kinds[k], n) == 0))
+        while (k < EMIT_KINDS && !(strlen(emit_kind_name(k)) == n &&
+                                   strncmp(p, emit_kind_name(k), n) == 0))
             k++;
-        if (k == NKINDS)
+        if (k == EMIT_KINDS)
             return 0;
         bits |= 1 << k;
         p += n;

@@ -1516,18 +1516,6 @@ static void settle_outputs(Ir *ir)
 
 /* ------------------------------------------------------- dead values */
 
-/* True when expression id reads an array marked in varied[]. */
-static int reads_marked(const Ir *ir, NodeId id, const char *varied)
-{
-    const IrNode *n = ir_at(ir, id);
-    if (n->op == IR_READ)
-        return varied[ir_read_array(n)];
-    for (int k = 0; k < n->nargs; k++)
-        if (reads_marked(ir, n->arg[k], varied))
-            return 1;
-    return 0;
-}
-
 /* Among outputs in a struct, warn of each one no param reaches: its row
  * of the Jacobian is zero, which is likely a slip in the model. */
 static void warn_constant_outputs(Resolver *r)
@@ -1538,7 +1526,7 @@ static void warn_constant_outputs(Resolver *r)
         varied[i] = ir->arrays.items[i].role == ROLE_PARAM;
     for (int i = 0; i < ir->forward.len; i++) {
         const IrStmt *s = &ir->forward.items[i];
-        if (!varied[s->target] && reads_marked(ir, s->expr, varied))
+        if (!varied[s->target] && ir_reads_marked(ir, s->expr, varied))
             varied[s->target] = 1;
     }
     for (int i = 0; i < ir->outputs.len; i++)
