@@ -99,6 +99,8 @@ int dv_compile(DvCompilation *c, const char *path, const char *text,
     c->diag.files = &c->files;
     c->stack_limit = opt->stack_limit > 0 ? opt->stack_limit : DV_STACK_LIMIT;
     c->part_size = opt->part_size > 0 ? opt->part_size : DV_PART_SIZE;
+    c->loop_repeats = opt->loop_repeats == 0 ? DV_LOOP_REPEATS
+                      : opt->loop_repeats < 0 ? 0 : opt->loop_repeats;
     c->line_directives = opt->line_directives;
     c->real_float = opt->real_float;
 
@@ -136,6 +138,7 @@ void dv_emit(const DvCompilation *c, const char *source_name,
     o.version = DERVISH_VERSION;
     o.stack_limit = c->stack_limit;
     o.part_size = c->part_size;
+    o.loop_repeats = c->loop_repeats;
     o.emit = c->emit;
     o.jacobian_by_tangent = c->jacobian_by_tangent;
     o.work_adjoint = c->work_adjoint;

@@ -17,6 +17,11 @@
  * many statements is written as parts of about this many. */
 #define DV_PART_SIZE 100
 
+/* Default of DvOptions.loop_repeats: in a function that long, a run of at
+ * least this many repeats of one form of statements is written as a
+ * loop. */
+#define DV_LOOP_REPEATS 8
+
 /* The functions dervish build emits (DvOptions.emit, --emit), as bits. */
 enum { DV_EMIT_VALUE = 1, DV_EMIT_GRADIENT = 2, DV_EMIT_TANGENT = 4,
        DV_EMIT_HESSVEC = 8, DV_EMIT_HESSIAN = 16, DV_EMIT_ADJOINT = 32,
@@ -36,6 +41,8 @@ typedef struct DvOptions {
     FILE *diag_out;         /* where diagnostics go; NULL: nowhere */
     long stack_limit;       /* --stack-limit; 0 means DV_STACK_LIMIT */
     long part_size;         /* --part-size; 0 means DV_PART_SIZE */
+    long loop_repeats;      /* --loop-repeats; 0 means DV_LOOP_REPEATS,
+                               -1 no loops */
     int emit;               /* --emit: DV_EMIT_* bits; 0 means the default */
     int line_directives;    /* --line-directives */
     int real_float;         /* --real float: emit single precision */
@@ -53,6 +60,7 @@ typedef struct DvCompilation {
     Ir *ir;                 /* after the reverse pass; NULL on errors */
     long stack_limit;       /* for the emitter */
     long part_size;         /* for the emitter */
+    long loop_repeats;      /* for the emitter; 0: no loops */
     int emit;               /* DV_EMIT_* bits: what is emitted and checked */
     int jacobian_by_tangent;    /* see EmitOptions */
     long work_adjoint, work_tangent;

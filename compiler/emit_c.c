@@ -80,7 +80,7 @@ static void format_number(char *s, size_t n, double v, int as_float)
 
 /* The literal of constant v, from the emitter's slots when it was
  * written before. */
-static const char *number_text(Emitter *e, double v)
+const char *emit_number(Emitter *e, double v)
 {
     uint64_t bits;
     memcpy(&bits, &v, sizeof bits);
@@ -186,8 +186,10 @@ static int precedence(const Ir *ir, NodeId id)
     }
 }
 
-static void emit_access(Emitter *e, int32_t array, int32_t tuple)
+void emit_access(Emitter *e, int32_t array, int32_t tuple)
 {
+    if (e->roll && roll_access(e, array))
+        return;
     const IrArray *a = &e->ir->arrays.items[array];
     IrHome home = ir_home(e->ir, a);
     if (home != HOME_LOCAL) {
@@ -246,7 +248,8 @@ static void emit_expr(Emitter *e, NodeId id, int min_prec, int parent_op)
     switch (info->kind) {
     case OPK_LEAF:
         if (n->op == IR_CONST) {
-            buf_put(e->out, number_text(e, ir_const_num(n)));
+            if (!e->roll_run || !roll_const(e, id))
+                buf_put(e->out, emit_number(e, ir_const_num(n)));
         } else if (n->op == IR_READ) {
             emit_access(e, ir_read_array(n), ir_read_tuple(n));
         } else if (n->op == IR_SIZE) {
@@ -621,26 +624,41 @@ void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len)
 
 /* The dry run of a function in parts (emit_plan_frame) notes each local
  * array a part refers to; an array two parts refer to goes in the frame. */
+void emit_note_storage(Emitter *e, int id)
+{
+    if (id < 0)
+        return;
+    if (e->ref_part[id] != e->part && e->ref_part[id] != 0)
+        e->framed[id] = 1;
+    e->ref_part[id] = e->part;
+}
+
 static void note_ref(Emitter *e, int32_t array)
 {
     const IrArray *a = &e->ir->arrays.items[array];
     if (a->role == ROLE_INPUT || ir_home(e->ir, a) != HOME_LOCAL)
         return;
-    if (e->ref_part[array] != e->part && e->ref_part[array] != 0)
-        e->framed[array] = 1;
-    e->ref_part[array] = e->part;
+    emit_note_storage(e, e->roll ? roll_storage(e, array) : array);
 }
 
-static void note_expr_refs(Emitter *e, NodeId id)
+void emit_each_read(Emitter *e, NodeId id,
+                    void (*on_read)(Emitter *e, void *ctx, int32_t array),
+                    void *ctx)
 {
     if (e->node[id].visit == e->visit_stamp)
         return;
     e->node[id].visit = e->visit_stamp;
     const IrNode *n = ir_at(e->ir, id);
     if (n->op == IR_READ)
-        note_ref(e, ir_read_array(n));
+        on_read(e, ctx, ir_read_array(n));
     for (int i = 0; i < n->nargs; i++)
-        note_expr_refs(e, n->arg[i]);
+        emit_each_read(e, n->arg[i], on_read, ctx);
+}
+
+static void note_read(Emitter *e, void *ctx, int32_t array)
+{
+    (void)ctx;
+    note_ref(e, array);
 }
 
 /* The arrays emit_body would write s with: its target, what its
@@ -652,7 +670,7 @@ static void note_stmt_refs(Emitter *e, const IrStmt *s)
         e->ir->arrays.items[s->target].role == ROLE_ARGPOS)
         return;     /* written as 0, reads nothing */
     e->visit_stamp++;
-    note_expr_refs(e, s->expr);
+    emit_each_read(e, s->expr, note_read, NULL);
     if ((s->kind == SK_MAX || s->kind == SK_MIN) && s->argpos >= 0 &&
         e->argpos_read[e->fn][s->argpos])
         note_ref(e, s->argpos);
@@ -757,7 +775,7 @@ static void emit_group(Emitter *e, const IrStmt *const *s, int count,
     }
 }
 
-static void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
+void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label)
 {
     emit_group(e, &s, 1, origin_label);
 }
@@ -811,9 +829,16 @@ static void emit_seq(Emitter *e, const IrStmtList *list, int from, int to,
                      const char *label)
 {
     const Ir *ir = e->ir;
+    int l = list == e->fwd ? 0 : 1;
     for (int i = from; i < to;) {
         if (skipped(e, list, i)) {
             i++;
+            continue;
+        }
+        int run = e->roll ? roll_run_at(e->roll, l, i) : -1;
+        if (run >= 0) {
+            roll_emit(e, run, label);
+            i += e->roll->runs.items[run].repeats * e->roll->runs.items[run].period;
             continue;
         }
         const IrStmt *g[GROUP_MAX];
@@ -1107,7 +1132,10 @@ void emit_sweeps(Emitter *e)
     e->last_origin = UINT32_MAX;
     e->part = 1;
     e->part_stmts = 0;
-    memset(e->declared, 0, (size_t)ir->arrays.len);
+    memset(e->declared, 0, (size_t)roll_storage_count(e));
+    if (e->roll)    /* values kept in loops' slots are never declared */
+        for (int i = 0; i < ir->arrays.len; i++)
+            e->declared[i] |= e->roll->home[i].slot >= 0;
     const IrStmtList *fwd = e->fwd, *rev = e->rev;
     OnePass op;
     if (one_pass(e, &op)) {
@@ -1146,8 +1174,18 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     e->row_name = ir->row_size >= 0 ? row_counter(ir) : NULL;
     e->fwd = e->lists[fn][0];
     e->rev = e->lists[fn][1];
-    int nstmts = e->fwd->len + (e->rev ? e->rev->len : 0);
+    long nstmts = e->fwd->len + (e->rev ? e->rev->len : 0);
     e->parted = nstmts > 4 * e->opt->part_size;
+    if (e->parted && (e->roll = roll_plan(e)) != NULL) {
+        /* the loops' slots are storage past the arrays */
+        size_t n = (size_t)roll_storage_count(e) + 1;
+        e->declared = realloc(e->declared, n);
+        e->framed = realloc(e->framed, n);
+        e->ref_part = realloc(e->ref_part, n * sizeof *e->ref_part);
+        if (!e->declared || !e->framed || !e->ref_part)
+            exit(3);
+        e->parted = nstmts - e->roll->saved > 4 * e->opt->part_size;
+    }
     if (e->parted) {
         emit_plan_frame(e, fn);
         emit_frame(e, fn);
@@ -1195,6 +1233,8 @@ static void emit_function(Emitter *e, Function fn, Buf *c)
     }
     emit_put_code(e, c, body.data, body.len);
     buf_free(&body);
+    roll_free(e->roll);
+    e->roll = NULL;
 }
 
 /* What the functions of a sized model with an output struct do when the

@@ -14,6 +14,10 @@ typedef struct EmitOptions {
     long stack_limit;           /* most doubles in one local array; larger
                                    arrays go to the caller's work buffer */
     long part_size;             /* statements in a part of a long function */
+    long loop_repeats;          /* in a long function, a run of at least
+                                   this many repeats of one form of
+                                   statements is written as a loop; 0:
+                                   never */
     const char *model_path;     /* the model as dervish read it (#line) */
     int line_directives;        /* point each statement's code at the model
                                    with #line */

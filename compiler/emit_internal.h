@@ -35,6 +35,88 @@ typedef struct NodeMarks {
     int visit;          /* visit_stamp when last visited */
 } NodeMarks;
 
+/* Repeat loops (emit_roll.c): how a run of statements that repeat one
+ * form is written as one loop. */
+typedef enum RollColKind {
+    COL_AS_IS,      /* the same constant or array in every repeat */
+    COL_TABLE,      /* a constant that differs: dvs_kL[dvs_r][column] */
+    COL_FLAT,       /* a member of p, grad, dir or hv that differs:
+                       dvs_HOME_flat[dvs_xL[dvs_r][column]] */
+    COL_OWN,        /* the target, a value first defined here: its slot */
+    COL_SLOT        /* a value a slot holds, at step * dvs_r + off */
+} RollColKind;
+
+/* A leaf (constant or read) or the target of one statement of a run's
+ * form, in the order the statement's expression first visits them. */
+typedef struct RollCol {
+    int32_t key;        /* the first repeat's array, or constant's node */
+    uint8_t is_const, is_target;
+    uint8_t kind;       /* RollColKind */
+    uint8_t home;       /* COL_FLAT: the struct (IrHome) */
+    int column;         /* COL_TABLE, COL_FLAT: the table's column */
+    int slot;           /* COL_OWN, COL_SLOT */
+    int step;           /* COL_OWN, COL_SLOT: the index is step * dvs_r */
+    long off;           /* + off */
+} RollCol;
+
+/* Where a run keeps the values one statement of its form defines:
+ * dvs_vL_Q, an array of len, or a scalar when only the latest value is
+ * ever read (carried from repeat to repeat). */
+typedef struct RollSlot {
+    int run, q;
+    long base;          /* entries before the first repeat's: values from
+                           before the loop that reads d repeats back see */
+    long len;           /* base + repeats */
+    int carried;
+} RollSlot;
+
+/* A value from before a loop copied into a slot's entry for repeat
+ * `repeat` (< 0) before the loop starts. */
+typedef struct RollCopy {
+    int q, repeat;
+    int32_t array;
+} RollCopy;
+
+typedef struct RollRun {
+    const IrStmtList *list;
+    int from, period, repeats;  /* list[from .. from + period * repeats) */
+    int *col_at;        /* per position of the form, its first column (the
+                           target); [period]: the number of columns */
+    int col_from;       /* the columns, in RollPlan.cols */
+    int nconst, nflat;  /* the tables' widths */
+    int slot_from;      /* slot of position q: slot_from + q */
+    int prologue_from, prologue_to;
+} RollRun;
+
+typedef struct RollHome {
+    int32_t slot;       /* the slot holding the array, or -1 */
+    int32_t index;
+} RollHome;
+
+#define ROLL_VEC(T) struct { T *items; int len, cap; }
+#define ROLL_PUSH(v, x)                                                        \
+    do {                                                                       \
+        if ((v).len == (v).cap) {                                              \
+            (v).cap = (v).cap ? 2 * (v).cap : 16;                              \
+            (v).items = realloc((v).items, (size_t)(v).cap * sizeof *(v).items); \
+            if (!(v).items)                                                    \
+                exit(3);                                                       \
+        }                                                                      \
+        (v).items[(v).len++] = (x);                                            \
+    } while (0)
+
+typedef struct RollPlan {
+    ROLL_VEC(RollRun) runs;
+    ROLL_VEC(RollSlot) slots;
+    ROLL_VEC(RollCol) cols;
+    ROLL_VEC(RollCopy) prologue;
+    RollHome *home;     /* per array */
+    int list_runs[3];   /* the runs of the function's forward list, then
+                           of its reverse list: [list_runs[l],
+                           list_runs[l + 1]), in order */
+    long saved;         /* statements the loops leave out */
+} RollPlan;
+
 typedef struct Emitter {
     const Ir *ir;
     const EmitOptions *opt;
@@ -80,6 +162,10 @@ typedef struct Emitter {
     Buf *back;          /* with #line: where the last return to the C file */
     size_t back_at;     /* was written, and the length after it */
     NumberText numbers[NUMBER_SLOTS];  /* recent constants, by bit pattern */
+    /* repeat loops (emit_roll.c) */
+    RollPlan *roll;     /* the current function's, or NULL */
+    const RollRun *roll_run;    /* the loop whose body is being written */
+    int roll_q;         /* and the position in its form */
 } Emitter;
 
 /* emit_c.c */
@@ -93,6 +179,17 @@ int emit_is_external(const IrArray *a, const Ir *ir);
 const char *emit_c_type(const Emitter *e, const IrArray *a);
 void emit_put_code(const Emitter *e, Buf *to, const char *text, size_t len);
 void emit_sweeps(Emitter *e);
+const char *emit_number(Emitter *e, double v);
+void emit_access(Emitter *e, int32_t array, int32_t tuple);
+void emit_stmt(Emitter *e, const IrStmt *s, const char *origin_label);
+/* Call on_read for each array expression id reads, once each (a walk
+ * stamped with e->visit_stamp, which the caller bumps first). */
+void emit_each_read(Emitter *e, NodeId id,
+                    void (*on_read)(Emitter *e, void *ctx, int32_t array),
+                    void *ctx);
+/* In the dry run of a function in parts: storage id (an array, or past
+ * the arrays a loop's slot) is referred to in the current part. */
+void emit_note_storage(Emitter *e, int id);
 
 #define EMIT_USE(e, home) ((e)->used_homes |= 1u << (home))
 
@@ -120,6 +217,25 @@ void emit_helpers(const Ir *ir, const char *reached, const Storage *st,
 /* emit_wrappers.c */
 void emit_hessian(Emitter *e, Function fn, Buf *c);
 void emit_jacobian(Emitter *e, Function fn, Buf *c);
+
+/* emit_roll.c */
+/* The repeat loops of the function being written (e->fwd, e->rev), or
+ * NULL when it has none. */
+RollPlan *roll_plan(Emitter *e);
+void roll_free(RollPlan *plan);
+/* The run of list l (0: forward, 1: reverse) that starts at statement i,
+ * or -1. */
+int roll_run_at(const RollPlan *plan, int l, int i);
+/* Storage ids: the arrays, then the slots. */
+int roll_storage_count(const Emitter *e);
+/* Where array lives: its own id, a slot's, or -1 (a caller's struct). */
+int roll_storage(const Emitter *e, int32_t array);
+/* Write an access to array or constant id where a loop changes it;
+ * return 0 (writing nothing) where it does not. */
+int roll_access(Emitter *e, int32_t array);
+int roll_const(Emitter *e, NodeId id);
+/* Write run run_index of e->roll: its slots, prologue, tables and loop. */
+void roll_emit(Emitter *e, int run_index, const char *label);
 
 /* emit_parts.c */
 void emit_close_part(Emitter *e);

@@ -91,8 +91,9 @@ void emit_sweep_heading(Emitter *e, const char *text)
 void emit_plan_frame(Emitter *e, Function fn)
 {
     const Ir *ir = e->ir;
-    memset(e->framed, 0, (size_t)ir->arrays.len);
-    for (int i = 0; i < ir->arrays.len; i++)
+    int storage = roll_storage_count(e);
+    memset(e->framed, 0, (size_t)storage);
+    for (int i = 0; i < storage; i++)
         e->ref_part[i] = 0;
     e->dry = 1;
     e->out = &e->part_body;
@@ -135,6 +136,17 @@ void emit_frame(Emitter *e, Function fn)
         buf_printf(e->text, "    %s %s", emit_c_type(e, a), a->name);
         for (int k = 0; k < a->rank; k++)
             buf_printf(e->text, "[%d]", a->dim[k]);
+        buf_put(e->text, ";\n");
+    }
+    for (int i = 0; e->roll && i < e->roll->slots.len; i++) {
+        const RollSlot *s = &e->roll->slots.items[i];
+        if (!e->framed[ir->arrays.len + i])
+            continue;
+        members++;
+        buf_printf(e->text, "    %s " DV_PREFIX "v%d_%d", emit_real_type(e->opt),
+                   s->run + 1, s->q);
+        if (!s->carried)
+            buf_printf(e->text, "[%ld]", s->len);
         buf_put(e->text, ";\n");
     }
     if (!members)   /* the outputs live in *out; C has no empty structs */

@@ -33,6 +33,9 @@ static const char usage[] =
     "                          larger arrays live in the caller's work buffer\n"
     "         --part-size N    write functions of over 4N statements as parts\n"
     "                          of about N statements each (default 100)\n"
+    "         --loop-repeats N  in such functions, write N or more repeats of\n"
+    "                          one form of statements as a loop (default 8;\n"
+    "                          0: never)\n"
     "         --real TYPE      the emitted code's real type: double or float\n"
     "                          (default double)\n"
     "         --emit LIST      the functions to write, of value, gradient,\n"
@@ -93,6 +96,7 @@ typedef struct Args {
     int always_write;       /* build --always-write */
     const char *stack_limit;
     const char *part_size;
+    const char *loop_repeats;
     const char *real;       /* build --real: "double" or "float" */
     const char *emit_list;  /* --emit */
     int emit;               /* its DV_EMIT_* bits, 0 for the default */
@@ -152,6 +156,8 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
             slot = &a->stack_limit;
         else if (is_build && strcmp(opt, "--part-size") == 0)
             slot = &a->part_size;
+        else if (is_build && strcmp(opt, "--loop-repeats") == 0)
+            slot = &a->loop_repeats;
         else if (is_build && strcmp(opt, "--real") == 0)
             slot = &a->real;
         else if (is_build && strcmp(opt, "--deps") == 0)
@@ -227,6 +233,11 @@ static int parse_args(int argc, char **argv, int is_build, Args *a)
     if (a->part_size && !is_count(a->part_size))
         return usage_error("--part-size takes a whole number of "
                            "statements, at least 1, not '%s'", a->part_size);
+    if (a->loop_repeats && strcmp(a->loop_repeats, "0") != 0 &&
+        (!is_count(a->loop_repeats) || strcmp(a->loop_repeats, "1") == 0))
+        return usage_error("--loop-repeats takes 0 (no loops) or a whole "
+                           "number of repeats, at least 2, not '%s'",
+                           a->loop_repeats);
     if (a->real && strcmp(a->real, "double") != 0 &&
         strcmp(a->real, "float") != 0)
         return usage_error("--real takes double or float, not '%s'", a->real);
@@ -255,6 +266,12 @@ static int compile_file(const Args *a, DvCompilation *c,
     o.diag_out = stderr;
     o.stack_limit = a->stack_limit ? strtol(a->stack_limit, NULL, 10) : 0;
     o.part_size = a->part_size ? strtol(a->part_size, NULL, 10) : 0;
+    o.loop_repeats = !a->loop_repeats ? 0
+                     : strcmp(a->loop_repeats, "0") == 0
+                         ? -1 : strtol(a->loop_repeats, NULL, 10);
+    o.loop_repeats = !a->loop_repeats ? 0
+                     : strcmp(a->loop_repeats, "0") == 0
+                         ? -1 : strtol(a->loop_repeats, NULL, 10);
     o.emit = a->emit;
     o.line_directives = a->line_directives;
     o.real_float = a->real && strcmp(a->real, "float") == 0;

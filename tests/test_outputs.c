@@ -150,6 +150,14 @@ START_TEST(usage_errors)
          "--part-size takes a whole number of statements, at least 1, not "
          "'99999999999999999999'"},
         {"check --part-size 64 m.dvs", "unknown option '--part-size'"},
+        {"build m.dvs --loop-repeats", "option --loop-repeats needs a value"},
+        {"build --loop-repeats 1 m.dvs", "--loop-repeats takes 0 (no loops) "
+                                         "or a whole number of repeats, at "
+                                         "least 2, not '1'"},
+        {"build --loop-repeats -3 m.dvs", "--loop-repeats takes 0 (no "
+                                          "loops) or a whole number of "
+                                          "repeats, at least 2, not '-3'"},
+        {"check --loop-repeats 8 m.dvs", "unknown option '--loop-repeats'"},
         {"build m.dvs --real", "option --real needs a value"},
         {"build --real single m.dvs", "--real takes double or float, not "
                                       "'single'"},
@@ -691,7 +699,8 @@ START_TEST(stdout_appended_to_a_file)
 END_TEST
 
 /* A model of n chained statements, whose C source is well over the 1 MiB
- * a Buf holds before passing its text on (malloc'd). */
+ * a Buf holds before passing its text on (malloc'd) when it is built with
+ * --loop-repeats 0 (its statements repeat one form). */
 static char *long_model(int n)
 {
     Buf text = {0};
@@ -709,11 +718,12 @@ START_TEST(long_source_streams_whole)
     char *dir = project();
     char *text = long_model(4000);
     tu_write_in(dir, "m.dvs", text);
-    expect_run(dir, "build m.dvs", 0, "");
+    expect_run(dir, "build --loop-repeats 0 m.dvs", 0, "");
     char *streamed = tu_read_in(dir, "m.c");
     ck_assert_uint_gt(strlen(streamed), 3 * BUF_FLUSH_AT / 2);
-    char *cmd = tu_format("cd '%s' && " CAP "'%s' build -o /dev/stdout "
-                          "--header m.h m.dvs | cat > held.c", dir,
+    char *cmd = tu_format("cd '%s' && " CAP "'%s' build --loop-repeats 0 "
+                          "-o /dev/stdout --header m.h m.dvs | cat > held.c",
+                          dir,
                           tu_abs_dervish());
     ck_assert_int_eq(tu_run_unhung(cmd, NULL, NULL), 0);
     /* the banner names the source file it was written as */
@@ -741,7 +751,8 @@ START_TEST(failure_while_streaming_keeps_outputs)
     char *text = long_model(4000);
     tu_write_in(dir, "m.dvs", text);
     char *cmd = tu_format("cd '%s' && trap '' XFSZ && ulimit -f 1024 && "
-                          CAP "'%s' build m.dvs", dir, tu_abs_dervish());
+                          CAP "'%s' build --loop-repeats 0 m.dvs", dir,
+                          tu_abs_dervish());
     char *err = NULL;
     ck_assert_int_eq(tu_run_unhung(cmd, NULL, &err), 3);
     ck_assert_str_eq(err, "dervish: cannot write m.c: File too large\n");
