@@ -84,6 +84,8 @@ typedef struct RollRun {
                            target); [period]: the number of columns */
     int col_from;       /* the columns, in RollPlan.cols */
     int nconst, nflat;  /* the tables' widths */
+    int32_t *keys;      /* their entries, per repeat: the constants'
+                           nodes, then the arrays reached by position */
     int slot_from;      /* slot of position q: slot_from + q */
     int prologue_from, prologue_to;
 } RollRun;

@@ -71,12 +71,14 @@ typedef struct ShapeWalk {
     int32_t map_val[ROLL_MAP_SIZE];
     char map_consts[ROLL_MAP_SIZE]; /* the node's leaves are constants */
     char map_reads[ROLL_MAP_SIZE];  /* and some of them values */
-    const char *constant;   /* per array: its value is a constant (the
-                               compiler may compute calls of it while
-                               compiling), or NULL: do not ask */
+    char *constant;     /* per array: its value is a constant (the compiler
+                           may compute calls of it while compiling), as far
+                           as the statements walked in order tell; NULL:
+                           do not ask */
     NodeId frozen_root[ROLL_NODES_MAX];     /* calls of constants only */
     int nfrozen;
     int reads;          /* the subexpression walked reads a constant value */
+    int all_constant;   /* the statement walked last computes a constant */
 } ShapeWalk;
 
 static int put_token(ShapeWalk *w, int32_t t)
@@ -176,16 +178,18 @@ static void freeze(Shape *sh, const Ir *ir, NodeId id, NodeId *seen,
 }
 
 /* The shape of s, or 0 when s cannot be in a loop: a loop holds plain
- * assignments and additions to scalars, of expressions of scalars. */
+ * assignments and additions to scalars, of expressions of scalars, but
+ * not of constants only (a constant value stays where the compiler sees
+ * it).  w->all_constant tells which. */
 static int shape_of(ShapeWalk *w, const IrStmt *s, Shape *sh)
 {
     const Ir *ir = w->ir;
     const IrArray *t = &ir->arrays.items[s->target];
+    w->all_constant = 0;
     if ((s->kind != SK_SET && s->kind != SK_ADD) || s->argpos >= 0 ||
         s->row_var >= 0 || t->rank != 0 || t->role == ROLE_ARGPOS ||
-        ir_tuple_len(ir, s->domain) != 0 ||
-        (w->constant && w->constant[s->target]))
-        return 0;   /* a constant value stays where the compiler sees it */
+        ir_tuple_len(ir, s->domain) != 0)
+        return 0;
     w->sh = sh;
     w->nodes = 0;
     if (++w->gen == 0) {
@@ -196,7 +200,9 @@ static int shape_of(ShapeWalk *w, const IrStmt *s, Shape *sh)
     w->nfrozen = 0;
     w->reads = 0;
     put_token(w, TOK_KIND | s->kind);
-    if (!walk_node(w, s->expr))
+    int got = walk_node(w, s->expr);
+    w->all_constant = got == 2;
+    if (got != 1)
         return 0;
     NodeId seen[ROLL_NODES_MAX];
     int nseen = 0;
@@ -607,6 +613,21 @@ static int try_run(Planner *pl, const IrStmtList *list, const uint32_t *hash,
         }
         ROLL_PUSH(plan->cols, col);
     }
+    /* what the tables hold: per repeat, the constants and flat arrays */
+    int width = run.nconst + run.nflat;
+    run.keys = malloc(((size_t)R * width + 1) * sizeof *run.keys);
+    if (!run.keys)
+        exit(3);
+    for (int r = 0; r < R; r++) {
+        int kc = 0, kf = run.nconst;
+        for (int c = 0; c < pl->ncols; c++) {
+            const RollCol *col = &plan->cols.items[run.col_from + c];
+            if (col->kind == COL_TABLE)
+                run.keys[(long)r * width + kc++] = X(pl, r, c);
+            else if (col->kind == COL_FLAT)
+                run.keys[(long)r * width + kf++] = X(pl, r, c);
+        }
+    }
     /* where each value the run defines lives */
     for (int r = 0; r < R; r++)
         for (int q = 0; q < P; q++) {
@@ -620,46 +641,6 @@ static int try_run(Planner *pl, const IrStmtList *list, const uint32_t *hash,
         }
     ROLL_PUSH(plan->runs, run);
     return R * P;
-}
-
-/* Whether expression id reads only constants and constant values. */
-static int constant_expr(Emitter *e, const char *constant, NodeId id)
-{
-    if (e->node[id].visit == e->visit_stamp)
-        return 1;   /* seen: it was, or the walk has stopped */
-    e->node[id].visit = e->visit_stamp;
-    const IrNode *n = ir_at(e->ir, id);
-    if (n->op == IR_READ)
-        return constant[ir_read_array(n)];
-    if (n->op == IR_SIZE || n->op == IR_INDEX)
-        return 0;
-    for (int i = 0; i < n->nargs; i++)
-        if (!constant_expr(e, constant, n->arg[i]))
-            return 0;
-    return 1;
-}
-
-/* Per array, whether the function's statements give it a constant value
- * (reading only constants and such values). */
-static char *constant_values(Emitter *e, const IrStmtList *const lists[2])
-{
-    const Ir *ir = e->ir;
-    char *constant = calloc((size_t)ir->arrays.len + 1, 1);
-    if (!constant)
-        exit(3);
-    for (int l = 0; l < 2 && lists[l]; l++)
-        for (int i = 0; i < lists[l]->len; i++) {
-            const IrStmt *s = &lists[l]->items[i];
-            const IrArray *t = &ir->arrays.items[s->target];
-            e->visit_stamp++;
-            int c = (s->kind == SK_SET || s->kind == SK_ADD) &&
-                    ir_home(ir, t) == HOME_LOCAL &&
-                    constant_expr(e, constant, s->expr);
-            /* a value written twice is constant only if both are */
-            constant[s->target] = (char)(c && (s->kind == SK_SET ||
-                                               constant[s->target]));
-        }
-    return constant;
 }
 
 /* A read or write of array a outside a loop's body (or through a column
@@ -684,8 +665,10 @@ void roll_free(RollPlan *plan)
 {
     if (!plan)
         return;
-    for (int i = 0; i < plan->runs.len; i++)
+    for (int i = 0; i < plan->runs.len; i++) {
         free(plan->runs.items[i].col_at);
+        free(plan->runs.items[i].keys);
+    }
     free(plan->runs.items);
     free(plan->slots.items);
     free(plan->cols.items);
@@ -720,7 +703,9 @@ RollPlan *roll_plan(Emitter *e)
     pl->e = e;
     pl->plan = plan;
     pl->walk.ir = ir;
-    char *constant = constant_values(e, lists);
+    char *constant = calloc(na, 1);
+    if (!constant)
+        exit(3);
     pl->walk.constant = constant;
     pl->out_tangent = ir->struct_output ? -1
                                         : ir->arrays.items[ir->output].tangent;
@@ -730,9 +715,14 @@ RollPlan *roll_plan(Emitter *e)
         if (!hash)
             exit(3);
         Shape sh;
-        for (int i = 0; i < list->len; i++)
-            hash[i] = shape_of(&pl->walk, &list->items[i], &sh) ? shape_hash(&sh)
-                                                               : 0;
+        for (int i = 0; i < list->len; i++) {
+            const IrStmt *s = &list->items[i];
+            hash[i] = shape_of(&pl->walk, s, &sh) ? shape_hash(&sh) : 0;
+            /* a value written twice is constant only if both are */
+            constant[s->target] = (char)(pl->walk.all_constant &&
+                                         (s->kind == SK_SET ||
+                                          constant[s->target]));
+        }
         for (int i = 0; i < list->len;) {
             int took = 0;
             for (int P = 1; P <= ROLL_PERIOD_MAX && !took; P++) {
@@ -911,91 +901,67 @@ int roll_const(Emitter *e, NodeId id)
     return 1;
 }
 
-/* The position of a param-shaped struct's member in the flat view. */
-static long flat_position(const Ir *ir, int32_t a)
+/* Per array, the position of a param in the flat view of the param
+ * struct (malloc'd; other arrays' entries are not set). */
+static long *param_positions(const Ir *ir)
 {
-    while (ir->arrays.items[a].role != ROLE_PARAM)
-        a = ir->arrays.items[a].primal;
-    long at = 0;
-    for (int32_t i = 0; i < a; i++)
-        if (ir->arrays.items[i].role == ROLE_PARAM)
-            at += ir_array_size(&ir->arrays.items[i]);
+    long *at = malloc(((size_t)ir->arrays.len + 1) * sizeof *at);
+    if (!at)
+        exit(3);
+    long next = 0;
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_PARAM) {
+            at[i] = next;
+            next += ir_array_size(&ir->arrays.items[i]);
+        }
     return at;
 }
 
-static void put_row_break(Buf *b, int r, int per_line)
-{
-    buf_put(b, r == 0 ? "\n" : r % per_line == 0 ? ",\n" : ", ");
-}
-
 /* The run's tables: each repeat's constants, and flat positions. */
-static void put_tables(Emitter *e, const RollRun *run, int depth)
+static void put_tables(Emitter *e, const RollRun *run)
 {
     const Ir *ir = e->ir;
-    ShapeWalk *w = calloc(1, sizeof *w);
-    Shape *sh = malloc(sizeof *sh);
-    long *flat_at = NULL;
-    if (!w || !sh)
-        exit(3);
-    w->ir = ir;
     int L = (int)(run - e->roll->runs.items) + 1;
-    const char *pad = depth > 1 ? "        " : "    ";
+    int width = run->nconst + run->nflat;
+    long *param_at = NULL;
     for (int table = 0; table < 2; table++) {
-        int width = table == 0 ? run->nconst : run->nflat;
-        if (width == 0)
+        int from = table == 0 ? 0 : run->nconst;
+        int n = table == 0 ? run->nconst : run->nflat;
+        if (n == 0)
             continue;
         if (table == 0)
-            buf_printf(e->out, "%sstatic const %s " DV_PREFIX "k%d[%d][%d] = {",
-                       pad, emit_real_type(e->opt), L, run->repeats, width);
+            buf_printf(e->out, "        static const %s " DV_PREFIX
+                               "k%d[%d][%d] = {",
+                       emit_real_type(e->opt), L, run->repeats, n);
         else
-            buf_printf(e->out, "%sstatic const int " DV_PREFIX "x%d[%d][%d] = {",
-                       pad, L, run->repeats, width);
-        int per_line = width > 6 ? 1 : 6 / width;
+            buf_printf(e->out, "        static const int " DV_PREFIX
+                               "x%d[%d][%d] = {", L, run->repeats, n);
+        int per_line = n > 6 ? 1 : 6 / n;
         for (int r = 0; r < run->repeats; r++) {
-            put_row_break(e->out, r, per_line);
+            buf_put(e->out, r == 0 ? "\n" : r % per_line == 0 ? ",\n" : ", ");
             if (r % per_line == 0)
-                buf_printf(e->out, "%s    ", pad);
+                buf_put(e->out, "            ");
             buf_put(e->out, "{");
-            int first = 1;
-            for (int q = 0; q < run->period; q++) {
-                const IrStmt *s = &run->list->items[run->from + r * run->period + q];
-                shape_of(w, s, sh);
-                for (int c = run->col_at[q]; c < run->col_at[q + 1]; c++) {
-                    const RollCol *col = &e->roll->cols.items[run->col_from + c];
-                    if (col->kind != (table == 0 ? COL_TABLE : COL_FLAT))
-                        continue;
-                    int32_t a = c == run->col_at[q] ? s->target : 0;
-                    NodeId leaf = c > run->col_at[q] ? sh->leaf[c - run->col_at[q] - 1]
-                                                     : NO_NODE;
-                    if (!first)
-                        buf_put(e->out, ", ");
-                    first = 0;
-                    if (table == 0) {
-                        buf_put(e->out, emit_number(e, ir_const_num(ir_at(ir, leaf))));
-                    } else {
-                        if (leaf != NO_NODE)
-                            a = ir_read_array(ir_at(ir, leaf));
-                        if (!flat_at) {
-                            flat_at = malloc(((size_t)ir->arrays.len + 1) *
-                                             sizeof *flat_at);
-                            if (!flat_at)
-                                exit(3);
-                            for (int i = 0; i <= ir->arrays.len; i++)
-                                flat_at[i] = -1;
-                        }
-                        if (flat_at[a] < 0)
-                            flat_at[a] = flat_position(ir, a);
-                        buf_put_long(e->out, flat_at[a]);
-                    }
+            for (int k = 0; k < n; k++) {
+                int32_t key = run->keys[(long)r * width + from + k];
+                if (k)
+                    buf_put(e->out, ", ");
+                if (table == 0) {
+                    buf_put(e->out, emit_number(e, ir_const_num(ir_at(ir, key))));
+                    continue;
                 }
+                if (!param_at)
+                    param_at = param_positions(ir);
+                /* grad, dir and hv members sit where their param does */
+                while (ir->arrays.items[key].role != ROLE_PARAM)
+                    key = ir->arrays.items[key].primal;
+                buf_put_long(e->out, param_at[key]);
             }
             buf_put(e->out, "}");
         }
-        buf_printf(e->out, "\n%s};\n", pad);
+        buf_put(e->out, "\n        };\n");
     }
-    free(flat_at);
-    free(w);
-    free(sh);
+    free(param_at);
 }
 
 /* Point the flat views the body uses at the caller's structs. */
@@ -1079,7 +1045,7 @@ void roll_emit(Emitter *e, int run_index, const char *label)
     }
     if (!e->dry) {
         buf_put(e->out, "    {\n");
-        put_tables(e, run, 2);
+        put_tables(e, run);
         put_flat_views(e, run, "        ");
         buf_printf(e->out, "        for (int " DV_PREFIX "r = 0; " DV_PREFIX
                            "r < %d; " DV_PREFIX "r++) {\n", run->repeats);

@@ -11,18 +11,23 @@
 /* Models of at most this many IR nodes are compiled again with every
  * derivative product (the tangent pass over the reverse sweep costs some
  * ten times the gradient on a huge statement, which would only slow the
- * fuzzer down). */
+ * fuzzer down), and with every function of more than 4 statements long:
+ * written in parts of one statement, with repeat loops from 2 repeats. */
 #define PRODUCTS_MAX_NODES 20000
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 
-static void compile(const uint8_t *data, size_t size, int emit, int *nodes,
-                    int *struct_output)
+static void compile(const uint8_t *data, size_t size, int emit, int long_fns,
+                    int *nodes, int *struct_output)
 {
     DvCompilation c;
     DvOptions opt;
     memset(&opt, 0, sizeof opt);   /* no diagnostics */
     opt.emit = emit;
+    if (long_fns) {
+        opt.part_size = 1;
+        opt.loop_repeats = 2;
+    }
     if (dv_compile(&c, "fuzz.dvs", (const char *)data, size, &opt) == 0) {
         Buf src = {0}, hdr = {0};
         dv_emit(&c, "fuzz.c", "fuzz.h", &src, &hdr);
@@ -37,12 +42,12 @@ static void compile(const uint8_t *data, size_t size, int emit, int *nodes,
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
 {
     int nodes = -1, struct_output = 0;
-    compile(data, size, 0, &nodes, &struct_output);     /* the defaults */
+    compile(data, size, 0, 0, &nodes, &struct_output);  /* the defaults */
     if (nodes >= 0 && nodes <= PRODUCTS_MAX_NODES)
         compile(data, size,
                 struct_output ? DV_EMIT_STRUCT_DEFAULT | DV_EMIT_TANGENT
                               : DV_EMIT_DEFAULT | DV_EMIT_TANGENT |
                                     DV_EMIT_HESSIAN,
-                &nodes, &struct_output);
+                1, &nodes, &struct_output);
     return 0;
 }
