@@ -417,6 +417,7 @@ static int plan_prologue(Planner *pl, RollRun *run, int R)
 {
     RollPlan *plan = pl->plan;
     int start = plan->prologue.len;
+    run->prologue_from = run->prologue_to = start;
     for (int c = 0; c < pl->ncols; c++) {
         const ColWork *cw = &pl->col[c];
         if (cw->kind != COL_SLOT || cw->slot >= 0)
@@ -445,7 +446,6 @@ static int plan_prologue(Planner *pl, RollRun *run, int R)
                 ROLL_PUSH(plan->prologue, copy);
         }
     }
-    run->prologue_from = start;
     run->prologue_to = plan->prologue.len;
     return 1;
 }
