@@ -84,8 +84,8 @@ typedef struct RollRun {
                            target); [period]: the number of columns */
     int col_from;       /* the columns, in RollPlan.cols */
     int nconst, nflat;  /* the tables' widths */
-    int32_t *keys;      /* their entries, per repeat: the constants'
-                           nodes, then the arrays reached by position */
+    double *consts;     /* the tables' entries, per repeat: constants */
+    int32_t *positions; /* and params' flat positions */
     int slot_from;      /* slot of position q: slot_from + q */
     int prologue_from, prologue_to;
 } RollRun;

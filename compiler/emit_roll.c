@@ -258,6 +258,13 @@ typedef struct Planner {
     ColWork *col;
     int32_t *x;         /* per repeat, per column: the array or node */
     int xcap;
+    /* the list being planned: its statements' shape hashes (0: cannot be
+     * in a loop), found in order as far as `hashed` (a statement is
+     * walked once where it is hashed, as a run looks at it) */
+    const IrStmtList *cur;
+    uint32_t *hash;
+    int hashed;
+    long *param_at;     /* per param array, its flat position, or NULL */
 } Planner;
 
 #define X(p, r, c) ((p)->x[(long)(r) * (p)->ncols + (c)])
@@ -265,6 +272,45 @@ typedef struct Planner {
 static int flat_home(IrHome h)
 {
     return h == HOME_P || h == HOME_GRAD || h == HOME_DIR || h == HOME_HV;
+}
+
+/* Per array, the position of a param in the flat view of the param
+ * struct (malloc'd; other arrays' entries are not set). */
+static long *param_positions(const Ir *ir)
+{
+    long *at = malloc(((size_t)ir->arrays.len + 1) * sizeof *at);
+    if (!at)
+        exit(3);
+    long next = 0;
+    for (int i = 0; i < ir->arrays.len; i++)
+        if (ir->arrays.items[i].role == ROLE_PARAM) {
+            at[i] = next;
+            next += ir_array_size(&ir->arrays.items[i]);
+        }
+    return at;
+}
+
+/* Walk the next statement not yet hashed into sh: its shape's hash, and
+ * whether its target now holds a constant. */
+static uint32_t hash_next(Planner *pl, Shape *sh)
+{
+    int j = pl->hashed++;
+    const IrStmt *s = &pl->cur->items[j];
+    uint32_t h = shape_of(&pl->walk, s, sh) ? shape_hash(sh) : 0;
+    /* a value written twice is constant only if both are */
+    char *constant = pl->walk.constant;
+    constant[s->target] = (char)(pl->walk.all_constant &&
+                                 (s->kind == SK_SET || constant[s->target]));
+    pl->hash[j] = h;
+    return h;
+}
+
+static uint32_t hash_at(Planner *pl, int j)
+{
+    Shape sh;
+    while (pl->hashed <= j)
+        hash_next(pl, &sh);
+    return pl->hash[j];
 }
 
 /* A target that a run may keep in a slot of its own: a scalar local,
@@ -465,9 +511,9 @@ static void grow_x(Planner *pl, long need)
 
 /* Weigh the run of period P starting at list[from]; on success it is
  * added to the plan and its length in statements returned, else 0. */
-static int try_run(Planner *pl, const IrStmtList *list, const uint32_t *hash,
-                   int from, int P)
+static int try_run(Planner *pl, int from, int P)
 {
+    const IrStmtList *list = pl->cur;
     RollPlan *plan = pl->plan;
     const Ir *ir = pl->ir;
     long min = pl->e->opt->loop_repeats;
@@ -498,9 +544,12 @@ static int try_run(Planner *pl, const IrStmtList *list, const uint32_t *hash,
         for (int q = 0; q < P && ok; q++) {
             const IrStmt *s = &list->items[at + q];
             const Shape *b = &pl->body[q];
-            if (R > 0)
-                ok = hash[at + q] == hash[from + q] &&
+            if (R > 0 && at + q < pl->hashed)
+                ok = pl->hash[at + q] == pl->hash[from + q] &&
                      shape_of(&pl->walk, s, &sh) && same_shape(&sh, b);
+            else if (R > 0)
+                ok = hash_next(pl, &sh) == pl->hash[from + q] &&
+                     same_shape(&sh, b);
             const Shape *use = R > 0 ? &sh : b;
             int c = pl->col_at[q];
             X(pl, R, c) = s->target;
@@ -613,19 +662,28 @@ static int try_run(Planner *pl, const IrStmtList *list, const uint32_t *hash,
         }
         ROLL_PUSH(plan->cols, col);
     }
-    /* what the tables hold: per repeat, the constants and flat arrays */
-    int width = run.nconst + run.nflat;
-    run.keys = malloc(((size_t)R * width + 1) * sizeof *run.keys);
-    if (!run.keys)
+    /* what the tables hold, per repeat: the constants, and the flat
+     * positions of the params (grad, dir and hv members sit where their
+     * param does) */
+    run.consts = malloc(((size_t)R * run.nconst + 1) * sizeof *run.consts);
+    run.positions = malloc(((size_t)R * run.nflat + 1) * sizeof *run.positions);
+    if (!run.consts || !run.positions)
         exit(3);
+    if (run.nflat && !pl->param_at)
+        pl->param_at = param_positions(ir);
     for (int r = 0; r < R; r++) {
-        int kc = 0, kf = run.nconst;
+        double *kc = run.consts + (long)r * run.nconst;
+        int32_t *kf = run.positions + (long)r * run.nflat;
         for (int c = 0; c < pl->ncols; c++) {
             const RollCol *col = &plan->cols.items[run.col_from + c];
-            if (col->kind == COL_TABLE)
-                run.keys[(long)r * width + kc++] = X(pl, r, c);
-            else if (col->kind == COL_FLAT)
-                run.keys[(long)r * width + kf++] = X(pl, r, c);
+            int32_t key = X(pl, r, c);
+            if (col->kind == COL_TABLE) {
+                *kc++ = ir_const_num(ir_at(ir, key));
+            } else if (col->kind == COL_FLAT) {
+                while (ir->arrays.items[key].role != ROLE_PARAM)
+                    key = ir->arrays.items[key].primal;
+                *kf++ = (int32_t)pl->param_at[key];
+            }
         }
     }
     /* where each value the run defines lives */
@@ -667,7 +725,8 @@ void roll_free(RollPlan *plan)
         return;
     for (int i = 0; i < plan->runs.len; i++) {
         free(plan->runs.items[i].col_at);
-        free(plan->runs.items[i].keys);
+        free(plan->runs.items[i].consts);
+        free(plan->runs.items[i].positions);
     }
     free(plan->runs.items);
     free(plan->slots.items);
@@ -711,18 +770,11 @@ RollPlan *roll_plan(Emitter *e)
                                         : ir->arrays.items[ir->output].tangent;
     for (int l = 0; l < 2 && lists[l]; l++) {
         const IrStmtList *list = lists[l];
-        uint32_t *hash = malloc(((size_t)list->len + 1) * sizeof *hash);
-        if (!hash)
+        pl->hash = malloc(((size_t)list->len + 1) * sizeof *pl->hash);
+        if (!pl->hash)
             exit(3);
-        Shape sh;
-        for (int i = 0; i < list->len; i++) {
-            const IrStmt *s = &list->items[i];
-            hash[i] = shape_of(&pl->walk, s, &sh) ? shape_hash(&sh) : 0;
-            /* a value written twice is constant only if both are */
-            constant[s->target] = (char)(pl->walk.all_constant &&
-                                         (s->kind == SK_SET ||
-                                          constant[s->target]));
-        }
+        pl->cur = list;
+        pl->hashed = 0;
         for (int i = 0; i < list->len;) {
             int took = 0;
             for (int P = 1; P <= ROLL_PERIOD_MAX && !took; P++) {
@@ -730,9 +782,10 @@ RollPlan *roll_plan(Emitter *e)
                     break;
                 int same = 1;
                 for (int q = 0; q < P && same; q++)
-                    same = hash[i + q] && hash[i + q] == hash[i + P + q];
+                    same = hash_at(pl, i + q) &&
+                           hash_at(pl, i + q) == hash_at(pl, i + P + q);
                 if (same)
-                    took = try_run(pl, list, hash, i, P);
+                    took = try_run(pl, i, P);
             }
             if (took) {
                 i += took;
@@ -743,7 +796,9 @@ RollPlan *roll_plan(Emitter *e)
             if (s->argpos >= 0)
                 pl->written[s->argpos] = 1;
         }
-        free(hash);
+        if (list->len > 0)
+            hash_at(pl, list->len - 1);     /* the constants the rest read */
+        free(pl->hash);
         plan->list_runs[l + 1] = plan->runs.len;
     }
     if (!lists[1])
@@ -755,6 +810,7 @@ RollPlan *roll_plan(Emitter *e)
     free(pl->col_at);
     free(pl->col);
     free(pl->x);
+    free(pl->param_at);
     free(pl);
     if (plan->runs.len == 0) {
         roll_free(plan);
@@ -901,31 +957,11 @@ int roll_const(Emitter *e, NodeId id)
     return 1;
 }
 
-/* Per array, the position of a param in the flat view of the param
- * struct (malloc'd; other arrays' entries are not set). */
-static long *param_positions(const Ir *ir)
-{
-    long *at = malloc(((size_t)ir->arrays.len + 1) * sizeof *at);
-    if (!at)
-        exit(3);
-    long next = 0;
-    for (int i = 0; i < ir->arrays.len; i++)
-        if (ir->arrays.items[i].role == ROLE_PARAM) {
-            at[i] = next;
-            next += ir_array_size(&ir->arrays.items[i]);
-        }
-    return at;
-}
-
 /* The run's tables: each repeat's constants, and flat positions. */
 static void put_tables(Emitter *e, const RollRun *run)
 {
-    const Ir *ir = e->ir;
     int L = (int)(run - e->roll->runs.items) + 1;
-    int width = run->nconst + run->nflat;
-    long *param_at = NULL;
     for (int table = 0; table < 2; table++) {
-        int from = table == 0 ? 0 : run->nconst;
         int n = table == 0 ? run->nconst : run->nflat;
         if (n == 0)
             continue;
@@ -943,25 +979,17 @@ static void put_tables(Emitter *e, const RollRun *run)
                 buf_put(e->out, "            ");
             buf_put(e->out, "{");
             for (int k = 0; k < n; k++) {
-                int32_t key = run->keys[(long)r * width + from + k];
                 if (k)
                     buf_put(e->out, ", ");
-                if (table == 0) {
-                    buf_put(e->out, emit_number(e, ir_const_num(ir_at(ir, key))));
-                    continue;
-                }
-                if (!param_at)
-                    param_at = param_positions(ir);
-                /* grad, dir and hv members sit where their param does */
-                while (ir->arrays.items[key].role != ROLE_PARAM)
-                    key = ir->arrays.items[key].primal;
-                buf_put_long(e->out, param_at[key]);
+                if (table == 0)
+                    buf_put(e->out, emit_number(e, run->consts[(long)r * n + k]));
+                else
+                    buf_put_long(e->out, run->positions[(long)r * n + k]);
             }
             buf_put(e->out, "}");
         }
         buf_put(e->out, "\n        };\n");
     }
-    free(param_at);
 }
 
 /* Point the flat views the body uses at the caller's structs. */
