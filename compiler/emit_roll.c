@@ -246,10 +246,14 @@ typedef struct Planner {
     RollPlan *plan;
     ShapeWalk walk;
     char *written;      /* per array: written by an earlier statement */
-    int *own_stamp;     /* per array: own target of the candidate (stamp) */
-    int *own_pos;       /* and its repeat * period + position */
+    char *may_own;      /* per array: a target a run may keep in a slot of
+                           its own, if first written there: a scalar local
+                           the function does not hand back */
+    struct {
+        int stamp;      /* an own target of the candidate stamped so */
+        int pos;        /* at repeat * period + position */
+    } *own;             /* per array */
     int stamp;
-    int32_t out_tangent;
     /* the candidate */
     const IrStmtList *list;
     int from, period, ncols;
@@ -313,16 +317,30 @@ static uint32_t hash_at(Planner *pl, int j)
     return pl->hash[j];
 }
 
-/* A target that a run may keep in a slot of its own: a scalar local,
- * first defined here, not one the function hands back. */
+/* Per array, whether a run may keep it in a slot of its own (found once,
+ * in array order, rather than in the order runs meet them). */
+static char *may_own_arrays(const Ir *ir)
+{
+    char *may = malloc((size_t)ir->arrays.len + 1);
+    if (!may)
+        exit(3);
+    int32_t out_tangent = ir->struct_output ? -1
+                          : ir->arrays.items[ir->output].tangent;
+    for (int32_t a = 0; a < ir->arrays.len; a++) {
+        const IrArray *t = &ir->arrays.items[a];
+        may[a] = (char)(t->rank == 0 && !t->is_output && a != ir->output &&
+                        a != out_tangent && ir_home(ir, t) == HOME_LOCAL &&
+                        (t->role == ROLE_VALUE || t->role == ROLE_ADJOINT ||
+                         t->role == ROLE_TANGENT || t->role == ROLE_TEMP));
+    }
+    return may;
+}
+
+/* A target that a run may keep in a slot of its own: one that may be,
+ * first defined here. */
 static int fresh_target(const Planner *pl, int32_t a, int kind)
 {
-    const IrArray *t = &pl->ir->arrays.items[a];
-    return kind == SK_SET && t->rank == 0 && !t->is_output &&
-           a != pl->ir->output && a != pl->out_tangent &&
-           ir_home(pl->ir, t) == HOME_LOCAL && !pl->written[a] &&
-           (t->role == ROLE_VALUE || t->role == ROLE_ADJOINT ||
-            t->role == ROLE_TANGENT || t->role == ROLE_TEMP);
+    return kind == SK_SET && pl->may_own[a] && !pl->written[a];
 }
 
 /* How many repeats from the first the outside column c follows one rule
@@ -402,12 +420,12 @@ static int columns_reach(Planner *pl, int R)
                 continue;
             int32_t a = X(pl, r, c);
             int kind = list->items[pl->from + r * P + q].kind;
-            if (!fresh_target(pl, a, kind) || pl->own_stamp[a] == pl->stamp) {
+            if (!fresh_target(pl, a, kind) || pl->own[a].stamp == pl->stamp) {
                 reach = r;
                 break;
             }
-            pl->own_stamp[a] = pl->stamp;
-            pl->own_pos[a] = r * P + q;
+            pl->own[a].stamp = pl->stamp;
+            pl->own[a].pos = r * P + q;
         }
     for (int c = 0; c < pl->ncols; c++) {
         ColWork *cw = &pl->col[c];
@@ -417,12 +435,12 @@ static int columns_reach(Planner *pl, int R)
         if (!cw->is_const)
             for (; r < reach; r++) {
                 int32_t a = X(pl, r, c);
-                if (pl->own_stamp[a] != pl->stamp) {
+                if (pl->own[a].stamp != pl->stamp) {
                     if (est)
                         break;
                     continue;
                 }
-                int rr = pl->own_pos[a] / P, qq = pl->own_pos[a] % P;
+                int rr = pl->own[a].pos / P, qq = pl->own[a].pos % P;
                 int d = r - rr;
                 if (!est) {
                     /* a read d back starts in the d-th repeat; targets
@@ -750,12 +768,11 @@ RollPlan *roll_plan(Emitter *e)
         exit(3);
     plan->home = malloc(na * sizeof *plan->home);
     pl->written = calloc(na, 1);
-    pl->own_stamp = calloc(na, sizeof *pl->own_stamp);
-    pl->own_pos = calloc(na, sizeof *pl->own_pos);
+    pl->own = calloc(na, sizeof *pl->own);
     pl->col_at = malloc((ROLL_PERIOD_MAX + 1) * sizeof *pl->col_at);
-    if (!plan->home || !pl->written || !pl->own_stamp || !pl->own_pos ||
-        !pl->col_at)
+    if (!plan->home || !pl->written || !pl->own || !pl->col_at)
         exit(3);
+    pl->may_own = may_own_arrays(ir);
     for (size_t i = 0; i < na; i++)
         plan->home[i].slot = -1;
     pl->ir = ir;
@@ -766,8 +783,6 @@ RollPlan *roll_plan(Emitter *e)
     if (!constant)
         exit(3);
     pl->walk.constant = constant;
-    pl->out_tangent = ir->struct_output ? -1
-                                        : ir->arrays.items[ir->output].tangent;
     for (int l = 0; l < 2 && lists[l]; l++) {
         const IrStmtList *list = lists[l];
         pl->hash = malloc(((size_t)list->len + 1) * sizeof *pl->hash);
@@ -805,8 +820,8 @@ RollPlan *roll_plan(Emitter *e)
         plan->list_runs[2] = plan->runs.len;
     free(constant);
     free(pl->written);
-    free(pl->own_stamp);
-    free(pl->own_pos);
+    free(pl->own);
+    free(pl->may_own);
     free(pl->col_at);
     free(pl->col);
     free(pl->x);
