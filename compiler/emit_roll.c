@@ -527,35 +527,18 @@ static void grow_x(Planner *pl, long need)
     pl->xcap = (int)cap;
 }
 
-/* Weigh the run of period P starting at list[from]; on success it is
- * added to the plan and its length in statements returned, else 0. */
-static int try_run(Planner *pl, int from, int P)
+/* Read the repeats of the candidate's form from repeat R on, up to max
+ * repeats, into pl->x; returns how many repeats (from the first) have
+ * the form's shapes. */
+static int scan_shapes(Planner *pl, int R, int max)
 {
     const IrStmtList *list = pl->cur;
-    RollPlan *plan = pl->plan;
     const Ir *ir = pl->ir;
-    long min = pl->e->opt->loop_repeats;
-    for (int q = 0; q < P; q++)
-        if (!shape_of(&pl->walk, &list->items[from + q], &pl->body[q]))
-            return 0;
-    pl->list = list;
-    pl->from = from;
-    pl->period = P;
-    pl->ncols = 0;
-    for (int q = 0; q < P; q++) {
-        pl->col_at[q] = pl->ncols;
-        pl->ncols += 1 + pl->body[q].nleaf;
-    }
-    pl->col_at[P] = pl->ncols;
-    pl->col = realloc(pl->col, (size_t)pl->ncols * sizeof *pl->col);
-    if (!pl->col)
-        exit(3);
-    /* the repeats whose statements have the form's shapes */
+    int from = pl->from, P = pl->period;
     Shape sh;
-    int R = 0;
-    for (;; R++) {
+    for (; R < max; R++) {
         int at = from + R * P;
-        if (at + P > list->len || R == ROLL_REPEATS_MAX)
+        if (at + P > list->len)
             break;
         grow_x(pl, (long)(R + 1) * pl->ncols);
         int ok = 1;
@@ -580,6 +563,32 @@ static int try_run(Planner *pl, int from, int P)
         if (!ok)
             break;
     }
+    return R;
+}
+
+/* Weigh the run of period P starting at list[from]; on success it is
+ * added to the plan and its length in statements returned, else 0. */
+static int try_run(Planner *pl, int from, int P)
+{
+    const IrStmtList *list = pl->cur;
+    RollPlan *plan = pl->plan;
+    const Ir *ir = pl->ir;
+    long min = pl->e->opt->loop_repeats;
+    for (int q = 0; q < P; q++)
+        if (!shape_of(&pl->walk, &list->items[from + q], &pl->body[q]))
+            return 0;
+    pl->list = list;
+    pl->from = from;
+    pl->period = P;
+    pl->ncols = 0;
+    for (int q = 0; q < P; q++) {
+        pl->col_at[q] = pl->ncols;
+        pl->ncols += 1 + pl->body[q].nleaf;
+    }
+    pl->col_at[P] = pl->ncols;
+    pl->col = realloc(pl->col, (size_t)pl->ncols * sizeof *pl->col);
+    if (!pl->col)
+        exit(3);
     for (int q = 0; q < P; q++) {
         int c = pl->col_at[q];
         for (int k = c; k < pl->col_at[q + 1]; k++) {
@@ -592,6 +601,15 @@ static int try_run(Planner *pl, int from, int P)
             cw->frozen = k > c && pl->body[q].frozen[k - c - 1];
         }
     }
+    /* the repeats whose statements have the form's shapes: first a few,
+     * for the columns to be checked on before a long run is read (a run
+     * whose shapes repeat but whose leaves do not would otherwise be read
+     * whole at each start tried) */
+    int probe = (int)min + ROLL_DEPTH_MAX + 2;
+    int R = scan_shapes(pl, 0, probe);
+    if (R < min || (R == probe && columns_reach(pl, R) < min))
+        return 0;
+    R = scan_shapes(pl, R, ROLL_REPEATS_MAX);
     /* cut the run until every column follows its rule to its end */
     while (R >= min) {
         int reach = columns_reach(pl, R);
