@@ -234,7 +234,9 @@ int roll_storage_count(const Emitter *e);
 int roll_storage(const Emitter *e, int32_t array);
 /* Write an access to array or constant id where a loop changes it;
  * return 0 (writing nothing) where it does not. */
-int roll_access(Emitter *e, int32_t array);
+int roll_access(Emitter *e, int32_t array);  /* with e->roll set */
+/* Declare slot (a local, or a member of the frame) to b. */
+void roll_declare_slot(const Emitter *e, Buf *b, int slot);
 int roll_const(Emitter *e, NodeId id);
 /* Write run run_index of e->roll: its slots, prologue, tables and loop. */
 void roll_emit(Emitter *e, int run_index, const char *label);

@@ -138,17 +138,11 @@ void emit_frame(Emitter *e, Function fn)
             buf_printf(e->text, "[%d]", a->dim[k]);
         buf_put(e->text, ";\n");
     }
-    for (int i = 0; e->roll && i < e->roll->slots.len; i++) {
-        const RollSlot *s = &e->roll->slots.items[i];
-        if (!e->framed[ir->arrays.len + i])
-            continue;
-        members++;
-        buf_printf(e->text, "    %s " DV_PREFIX "v%d_%d", emit_real_type(e->opt),
-                   s->run + 1, s->q);
-        if (!s->carried)
-            buf_printf(e->text, "[%ld]", s->len);
-        buf_put(e->text, ";\n");
-    }
+    for (int i = 0; e->roll && i < e->roll->slots.len; i++)
+        if (e->framed[ir->arrays.len + i]) {
+            members++;
+            roll_declare_slot(e, e->text, i);
+        }
     if (!members)   /* the outputs live in *out; C has no empty structs */
         buf_put(e->text, "    char " DV_PREFIX "nothing;   /* the parts share "
                          "no values */\n");

@@ -772,6 +772,34 @@ void roll_free(RollPlan *plan)
     free(plan);
 }
 
+/* The statements outside the loops, the prologues and the columns
+ * written as is decide which slots can be carried scalars: a slot read
+ * there anywhere but at its last repeat needs an array. */
+static void decide_carried(Emitter *e, RollPlan *plan,
+                           const IrStmtList *const lists[2])
+{
+    for (int l = 0; l < 2 && lists[l]; l++)
+        for (int i = 0; i < lists[l]->len;) {
+            int k = roll_run_at(plan, l, i);
+            if (k >= 0) {
+                const RollRun *run = &plan->runs.items[k];
+                for (int c = run->col_from;
+                     c < run->col_from + run->col_at[run->period]; c++)
+                    if (plan->cols.items[c].kind == COL_AS_IS &&
+                        !plan->cols.items[c].is_const)
+                        note_outside(plan, plan->cols.items[c].key);
+                for (int p = run->prologue_from; p < run->prologue_to; p++)
+                    note_outside(plan, plan->prologue.items[p].array);
+                i += run->repeats * run->period;
+                continue;
+            }
+            const IrStmt *s = &lists[l]->items[i++];
+            note_outside(plan, s->target);
+            e->visit_stamp++;
+            emit_each_read(e, s->expr, note_outside_read, plan);
+        }
+}
+
 RollPlan *roll_plan(Emitter *e)
 {
     const Ir *ir = e->ir;
@@ -849,28 +877,7 @@ RollPlan *roll_plan(Emitter *e)
         roll_free(plan);
         return NULL;
     }
-    /* the statements outside the loops, the prologues and the columns
-     * written as is decide which slots can be carried scalars */
-    for (int l = 0; l < 2 && lists[l]; l++)
-        for (int i = 0; i < lists[l]->len;) {
-            int k = roll_run_at(plan, l, i);
-            if (k >= 0) {
-                const RollRun *run = &plan->runs.items[k];
-                for (int c = run->col_from;
-                     c < run->col_from + run->col_at[run->period]; c++)
-                    if (plan->cols.items[c].kind == COL_AS_IS &&
-                        !plan->cols.items[c].is_const)
-                        note_outside(plan, plan->cols.items[c].key);
-                for (int p = run->prologue_from; p < run->prologue_to; p++)
-                    note_outside(plan, plan->prologue.items[p].array);
-                i += run->repeats * run->period;
-                continue;
-            }
-            const IrStmt *s = &lists[l]->items[i++];
-            note_outside(plan, s->target);
-            e->visit_stamp++;
-            emit_each_read(e, s->expr, note_outside_read, plan);
-        }
+    decide_carried(e, plan, lists);
     for (int i = 0; i < plan->runs.len; i++) {
         const RollRun *run = &plan->runs.items[i];
         plan->saved += (run->repeats - 1) * run->period;
@@ -926,10 +933,20 @@ int roll_storage_count(const Emitter *e)
     return e->ir->arrays.len + (e->roll ? e->roll->slots.len : 0);
 }
 
-static void put_slot_name(Emitter *e, Buf *b, int slot)
+static void put_slot_name(const Emitter *e, Buf *b, int slot)
 {
     const RollSlot *s = &e->roll->slots.items[slot];
     buf_printf(b, DV_PREFIX "v%d_%d", s->run + 1, s->q);
+}
+
+void roll_declare_slot(const Emitter *e, Buf *b, int slot)
+{
+    const RollSlot *s = &e->roll->slots.items[slot];
+    buf_printf(b, "    %s ", emit_real_type(e->opt));
+    put_slot_name(e, b, slot);
+    if (!s->carried)
+        buf_printf(b, "[%ld]", s->len);
+    buf_put(b, ";\n");
 }
 
 /* A slot's storage, with the frame's prefix when it lives there. */
@@ -955,8 +972,6 @@ static void put_index(Buf *b, int step, long off)
 
 int roll_access(Emitter *e, int32_t array)
 {
-    if (!e->roll)
-        return 0;
     const RollCol *col = body_col(e, array, 0);
     if (col && col->kind == COL_FLAT) {
         buf_printf(e->out, DV_PREFIX "%s_flat[" DV_PREFIX "x%d[" DV_PREFIX
@@ -1081,11 +1096,7 @@ void roll_emit(Emitter *e, int run_index, const char *label)
         }
         if (e->parted && e->framed[id])
             continue;
-        buf_printf(e->out, "    %s ", emit_real_type(e->opt));
-        put_slot_name(e, e->out, slot);
-        if (!plan->slots.items[slot].carried)
-            buf_printf(e->out, "[%ld]", plan->slots.items[slot].len);
-        buf_put(e->out, ";\n");
+        roll_declare_slot(e, e->out, slot);
     }
     for (int p = run->prologue_from; p < run->prologue_to; p++) {
         const RollCopy *copy = &plan->prologue.items[p];
